@@ -1,0 +1,156 @@
+//! Command-line front end: argument parsing and dispatch. Results go to stdout, diagnostics to
+//! stderr. Exit codes: 0 success, 1 ran but did not reach the target or orbit, 2 bad input or usage.
+
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+use anyhow::{bail, Context};
+use clap::{Parser, Subcommand};
+
+use crate::error::ProblemError;
+use crate::problem::Problem;
+use crate::report::{text, FlightReport};
+use crate::sim::{fly, FlyOptions};
+
+/// kickturn: ascent pitch-program optimizer with an exact ΔV loss budget.
+#[derive(Debug, Parser)]
+#[command(name = "kickturn", version, about, long_about = None)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// Subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Fly the program in a problem file and report the ΔV budget.
+    Fly(FlyArgs),
+}
+
+/// Arguments of `fly`.
+#[derive(Debug, clap::Args)]
+pub struct FlyArgs {
+    /// Problem file (JSON).
+    pub problem: PathBuf,
+    /// Print one JSON object instead of the text report.
+    #[arg(long)]
+    pub json: bool,
+    /// Write the time history to this CSV file.
+    #[arg(long, value_name = "FILE")]
+    pub csv: Option<PathBuf>,
+    /// Time-history spacing for --csv, s.
+    #[arg(long, default_value_t = 1.0, value_name = "S")]
+    pub csv_step_s: f64,
+}
+
+/// Exit code for success.
+pub const EXIT_OK: u8 = 0;
+/// Exit code when the run completed but the target or orbit was not reached.
+pub const EXIT_NOT_REACHED: u8 = 1;
+/// Exit code for bad input or usage.
+pub const EXIT_BAD_INPUT: u8 = 2;
+
+/// Parses arguments, runs, and maps the outcome to an exit code.
+pub fn main_with_args(args: impl IntoIterator<Item = std::ffi::OsString>) -> ExitCode {
+    let cli = match Cli::try_parse_from(args) {
+        Ok(c) => c,
+        Err(e) => {
+            let code = if e.use_stderr() {
+                EXIT_BAD_INPUT
+            } else {
+                EXIT_OK
+            };
+            let _ = e.print();
+            return ExitCode::from(code);
+        }
+    };
+    match run(cli) {
+        Ok(code) => ExitCode::from(code),
+        Err(err) => {
+            eprintln!("error: {err:#}");
+            ExitCode::from(EXIT_BAD_INPUT)
+        }
+    }
+}
+
+fn run(cli: Cli) -> anyhow::Result<u8> {
+    match cli.command {
+        Command::Fly(a) => run_fly(&a),
+    }
+}
+
+fn load(path: &Path) -> anyhow::Result<Problem> {
+    Problem::from_path(path).map_err(|e| match e {
+        ProblemError::Io(io) => anyhow::Error::new(io).context(format!("{}", path.display())),
+        other => anyhow::Error::new(other).context(format!("{}", path.display())),
+    })
+}
+
+fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
+    let p = load(&a.problem)?;
+    if !(a.csv_step_s.is_finite() && a.csv_step_s > 0.0) {
+        bail!(
+            "--csv-step-s: must be a finite number > 0, got {}",
+            a.csv_step_s
+        );
+    }
+    let opts = FlyOptions {
+        record_step_s: a.csv.as_ref().map(|_| a.csv_step_s),
+        initial: None,
+    };
+    let flight = fly(&p, &opts);
+    let report = FlightReport::new(&p, &flight);
+    if let Some(path) = &a.csv {
+        write_atomic(path, &a.problem, |w| {
+            crate::report::csv_out::write_history(w, &flight.history).map_err(Into::into)
+        })?;
+    }
+    if a.json {
+        println!("{}", serde_json::to_string_pretty(&report)?);
+    } else {
+        print!("{}", text::render(&report));
+    }
+    Ok(if report.reached_orbit() {
+        EXIT_OK
+    } else {
+        EXIT_NOT_REACHED
+    })
+}
+
+/// Writes a file atomically (temporary file in the same folder, then rename); refuses to write
+/// over the input file.
+pub fn write_atomic(
+    path: &Path,
+    input: &Path,
+    body: impl FnOnce(&mut std::fs::File) -> anyhow::Result<()>,
+) -> anyhow::Result<()> {
+    if let (Ok(a), Ok(b)) = (path.canonicalize(), input.canonicalize()) {
+        if a == b {
+            bail!("{}: refusing to write over the input file", path.display());
+        }
+    }
+    let dir = path
+        .parent()
+        .filter(|d| !d.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    let name = path
+        .file_name()
+        .with_context(|| format!("{}: not a file name", path.display()))?;
+    let tmp = dir.join(format!(
+        ".{}.tmp{}",
+        name.to_string_lossy(),
+        std::process::id()
+    ));
+    let result = (|| {
+        let mut f = std::fs::File::create(&tmp)
+            .with_context(|| format!("cannot create {}", tmp.display()))?;
+        body(&mut f)?;
+        f.sync_all()?;
+        std::fs::rename(&tmp, path).with_context(|| format!("cannot write {}", path.display()))
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_file(&tmp);
+    }
+    result
+}

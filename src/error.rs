@@ -1,0 +1,57 @@
+//! Typed errors at the library boundary. Each message names the input field (as a JSON path such
+//! as `vehicle.stages[1].isp_vac_s`) or the time and state where something went wrong.
+
+use thiserror::Error;
+
+/// A problem file that cannot be used.
+#[derive(Debug, Error)]
+#[non_exhaustive]
+pub enum ProblemError {
+    /// The file could not be read.
+    #[error("cannot read problem file: {0}")]
+    Io(#[from] std::io::Error),
+    /// The JSON is malformed or does not match the format (unknown or missing field, wrong type).
+    #[error("{path}: {message}")]
+    Format {
+        /// JSON path of the offending field (`.` for the document).
+        path: String,
+        /// What is wrong, with line and column.
+        message: String,
+    },
+    /// A value is out of range or inconsistent with another.
+    #[error("{field}: {reason}")]
+    Invalid {
+        /// JSON path of the field.
+        field: String,
+        /// Why it is rejected.
+        reason: String,
+    },
+}
+
+impl ProblemError {
+    /// Shorthand for [`ProblemError::Invalid`].
+    pub fn invalid(field: impl Into<String>, reason: impl Into<String>) -> Self {
+        ProblemError::Invalid {
+            field: field.into(),
+            reason: reason.into(),
+        }
+    }
+}
+
+/// The requested launch cannot reach the inclination by a direct ascent. Not bad input: the
+/// command reports it and exits with code 1.
+#[derive(Debug, Error, Clone, PartialEq)]
+#[error(
+    "inclination {inclination_deg:.3}° cannot be reached by a direct ascent from geocentric \
+     latitude {latitude_deg:.3}° (lowest reachable: {latitude_deg:.3}°); a plane change of \
+     {plane_change_mps:.0} m/s at the target's circular speed would be needed (upper bound: \
+     2·v·sin(Δi/2), no combination with another burn)"
+)]
+pub struct UnreachableInclination {
+    /// Requested inclination, degrees.
+    pub inclination_deg: f64,
+    /// Site geocentric latitude, degrees (absolute value).
+    pub latitude_deg: f64,
+    /// ΔV of the plane change after a launch into i = |latitude|, m/s.
+    pub plane_change_mps: f64,
+}

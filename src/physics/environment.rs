@@ -1,0 +1,160 @@
+//! The environment seen by the vehicle at one instant: altitude, local frame, gravity, air and the
+//! Earth-relative velocity, for either the rotating WGS-84 Earth or a flat-Earth check model.
+//!
+//! Frames. `Wgs84`: the state is in an Earth-centred inertial frame that coincides with the
+//! Earth-fixed frame at t = 0 (Greenwich angle θ_g0 = 0, so θ = ω_E·t). The air co-rotates with
+//! the Earth: `v_rel = v − ω_E × r`. Altitude is geodetic (WGS-84 ellipsoid), the local vertical is
+//! the ellipsoid normal. `Flat`: x east, y north, z up, uniform gravity −g ẑ, no rotation; used to
+//! reproduce closed-form solutions (Culler & Fried 1957, Bryson & Ho 1975).
+
+use nalgebra::Vector3;
+
+use super::atmosphere::{us1976, AtmosphereState};
+use super::earth::{self, Geodetic};
+
+/// Shape, gravity and rotation of the Earth model.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum EarthModel {
+    /// WGS-84 ellipsoid, point-mass gravity plus optionally J2, rotation optional (checks).
+    Wgs84 {
+        /// Include the J2 zonal term.
+        j2: bool,
+        /// Rotate the Earth (and its atmosphere) at ω_E.
+        rotation: bool,
+    },
+    /// Flat Earth, uniform gravity of this magnitude (m/s²), no rotation; for closed-form checks.
+    Flat {
+        /// Gravity magnitude, m/s².
+        gravity_mps2: f64,
+    },
+}
+
+/// Atmosphere model.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum AtmosphereModel {
+    /// U.S. Standard Atmosphere 1976 (see [`super::atmosphere`]).
+    Us1976,
+    /// No air: zero density and pressure.
+    Vacuum,
+    /// The same air at every altitude (closed-form checks).
+    Constant(AtmosphereState),
+}
+
+/// Earth and atmosphere together.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Environment {
+    /// Earth model.
+    pub earth: EarthModel,
+    /// Atmosphere model.
+    pub atmosphere: AtmosphereModel,
+}
+
+/// Local conditions at one state. Vectors are in the integration frame.
+#[derive(Debug, Clone, Copy)]
+pub struct Local {
+    /// Geodetic latitude, rad (0 in the flat model).
+    pub latitude_rad: f64,
+    /// Earth-fixed longitude, rad (0 in the flat model).
+    pub longitude_rad: f64,
+    /// Altitude above the ellipsoid (flat: z), m.
+    pub altitude_m: f64,
+    /// Local vertical (ellipsoid normal), unit.
+    pub up: Vector3<f64>,
+    /// Local east, unit.
+    pub east: Vector3<f64>,
+    /// Local north, unit.
+    pub north: Vector3<f64>,
+    /// Gravitational acceleration, m/s².
+    pub gravity_mps2: Vector3<f64>,
+    /// Velocity relative to the co-rotating air, m/s.
+    pub v_rel_mps: Vector3<f64>,
+    /// Centrifugal acceleration −ω×(ω×r) of the rotating frame, m/s².
+    pub centrifugal_mps2: Vector3<f64>,
+    /// Air properties.
+    pub air: AtmosphereState,
+}
+
+const VACUUM: AtmosphereState = AtmosphereState {
+    temperature_k: 0.0,
+    pressure_pa: 0.0,
+    density_kg_m3: 0.0,
+    speed_of_sound_mps: 1.0,
+};
+
+impl Environment {
+    /// Earth angular velocity vector in the integration frame, rad/s.
+    pub fn omega_rad_s(&self) -> Vector3<f64> {
+        match self.earth {
+            EarthModel::Wgs84 { rotation: true, .. } => {
+                Vector3::new(0.0, 0.0, earth::WGS84_OMEGA_RAD_S)
+            }
+            _ => Vector3::zeros(),
+        }
+    }
+
+    /// Earth rotation angle at time `t_s`, rad (θ = ω t, θ_g0 = 0).
+    pub fn rotation_angle_rad(&self, t_s: f64) -> f64 {
+        self.omega_rad_s().z * t_s
+    }
+
+    /// Air at altitude `altitude_m`.
+    pub fn air(&self, altitude_m: f64) -> AtmosphereState {
+        match self.atmosphere {
+            AtmosphereModel::Us1976 => us1976(altitude_m),
+            AtmosphereModel::Vacuum => VACUUM,
+            AtmosphereModel::Constant(a) => a,
+        }
+    }
+
+    /// Initial inertial state of a point resting on the pad: position and velocity (m, m/s).
+    pub fn pad_state(&self, site: &Geodetic) -> (Vector3<f64>, Vector3<f64>) {
+        match self.earth {
+            EarthModel::Wgs84 { .. } => {
+                let r = earth::geodetic_to_ecef(site);
+                (r, self.omega_rad_s().cross(&r))
+            }
+            EarthModel::Flat { .. } => (Vector3::new(0.0, 0.0, site.altitude_m), Vector3::zeros()),
+        }
+    }
+
+    /// Local conditions at time `t_s`, position `r_m`, inertial velocity `v_mps`. No allocation.
+    pub fn local(&self, t_s: f64, r_m: &Vector3<f64>, v_mps: &Vector3<f64>) -> Local {
+        match self.earth {
+            EarthModel::Wgs84 { j2, .. } => self.local_wgs84(t_s, r_m, v_mps, j2),
+            EarthModel::Flat { gravity_mps2 } => Local {
+                latitude_rad: 0.0,
+                longitude_rad: 0.0,
+                altitude_m: r_m.z,
+                up: Vector3::z(),
+                east: Vector3::x(),
+                north: Vector3::y(),
+                gravity_mps2: Vector3::new(0.0, 0.0, -gravity_mps2),
+                v_rel_mps: *v_mps,
+                centrifugal_mps2: Vector3::zeros(),
+                air: self.air(r_m.z),
+            },
+        }
+    }
+
+    fn local_wgs84(&self, t_s: f64, r: &Vector3<f64>, v: &Vector3<f64>, j2: bool) -> Local {
+        let omega = self.omega_rad_s();
+        let theta = omega.z * t_s;
+        let g = earth::ecef_to_geodetic(&earth::eci_to_ecef(r, theta));
+        // Rotating about z by θ adds θ to the longitude, so the inertial local frame is the
+        // Earth-fixed frame evaluated at λ + θ.
+        let (up, east, north) = earth::local_frame(g.latitude_rad, g.longitude_rad + theta);
+        let w_x_r = omega.cross(r);
+        Local {
+            latitude_rad: g.latitude_rad,
+            longitude_rad: g.longitude_rad,
+            altitude_m: g.altitude_m,
+            up,
+            east,
+            north,
+            gravity_mps2: earth::gravity(r, j2),
+            v_rel_mps: v - w_x_r,
+            centrifugal_mps2: -omega.cross(&w_x_r),
+            air: self.air(g.altitude_m),
+        }
+    }
+}

@@ -1,0 +1,366 @@
+//! The problem file as written by the user: a serde mirror of the JSON, raw values, no checks.
+//!
+//! Every dimensional key carries its unit (`_m`, `_kg`, `_n`, `_s`, `_deg`, `_pa`, `_m2`, `_mps`).
+//! [`super::validate`] turns a [`ProblemFile`] into a checked [`super::Problem`]; nothing else in the
+//! library reads these types. The format is documented in `docs/problem-format.md`.
+
+use serde::{Deserialize, Serialize};
+
+/// Top level of a problem file.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ProblemFile {
+    /// Short name used in report titles.
+    pub name: String,
+    /// Free text.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub description: Option<String>,
+    /// Launch site.
+    pub site: SiteFile,
+    /// Launch direction: a fixed azimuth or a target inclination.
+    pub launch: LaunchFile,
+    /// Target orbit (optional for `fly`; needed by the optimizer).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub target: Option<TargetFile>,
+    /// The vehicle.
+    pub vehicle: VehicleFile,
+    /// The ascent program.
+    pub ascent: AscentFile,
+    /// Path limits.
+    #[serde(default)]
+    pub limits: LimitsFile,
+    /// Earth, atmosphere and integrator settings.
+    #[serde(default)]
+    pub model: ModelFile,
+}
+
+/// Launch site, geodetic coordinates on the WGS-84 ellipsoid.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SiteFile {
+    /// Name of the (invented) site.
+    pub name: String,
+    /// Geodetic latitude, degrees north.
+    pub latitude_deg: f64,
+    /// Longitude, degrees east.
+    pub longitude_deg: f64,
+    /// Height of the pad above the ellipsoid, m.
+    #[serde(default)]
+    pub altitude_m: f64,
+}
+
+/// Launch direction. Give exactly one of `azimuth_deg` or `inclination_deg`.
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LaunchFile {
+    /// Launch azimuth, degrees clockwise from north.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub azimuth_deg: Option<f64>,
+    /// Target inclination, degrees, from which the azimuth is computed.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub inclination_deg: Option<f64>,
+    /// Which of the two azimuths reaching `inclination_deg`: `"northerly"` (default) or `"southerly"`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub branch: Option<BranchFile>,
+}
+
+/// Azimuth branch for an inclination.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum BranchFile {
+    /// Azimuth between 270° and 90° through north.
+    Northerly,
+    /// Azimuth between 90° and 270° through south.
+    Southerly,
+}
+
+/// Target orbit. Apsis altitudes are radius − 6378.137 km (osculating, at cutoff).
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TargetFile {
+    /// Perigee altitude, km.
+    pub perigee_alt_km: f64,
+    /// Apogee altitude, km.
+    pub apogee_alt_km: f64,
+    /// Inclination, degrees (optional).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub inclination_deg: Option<f64>,
+}
+
+/// The vehicle: payload, serial stages (first fires at liftoff), optional boosters, jettisons.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct VehicleFile {
+    /// Vehicle name.
+    pub name: String,
+    /// Payload mass, kg.
+    pub payload_kg: f64,
+    /// Serial stages, bottom first.
+    pub stages: Vec<StageFile>,
+    /// Strap-on boosters that ignite with the first stage.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub boosters: Option<BoosterFile>,
+    /// Masses dropped on a condition (payload fairing, interstage, ...).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub jettisons: Vec<JettisonFile>,
+}
+
+/// One serial stage.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct StageFile {
+    /// Stage name.
+    pub name: String,
+    /// Dry (burnout) mass, kg, dropped at separation.
+    pub dry_mass_kg: f64,
+    /// Usable propellant, kg.
+    pub propellant_kg: f64,
+    /// Vacuum thrust at full throttle, N.
+    pub thrust_vac_n: f64,
+    /// Vacuum specific impulse, s.
+    pub isp_vac_s: f64,
+    /// Nozzle exit area (all engines), m². Give this or `thrust_sl_n`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub exit_area_m2: Option<f64>,
+    /// Sea-level thrust at full throttle, N; the exit area follows from it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub thrust_sl_n: Option<f64>,
+    /// Lowest throttle setting, fraction of full thrust (default 1: not throttleable).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub min_throttle: Option<f64>,
+    /// Aerodynamics of the vehicle while this stage is the bottom stage.
+    pub aero: AeroFile,
+}
+
+/// A set of identical strap-on boosters.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BoosterFile {
+    /// Name of the booster type.
+    pub name: String,
+    /// Number of boosters.
+    pub count: u32,
+    /// Dry mass of one booster, kg.
+    pub dry_mass_kg: f64,
+    /// Propellant of one booster, kg.
+    pub propellant_kg: f64,
+    /// Vacuum thrust of one booster, N (boosters always run at full thrust).
+    pub thrust_vac_n: f64,
+    /// Vacuum specific impulse, s.
+    pub isp_vac_s: f64,
+    /// Exit area of one booster, m². Give this or `thrust_sl_n`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub exit_area_m2: Option<f64>,
+    /// Sea-level thrust of one booster, N.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub thrust_sl_n: Option<f64>,
+    /// Aerodynamics of the whole vehicle while the boosters are attached.
+    pub aero: AeroFile,
+}
+
+/// Reference area and drag coefficient against Mach number for one configuration.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AeroFile {
+    /// Reference area, m².
+    pub ref_area_m2: f64,
+    /// `[Mach, C_D]` pairs, Mach strictly increasing; linear between points, constant beyond.
+    pub cd_mach: Vec<[f64; 2]>,
+}
+
+/// A mass dropped on a condition.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct JettisonFile {
+    /// Name (e.g. "fairing").
+    pub name: String,
+    /// Mass dropped, kg.
+    pub mass_kg: f64,
+    /// Condition that drops it.
+    pub when: JettisonWhenFile,
+}
+
+/// Condition for a jettison (one key).
+#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case", deny_unknown_fields)]
+pub enum JettisonWhenFile {
+    /// At this time after liftoff, s.
+    TimeS(f64),
+    /// When the geodetic altitude first exceeds this, m.
+    AltitudeM(f64),
+    /// When the free-molecular heating ½ρV³ (Earth-relative V) has risen above and then falls
+    /// below this, W/m².
+    HeatingBelowWM2(f64),
+}
+
+/// The ascent program: liftoff manoeuvre, then arcs in order.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AscentFile {
+    /// Vertical rise, pitch-over and attitude hold before the gravity turn.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub liftoff: Option<LiftoffFile>,
+    /// Optional throttle bucket on the first stage (through max-Q).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub throttle_bucket: Option<BucketFile>,
+    /// Burns and coasts from liftoff on. The first arc is a burn.
+    pub arcs: Vec<ArcFile>,
+}
+
+/// Liftoff manoeuvre of the gravity-turn program.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LiftoffFile {
+    /// End of the vertical rise.
+    pub vertical_rise: RiseEndFile,
+    /// Constant pitch-over rate, deg/s.
+    pub pitch_rate_deg_s: f64,
+    /// Kick angle: pitch-over from the vertical, degrees.
+    pub kick_deg: f64,
+}
+
+/// End of the vertical rise (one key).
+#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case", deny_unknown_fields)]
+pub enum RiseEndFile {
+    /// After this time from liftoff, s.
+    TimeS(f64),
+    /// When the Earth-relative speed reaches this, m/s.
+    SpeedMps(f64),
+}
+
+/// Throttle bucket: reduced throttle over a time window on the first stage.
+#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BucketFile {
+    /// Start, s after liftoff.
+    pub start_s: f64,
+    /// Duration, s.
+    pub duration_s: f64,
+    /// Throttle during the bucket, fraction of full thrust.
+    pub throttle: f64,
+}
+
+/// One arc of the ascent (one key: `burn` or `coast`).
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case", deny_unknown_fields)]
+pub enum ArcFile {
+    /// Powered arc on the current stage.
+    Burn(BurnFile),
+    /// Unpowered arc.
+    Coast(CoastFile),
+}
+
+/// A powered arc.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BurnFile {
+    /// Steering law for this arc.
+    pub steering: SteeringFile,
+    /// When the burn ends (default: propellant depletion).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cutoff: Option<CutoffFile>,
+}
+
+/// Steering law of a burn.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case", deny_unknown_fields)]
+pub enum SteeringFile {
+    /// Zero angle of attack (thrust along the Earth-relative velocity); on the first arc it starts
+    /// with the liftoff manoeuvre.
+    GravityTurn,
+    /// Linear tangent law in a frame frozen at the arc's start.
+    LinearTangent(LinearTangentFile),
+    /// Pitch against time since liftoff, in the launch-azimuth plane.
+    PitchTable(Vec<[f64; 2]>),
+}
+
+/// Linear tangent law tan θ = tan θ0 − c·τ, τ time since the arc's start, θ above the horizontal
+/// plane frozen (inertially) at the arc's start.
+#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LinearTangentFile {
+    /// Pitch above the frozen horizontal at the arc's start, degrees.
+    pub pitch0_deg: f64,
+    /// Rate c of the tangent, 1/s.
+    pub tan_rate_per_s: f64,
+    /// Heading of the thrust plane, degrees from north (default: inertial velocity heading at the
+    /// arc's start).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub heading_deg: Option<f64>,
+}
+
+/// Burn cutoff (string `"depletion"` / `"target_orbit"`, or one key with a value).
+#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case", deny_unknown_fields)]
+pub enum CutoffFile {
+    /// Burn until the stage's propellant is gone.
+    Depletion,
+    /// Cut when the orbital energy reaches the target orbit's (semi-major axis of the target).
+    TargetOrbit,
+    /// Cut when the osculating apogee altitude reaches this, km.
+    ApogeeAltKm(f64),
+    /// Cut when the osculating perigee altitude reaches this, km.
+    PerigeeAltKm(f64),
+    /// Cut after this burn duration, s.
+    DurationS(f64),
+}
+
+/// An unpowered arc.
+#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case", deny_unknown_fields)]
+pub enum CoastFile {
+    /// Coast for this long, s.
+    DurationS(f64),
+    /// Coast until the radial velocity changes sign (apogee).
+    ToApogee,
+}
+
+/// Path limits.
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LimitsFile {
+    /// Largest sensed axial acceleration, in units of g0; the core throttles to hold it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_axial_accel_g: Option<f64>,
+    /// Largest dynamic pressure, Pa (reported against).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_dynamic_pressure_pa: Option<f64>,
+    /// Lowest perigee altitude that counts as orbit, km (default 100).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub min_orbit_perigee_alt_km: Option<f64>,
+}
+
+/// Model and integrator settings. Defaults: WGS-84 with J2, rotating, US 1976 atmosphere.
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ModelFile {
+    /// Include the J2 gravity term (default true).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub j2: Option<bool>,
+    /// Earth rotation on (default true). Off is for checks.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub earth_rotation: Option<bool>,
+    /// `"us1976"` (default) or `"vacuum"`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub atmosphere: Option<AtmosphereFile>,
+    /// Relative tolerance of the integrator (default 1e-9).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rtol: Option<f64>,
+    /// Absolute tolerance of the integrator, SI units of each state (default 1e-6).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub atol: Option<f64>,
+    /// Flight-time limit, s (default 20 000).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_flight_time_s: Option<f64>,
+}
+
+/// Atmosphere model choice.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum AtmosphereFile {
+    /// U.S. Standard Atmosphere 1976, tabulated densities above 86 km.
+    Us1976,
+    /// No atmosphere (vacuum checks).
+    Vacuum,
+}

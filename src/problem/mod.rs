@@ -1,0 +1,147 @@
+//! Problem definition: the JSON file ([`file`]), its validation ([`validate`]) and the checked
+//! [`Problem`] that the simulator and optimizer take.
+//!
+//! Configuration flows in two stages: [`file::ProblemFile`] mirrors the JSON with raw values;
+//! [`validate::validate`] checks every field (errors name the JSON path) and builds the models.
+
+pub mod file;
+pub mod validate;
+
+use sha2::{Digest, Sha256};
+
+use crate::error::ProblemError;
+use crate::physics::earth::Geodetic;
+use crate::physics::environment::Environment;
+use crate::steering::Program;
+use crate::vehicle::Vehicle;
+
+pub use file::ProblemFile;
+
+/// How the launch azimuth was chosen.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum AzimuthSource {
+    /// Given directly.
+    Fixed,
+    /// Computed from a target inclination (rotating-Earth correction), with the branch.
+    FromInclination {
+        /// Target inclination, rad.
+        inclination_rad: f64,
+        /// Northerly (true) or southerly (false) branch.
+        northerly: bool,
+    },
+}
+
+/// Launch site.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Site {
+    /// Name.
+    pub name: String,
+    /// Geodetic position of the pad.
+    pub geodetic: Geodetic,
+}
+
+/// Target orbit (apsis altitudes above the equatorial radius, osculating at cutoff).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Target {
+    /// Perigee altitude, m.
+    pub perigee_alt_m: f64,
+    /// Apogee altitude, m.
+    pub apogee_alt_m: f64,
+    /// Inclination, rad.
+    pub inclination_rad: Option<f64>,
+}
+
+/// Path limits.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Limits {
+    /// Largest sensed axial acceleration, m/s² (throttle holds it).
+    pub max_axial_accel_mps2: Option<f64>,
+    /// Largest dynamic pressure, Pa (reported against).
+    pub max_dynamic_pressure_pa: Option<f64>,
+    /// Lowest perigee altitude that counts as orbit, m.
+    pub min_orbit_perigee_alt_m: f64,
+}
+
+/// Integrator settings.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct IntegratorSettings {
+    /// Relative tolerance (default 1e-9).
+    pub rtol: f64,
+    /// Absolute tolerance in the SI unit of each state (default 1e-6).
+    pub atol: f64,
+    /// Flight-time limit, s (default 20 000).
+    pub max_flight_time_s: f64,
+}
+
+impl Default for IntegratorSettings {
+    fn default() -> Self {
+        Self {
+            rtol: 1e-9,
+            atol: 1e-6,
+            max_flight_time_s: 20_000.0,
+        }
+    }
+}
+
+/// A checked problem: everything the simulator needs, SI units, radians.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Problem {
+    /// Name for titles.
+    pub name: String,
+    /// Launch site.
+    pub site: Site,
+    /// Launch azimuth, rad clockwise from north.
+    pub azimuth_rad: f64,
+    /// How the azimuth was obtained.
+    pub azimuth_source: AzimuthSource,
+    /// Target orbit.
+    pub target: Option<Target>,
+    /// Vehicle.
+    pub vehicle: Vehicle,
+    /// Ascent program.
+    pub program: Program,
+    /// Path limits.
+    pub limits: Limits,
+    /// Earth and atmosphere.
+    pub environment: Environment,
+    /// Integrator settings.
+    pub integrator: IntegratorSettings,
+    /// SHA-256 of the input text (hex), or empty when built in code.
+    pub input_sha256: String,
+}
+
+impl Problem {
+    /// Parses and validates problem JSON text.
+    pub fn from_json(text: &str) -> Result<Problem, ProblemError> {
+        let file = parse(text)?;
+        let mut p = validate::validate(&file)?;
+        p.input_sha256 = sha256_hex(text.as_bytes());
+        Ok(p)
+    }
+
+    /// Reads, parses and validates a problem file.
+    pub fn from_path(path: &std::path::Path) -> Result<Problem, ProblemError> {
+        let text = std::fs::read_to_string(path)?;
+        Problem::from_json(&text)
+    }
+}
+
+/// Parses problem JSON into the raw file mirror; errors carry the JSON path of the field.
+pub fn parse(text: &str) -> Result<ProblemFile, ProblemError> {
+    let de = &mut serde_json::Deserializer::from_str(text);
+    serde_path_to_error::deserialize(de).map_err(|e| {
+        let path = e.path().to_string();
+        ProblemError::Format {
+            path: if path.is_empty() { ".".into() } else { path },
+            message: e.into_inner().to_string(),
+        }
+    })
+}
+
+/// Hex SHA-256 of bytes.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
