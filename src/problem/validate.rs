@@ -145,6 +145,15 @@ fn engine(path: &str, t_vac: f64, isp: f64, ae: Option<f64>, t_sl: Option<f64>) 
     })
 }
 
+/// A throttle fraction in (0, 1]; default 1 (not throttleable).
+fn throttle_fraction(field: &str, x: Option<f64>) -> R<f64> {
+    match x {
+        None => Ok(1.0),
+        Some(k) if k.is_finite() && k > 0.0 && k <= 1.0 => Ok(k),
+        Some(k) => bad(field, format!("{k} is outside the allowed range (0, 1]")),
+    }
+}
+
 fn stage(i: usize, s: &StageFile) -> R<Stage> {
     let p = format!("vehicle.stages[{i}]");
     Ok(Stage {
@@ -158,20 +167,7 @@ fn stage(i: usize, s: &StageFile) -> R<Stage> {
             s.exit_area_m2,
             s.thrust_sl_n,
         )?,
-        min_throttle: range(
-            &format!("{p}.min_throttle"),
-            s.min_throttle.unwrap_or(1.0),
-            0.0,
-            1.0,
-            false,
-        )
-        .or_else(|e| {
-            if s.min_throttle == Some(1.0) {
-                Ok(1.0)
-            } else {
-                Err(e)
-            }
-        })?,
+        min_throttle: throttle_fraction(&format!("{p}.min_throttle"), s.min_throttle)?,
         aero: aero(&format!("{p}.aero"), &s.aero)?,
     })
 }

@@ -50,6 +50,17 @@ pub enum StateEvent {
     Ground(f64),
 }
 
+impl StateEvent {
+    /// True for events that fire only on a crossing seen during integration; the others are
+    /// conditions that fire at once when already true at a segment's start.
+    pub fn crossing_only(&self) -> bool {
+        matches!(
+            self,
+            StateEvent::HeatingArm(..) | StateEvent::HeatingFall(..)
+        )
+    }
+}
+
 /// Free-molecular heating flux ½ρV³ with the Earth-relative speed, W/m².
 pub fn heating_w_m2(density_kg_m3: f64, v_rel_mps: f64) -> f64 {
     0.5 * density_kg_m3 * v_rel_mps.powi(3)

@@ -599,7 +599,7 @@ impl<'a> Flyer<'a> {
         let evs = self.state_events();
         let tevs = self.time_events();
         // Conditions already true at the segment start fire at once.
-        for ev in &evs {
+        for ev in evs.iter().filter(|e| !e.crossing_only()) {
             if events::value(self.p, &self.mode, ev, self.t, &self.y) >= 0.0 {
                 return self.apply(Stop::State(*ev));
             }
