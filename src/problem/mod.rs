@@ -132,7 +132,11 @@ pub fn parse(text: &str) -> Result<ProblemFile, ProblemError> {
     serde_path_to_error::deserialize(de).map_err(|e| {
         let path = e.path().to_string();
         ProblemError::Format {
-            path: if path.is_empty() { ".".into() } else { path },
+            path: if path.is_empty() || path == "?" {
+                "(document)".into()
+            } else {
+                path
+            },
             message: e.into_inner().to_string(),
         }
     })

@@ -13,6 +13,15 @@ use crate::vehicle::*;
 
 type R<T> = Result<T, ProblemError>;
 
+/// Formats a number for a message: scientific notation when very large or very small.
+fn num(x: f64) -> String {
+    if x != 0.0 && x.is_finite() && (x.abs() >= 1e7 || x.abs() < 1e-4) {
+        format!("{x:e}")
+    } else {
+        format!("{x}")
+    }
+}
+
 fn bad<T>(field: &str, reason: impl Into<String>) -> R<T> {
     Err(ProblemError::invalid(field, reason))
 }
@@ -40,7 +49,10 @@ fn positive(field: &str, x: f64) -> R<f64> {
     if x.is_finite() && x > 0.0 {
         Ok(x)
     } else {
-        bad(field, format!("must be a finite number > 0, got {x}"))
+        bad(
+            field,
+            format!("must be a finite number > 0, got {}", num(x)),
+        )
     }
 }
 
@@ -500,7 +512,7 @@ fn check_liftoff_thrust(v: &Vehicle, site: &Site, env: &Environment) -> R<()> {
         Ok(())
     } else {
         bad(
-            "vehicle.stages[0].thrust_vac_n",
+            "vehicle.stages[0]",
             format!(
                 "liftoff thrust-to-weight is {tw:.3} (thrust {:.0} kN at the pad, mass {:.0} kg): \
                  it must exceed 1",

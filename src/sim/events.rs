@@ -13,6 +13,7 @@ use ode_solvers::continuous_output_model::ContinuousOutputModel;
 
 use super::dynamics::{forces, limit_throttle, stage_propellant_kg, Mode, State, Throttle};
 use crate::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
+use crate::physics::environment::Local;
 use crate::physics::orbit::Elements;
 use crate::problem::Problem;
 
@@ -76,7 +77,12 @@ fn rv(y: &State) -> (Vector3<f64>, Vector3<f64>) {
 /// Switching function of `ev` at (t, y) under `mode`.
 pub fn value(p: &Problem, mode: &Mode, ev: &StateEvent, t: f64, y: &State) -> f64 {
     let (r, v) = rv(y);
-    let loc = p.environment.local(t, &r, &v);
+    value_at(p, mode, ev, t, y, &p.environment.local(t, &r, &v))
+}
+
+/// [`value`] with the local conditions at (t, y) already computed.
+pub fn value_at(p: &Problem, mode: &Mode, ev: &StateEvent, t: f64, y: &State, loc: &Local) -> f64 {
+    let (r, v) = rv(y);
     let vrel = loc.v_rel_mps.norm();
     match *ev {
         StateEvent::RiseSpeed(s) => vrel - s,
@@ -97,12 +103,12 @@ pub fn value(p: &Problem, mode: &Mode, ev: &StateEvent, t: f64, y: &State) -> f6
                 throttle: Throttle::Fixed(nominal),
                 ..*mode
             };
-            let f = forces(p, &m, t, y[6], &loc);
+            let f = forces(p, &m, t, y[6], loc);
             let a_max = p.limits.max_axial_accel_mps2.unwrap_or(f64::INFINITY);
             ((f.thrust_n + f.aero_n.dot(&f.dir)) / y[6] - a_max) / a_max
         }
         StateEvent::MinThrottle => {
-            let f = forces(p, mode, t, y[6], &loc);
+            let f = forces(p, mode, t, y[6], loc);
             let s = &p.vehicle.stages[mode.stage];
             let p_a = loc.air.pressure_pa;
             let core_net = f.throttle * s.engine.thrust_vac_n - p_a * s.engine.exit_area_m2;

@@ -250,8 +250,11 @@ impl System<f64, State> for Sys<'_> {
     fn solout(&mut self, t: f64, y: &State, _dy: &State) -> bool {
         self.watch.step_t.push(t);
         let mut any = false;
+        let r = Vector3::new(y[0], y[1], y[2]);
+        let v = Vector3::new(y[3], y[4], y[5]);
+        let loc = self.p.environment.local(t, &r, &v);
         for (i, ev) in self.evs.iter().enumerate() {
-            let g = events::value(self.p, &self.mode, ev, t, y);
+            let g = events::value_at(self.p, &self.mode, ev, t, y, &loc);
             if self.watch.g_prev[i] < 0.0 && g >= 0.0 {
                 self.watch.fired[i] = true;
                 any = true;
@@ -695,30 +698,46 @@ impl<'a> Flyer<'a> {
     /// Max-Q, max acceleration and the time history over the segment just integrated.
     fn track(&mut self, com: &ContinuousOutputModel<f64, State>, steps: &[f64], t_stop: f64) {
         let (p, mode) = (self.p, self.mode);
-        let at = |t: f64| com.evaluate(t).map(|y| snapshot(p, &mode, t, &y));
         let mut ts: Vec<f64> = steps.iter().copied().filter(|t| *t < t_stop).collect();
         ts.push(t_stop);
-        let q = refine_max(&ts, |t| {
-            at(t).map_or(f64::NEG_INFINITY, |s| s.dynamic_pressure_pa)
-        });
-        if let Some((_, t)) = q.filter(|(v, _)| self.out.max_q.is_none_or(|m| *v > m.value)) {
-            self.out.max_q = at(t).map(|s| Extremum {
-                value: s.dynamic_pressure_pa,
-                at: s,
+        let qa = |t: f64| com.evaluate(t).map(|y| q_and_accel(p, &mode, t, &y));
+        let samples: Vec<(f64, f64)> = ts
+            .iter()
+            .map(|t| qa(*t).unwrap_or((f64::NEG_INFINITY, f64::NEG_INFINITY)))
+            .collect();
+        let best_q = self.out.max_q.map_or(f64::NEG_INFINITY, |m| m.value);
+        if samples.iter().any(|s| s.0 > best_q) {
+            let q = refine_max(&ts, &samples, 0, |t| {
+                qa(t).map_or(f64::NEG_INFINITY, |s| s.0)
             });
+            if let Some((v, t)) = q.filter(|(v, _)| *v > best_q) {
+                self.out.max_q = com.evaluate(t).map(|y| Extremum {
+                    value: v,
+                    at: snapshot(p, &mode, t, &y),
+                });
+            }
         }
-        let a = refine_max(&ts, |t| {
-            at(t).map_or(f64::NEG_INFINITY, |s| s.axial_accel_g)
-        });
-        if let Some((v, t)) =
-            a.filter(|(v, _)| self.out.max_axial_accel.is_none_or(|m| *v > m.value))
-        {
-            self.out.max_axial_accel = at(t).map(|s| Extremum { value: v, at: s });
+        let best_a = self
+            .out
+            .max_axial_accel
+            .map_or(f64::NEG_INFINITY, |m| m.value);
+        if samples.iter().any(|s| s.1 > best_a) {
+            let a = refine_max(&ts, &samples, 1, |t| {
+                qa(t).map_or(f64::NEG_INFINITY, |s| s.1)
+            });
+            if let Some((v, t)) = a.filter(|(v, _)| *v > best_a) {
+                self.out.max_axial_accel = com.evaluate(t).map(|y| Extremum {
+                    value: v,
+                    at: snapshot(p, &mode, t, &y),
+                });
+            }
         }
         if let Some(dt) = self.opts.record_step_s {
             while self.next_record_s < t_stop {
-                if let Some(s) = at(self.next_record_s) {
-                    self.out.history.push(s);
+                if let Some(y) = com.evaluate(self.next_record_s) {
+                    self.out
+                        .history
+                        .push(snapshot(p, &mode, self.next_record_s, &y));
                 }
                 self.next_record_s += dt;
             }
@@ -915,33 +934,56 @@ impl<'a> Flyer<'a> {
     }
 }
 
-/// Largest value of `f` over the sample times `ts`, refined by golden-section search between the
-/// neighbours of the best sample. Returns (value, time).
-fn refine_max(ts: &[f64], f: impl Fn(f64) -> f64) -> Option<(f64, f64)> {
-    let vals: Vec<f64> = ts.iter().map(|t| f(*t)).collect();
-    let (k, _) = vals
-        .iter()
-        .enumerate()
-        .filter(|(_, v)| v.is_finite())
-        .max_by(|a, b| a.1.total_cmp(b.1))?;
+/// Dynamic pressure (Pa) and sensed axial acceleration (g0) at (t, y).
+fn q_and_accel(p: &Problem, mode: &Mode, t: f64, y: &State) -> (f64, f64) {
+    let r = Vector3::new(y[0], y[1], y[2]);
+    let v = Vector3::new(y[3], y[4], y[5]);
+    let loc = p.environment.local(t, &r, &v);
+    let f = super::dynamics::forces(p, mode, t, y[ix::M], &loc);
+    let accel = (f.thrust_n + f.aero_n.dot(&f.dir)) / y[ix::M] / crate::physics::earth::G0_MPS2;
+    (f.q_pa, accel)
+}
+
+/// Largest of the sampled values (`samples[k].{which}` at `ts[k]`), refined by golden-section
+/// search on `f` between the neighbours of the best sample. Returns (value, time).
+fn refine_max(
+    ts: &[f64],
+    samples: &[(f64, f64)],
+    which: usize,
+    f: impl Fn(f64) -> f64,
+) -> Option<(f64, f64)> {
+    let val = |k: usize| {
+        if which == 0 {
+            samples[k].0
+        } else {
+            samples[k].1
+        }
+    };
+    let k = (0..ts.len())
+        .filter(|k| val(*k).is_finite())
+        .max_by(|a, b| val(*a).total_cmp(&val(*b)))?;
     let (mut a, mut b) = (ts[k.saturating_sub(1)], ts[(k + 1).min(ts.len() - 1)]);
     let gr = 0.5 * (5f64.sqrt() - 1.0);
-    for _ in 0..60 {
-        if b - a < 1e-6 {
-            break;
-        }
-        let (c, d) = (b - gr * (b - a), a + gr * (b - a));
-        if f(c) >= f(d) {
+    let (mut c, mut d) = (b - gr * (b - a), a + gr * (b - a));
+    let (mut fc, mut fd) = (f(c), f(d));
+    while b - a > 1e-6 {
+        if fc >= fd {
             b = d;
+            (d, fd) = (c, fc);
+            c = b - gr * (b - a);
+            fc = f(c);
         } else {
             a = c;
+            (c, fc) = (d, fd);
+            d = a + gr * (b - a);
+            fd = f(d);
         }
     }
     let t = 0.5 * (a + b);
     let v = f(t);
-    if v >= vals[k] {
+    if v >= val(k) {
         Some((v, t))
     } else {
-        Some((vals[k], ts[k]))
+        Some((val(k), ts[k]))
     }
 }

@@ -1,0 +1,256 @@
+//! End-to-end tests of the `kickturn` binary: demo problems, JSON schema, CSV, exit codes and
+//! bad-input messages.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn root() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+}
+
+fn kickturn(args: &[&str]) -> Output {
+    match Command::new(env!("CARGO_BIN_EXE_kickturn"))
+        .args(args)
+        .current_dir(root())
+        .output()
+    {
+        Ok(o) => o,
+        Err(e) => panic!("cannot run kickturn: {e}"),
+    }
+}
+
+fn demos() -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(root().join("problems"))
+        .map(|d| {
+            d.filter_map(Result::ok)
+                .map(|e| format!("problems/{}", e.file_name().to_string_lossy()))
+                .filter(|n| n.ends_with(".json"))
+                .collect()
+        })
+        .unwrap_or_default();
+    v.sort();
+    v
+}
+
+fn json_of(out: &Output) -> serde_json::Value {
+    match serde_json::from_slice(&out.stdout) {
+        Ok(v) => v,
+        Err(e) => panic!(
+            "stdout is not JSON ({e}): {}",
+            String::from_utf8_lossy(&out.stdout)
+        ),
+    }
+}
+
+#[test]
+fn every_demo_reaches_orbit_and_both_budgets_close() {
+    let demos = demos();
+    assert_eq!(demos.len(), 3, "three demo problems are bundled");
+    for d in demos {
+        let out = kickturn(&["fly", &d, "--json"]);
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{d}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let r = json_of(&out);
+        assert_eq!(r["status"], "orbit", "{d}");
+        for key in ["budget", "budget_inertial"] {
+            let b = &r[key];
+            let closure = b["closure_error_mps"].as_f64().unwrap_or(f64::NAN);
+            assert!(closure.abs() < 1e-3, "{d} {key} closure {closure}");
+            for term in [
+                "ideal_mps",
+                "gravity_loss_mps",
+                "drag_loss_mps",
+                "steering_loss_mps",
+                "back_pressure_loss_mps",
+                "earth_rotation_mps",
+                "rotating_frame_mps",
+            ] {
+                assert!(
+                    b[term].as_f64().is_some_and(f64::is_finite),
+                    "{d} {key}.{term}"
+                );
+            }
+        }
+        // Plausible losses for an ascent to low orbit (../shared/domain.md §2 table, common
+        // practice): gravity 0.6–2.5 km/s, drag under 0.5 km/s, ideal 8.5–12 km/s.
+        let b = &r["budget"];
+        let g = b["gravity_loss_mps"].as_f64().unwrap_or(0.0);
+        let dr = b["drag_loss_mps"].as_f64().unwrap_or(-1.0);
+        let ideal = b["ideal_mps"].as_f64().unwrap_or(0.0);
+        assert!((600.0..2500.0).contains(&g), "{d} gravity loss {g}");
+        assert!((0.0..500.0).contains(&dr), "{d} drag loss {dr}");
+        assert!((8500.0..12000.0).contains(&ideal), "{d} ideal {ideal}");
+        for k in [
+            "perigee_alt_km",
+            "apogee_alt_km",
+            "inclination_deg",
+            "insertion_alt_km",
+            "insertion_speed_mps",
+            "flight_path_angle_deg",
+        ] {
+            assert!(r["orbit"][k].is_number(), "{d} orbit.{k}");
+        }
+        for k in [
+            "propellant_remaining_kg",
+            "max_dynamic_pressure_pa",
+            "max_axial_accel_g",
+        ] {
+            assert!(
+                r[k].as_f64().is_some_and(|x| x.is_finite() && x > 0.0),
+                "{d} {k}"
+            );
+        }
+        assert!(
+            r["events"].as_array().is_some_and(|e| e.len() >= 6),
+            "{d} events"
+        );
+        assert!(
+            r["phases"].as_array().is_some_and(|p| p.len() >= 3),
+            "{d} phases"
+        );
+        assert!(r["caution"]
+            .as_str()
+            .is_some_and(|c| c.contains("Preliminary design")));
+    }
+}
+
+#[test]
+fn demos_hit_their_target_inclination_and_altitudes_closely() {
+    for d in demos() {
+        let r = json_of(&kickturn(&["fly", &d, "--json"]));
+        let o = &r["orbit"];
+        let t = &r["target"];
+        let di = o["inclination_deg"].as_f64().unwrap_or(0.0)
+            - t["inclination_deg"].as_f64().unwrap_or(1e9);
+        assert!(di.abs() < 0.01, "{d}: inclination off by {di}°");
+        let dp = o["perigee_alt_km"].as_f64().unwrap_or(0.0)
+            - t["perigee_alt_km"].as_f64().unwrap_or(1e9);
+        assert!(dp.abs() < 10.0, "{d}: perigee off by {dp} km");
+    }
+}
+
+#[test]
+fn text_report_starts_with_the_verdict_and_names_the_bookkeeping() {
+    let out = kickturn(&["fly", "problems/medium-2stage-leo200.json"]);
+    assert_eq!(out.status.code(), Some(0));
+    let text = String::from_utf8_lossy(&out.stdout);
+    let second = text.lines().nth(1).unwrap_or("");
+    assert!(second.starts_with("ORBIT REACHED"), "{second}");
+    assert!(text.contains("Earth-relative bookkeeping"));
+    assert!(text.contains("inertial bookkeeping"));
+    assert!(text.contains("max-Q"));
+    assert!(text.contains("CAUTION"));
+}
+
+#[test]
+fn csv_history_has_units_in_columns_and_is_written_atomically() {
+    let dir = std::env::temp_dir().join(format!("kickturn-csv-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let path = dir.join("h.csv");
+    let p = path.to_string_lossy().to_string();
+    let out = kickturn(&[
+        "fly",
+        "problems/medium-2stage-leo200.json",
+        "--csv",
+        &p,
+        "--csv-step-s",
+        "2",
+    ]);
+    assert_eq!(out.status.code(), Some(0));
+    let text = std::fs::read_to_string(&path).unwrap_or_default();
+    let mut lines = text.lines();
+    let header = lines.next().unwrap_or("");
+    for col in [
+        "t_s",
+        "altitude_m",
+        "downrange_m",
+        "speed_rel_mps",
+        "dynamic_pressure_pa",
+        "mass_kg",
+        "gravity_loss_rel_mps",
+    ] {
+        assert!(header.split(',').any(|c| c == col), "missing column {col}");
+    }
+    let rows = lines.count();
+    assert!(rows > 150, "history rows {rows}");
+    let leftovers: Vec<_> = std::fs::read_dir(&dir)
+        .map(|d| {
+            d.filter_map(Result::ok)
+                .filter(|e| e.file_name().to_string_lossy().contains(".tmp"))
+                .collect()
+        })
+        .unwrap_or_default();
+    assert!(leftovers.is_empty(), "temporary files left behind");
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn refuses_to_write_the_csv_over_the_input() {
+    let dir = std::env::temp_dir().join(format!("kickturn-over-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let input = dir.join("p.json");
+    let original = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
+        .unwrap_or_default();
+    let _ = std::fs::write(&input, &original);
+    let i = input.to_string_lossy().to_string();
+    let out = kickturn(&["fly", &i, "--csv", &i]);
+    assert_eq!(out.status.code(), Some(2));
+    assert_eq!(
+        std::fs::read_to_string(&input).unwrap_or_default(),
+        original
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// Each bad file in tests/data/bad has its expected message fragment on the first line
+/// of a sibling `.expect` file.
+#[test]
+fn bad_inputs_exit_2_with_the_field_path_and_nothing_on_stdout() {
+    let dir = root().join("tests/data/bad");
+    let mut n = 0;
+    let mut entries: Vec<_> = std::fs::read_dir(&dir)
+        .map(|d| d.filter_map(Result::ok).map(|e| e.path()).collect())
+        .unwrap_or_default();
+    entries.sort();
+    for path in entries
+        .iter()
+        .filter(|p| p.extension().is_some_and(|e| e == "json"))
+    {
+        let expect_path = path.with_extension("expect");
+        let expected = std::fs::read_to_string(&expect_path).unwrap_or_default();
+        let expected = expected.lines().next().unwrap_or("").trim();
+        assert!(!expected.is_empty(), "{} has no .expect", path.display());
+        let p = path.to_string_lossy().to_string();
+        for args in [vec!["fly", p.as_str()], vec!["fly", p.as_str(), "--json"]] {
+            let out = kickturn(&args);
+            let err = String::from_utf8_lossy(&out.stderr);
+            assert_eq!(out.status.code(), Some(2), "{}: {err}", path.display());
+            assert!(
+                out.stdout.is_empty(),
+                "{}: stdout not empty",
+                path.display()
+            );
+            assert!(
+                err.contains(expected),
+                "{}: expected `{expected}` in `{err}`",
+                path.display()
+            );
+        }
+        n += 1;
+    }
+    assert!(n >= 12, "only {n} bad-input cases");
+}
+
+#[test]
+fn usage_errors_exit_2() {
+    assert_eq!(kickturn(&["fly"]).status.code(), Some(2));
+    assert_eq!(kickturn(&["soar", "x.json"]).status.code(), Some(2));
+    let missing = kickturn(&["fly", "no/such/file.json"]);
+    assert_eq!(missing.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&missing.stderr).contains("no/such/file.json"));
+    assert!(Path::new(env!("CARGO_BIN_EXE_kickturn")).exists());
+}
