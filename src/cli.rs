@@ -89,6 +89,10 @@ fn load(path: &Path) -> anyhow::Result<Problem> {
 
 fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
     let p = load(&a.problem)?;
+    if let Some(u) = p.unreachable_inclination() {
+        eprintln!("{}: {u}", a.problem.display());
+        return Ok(EXIT_NOT_REACHED);
+    }
     if !(a.csv_step_s.is_finite() && a.csv_step_s > 0.0) {
         bail!(
             "--csv-step-s: must be a finite number > 0, got {}",

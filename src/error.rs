@@ -42,10 +42,11 @@ impl ProblemError {
 /// command reports it and exits with code 1.
 #[derive(Debug, Error, Clone, PartialEq)]
 #[error(
-    "inclination {inclination_deg:.3}° cannot be reached by a direct ascent from geocentric \
-     latitude {latitude_deg:.3}° (lowest reachable: {latitude_deg:.3}°); a plane change of \
-     {plane_change_mps:.0} m/s at the target's circular speed would be needed (upper bound: \
-     2·v·sin(Δi/2), no combination with another burn)"
+    "launch.inclination_deg: {inclination_deg:.3}° cannot be reached by a direct ascent from \
+     geocentric latitude {latitude_deg:.3}° (reachable: {latitude_deg:.3}° to \
+     {reach_max:.3}°); a plane change of {plane_change_mps:.0} m/s at the target's circular speed \
+     would still be needed (upper bound 2·v·sin(Δi/2), not combined with another burn)",
+    reach_max = 180.0 - latitude_deg
 )]
 pub struct UnreachableInclination {
     /// Requested inclination, degrees.

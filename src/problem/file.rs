@@ -344,10 +344,10 @@ pub struct ModelFile {
     /// `"us1976"` (default) or `"vacuum"`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub atmosphere: Option<AtmosphereFile>,
-    /// Relative tolerance of the integrator (default 1e-9).
+    /// Relative tolerance of the integrator (default 1e-11).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub rtol: Option<f64>,
-    /// Absolute tolerance of the integrator, SI units of each state (default 1e-6).
+    /// Absolute tolerance of the integrator, SI units of each state (default 1e-8).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub atol: Option<f64>,
     /// Flight-time limit, s (default 20 000).

@@ -9,8 +9,9 @@ pub mod validate;
 
 use sha2::{Digest, Sha256};
 
-use crate::error::ProblemError;
+use crate::error::{ProblemError, UnreachableInclination};
 use crate::physics::earth::Geodetic;
+use crate::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
 use crate::physics::environment::Environment;
 use crate::steering::Program;
 use crate::vehicle::Vehicle;
@@ -65,9 +66,10 @@ pub struct Limits {
 /// Integrator settings.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct IntegratorSettings {
-    /// Relative tolerance (default 1e-9).
+    /// Relative tolerance (default 1e-11: tight enough that terminal states are smooth to a few
+    /// millimetres in the program's parameters, as finite-difference Jacobians need).
     pub rtol: f64,
-    /// Absolute tolerance in the SI unit of each state (default 1e-6).
+    /// Absolute tolerance in the SI unit of each state (default 1e-8).
     pub atol: f64,
     /// Flight-time limit, s (default 20 000).
     pub max_flight_time_s: f64,
@@ -76,8 +78,8 @@ pub struct IntegratorSettings {
 impl Default for IntegratorSettings {
     fn default() -> Self {
         Self {
-            rtol: 1e-9,
-            atol: 1e-6,
+            rtol: 1e-11,
+            atol: 1e-8,
             max_flight_time_s: 20_000.0,
         }
     }
@@ -117,6 +119,34 @@ impl Problem {
         let mut p = validate::validate(&file)?;
         p.input_sha256 = sha256_hex(text.as_bytes());
         Ok(p)
+    }
+
+    /// The plane change still needed when the launch asks for an inclination that a direct ascent
+    /// from this site cannot reach (i < |φ'| or i > 180° − |φ'|, φ' geocentric latitude); `None`
+    /// when reachable or when the azimuth is given directly. The cost is the upper bound
+    /// `2·v·sin(Δi/2)` at the circular speed of the target perigee (200 km without a target),
+    /// from the nearest reachable inclination.
+    pub fn unreachable_inclination(&self) -> Option<UnreachableInclination> {
+        let AzimuthSource::FromInclination {
+            inclination_rad, ..
+        } = self.azimuth_source
+        else {
+            return None;
+        };
+        let lat = validate::geocentric_latitude_rad(self.site.geodetic.latitude_rad).abs();
+        let (lo, hi) = (lat, std::f64::consts::PI - lat);
+        let nearest = inclination_rad.clamp(lo, hi);
+        let di = (inclination_rad - nearest).abs();
+        if di <= 1e-12 {
+            return None;
+        }
+        let r = WGS84_A_M + self.target.map_or(200e3, |t| t.perigee_alt_m);
+        let v = crate::physics::orbit::circular_speed_mps(r, WGS84_GM_M3_S2);
+        Some(UnreachableInclination {
+            inclination_deg: inclination_rad.to_degrees(),
+            latitude_deg: lat.to_degrees(),
+            plane_change_mps: 2.0 * v * (0.5 * di).sin(),
+        })
     }
 
     /// Reads, parses and validates a problem file.

@@ -1,0 +1,178 @@
+//! Simulator behaviour: event location, smoothness in the program's parameters, termination
+//! reasons, limits, and the unreachable-inclination report.
+
+use kickturn::problem::Problem;
+use kickturn::report::{FlightReport, Status};
+use kickturn::sim::{fly, EventKind, Flight, FlyOptions};
+
+fn demo(name: &str) -> Problem {
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("problems")
+        .join(name);
+    match Problem::from_path(&path) {
+        Ok(p) => p,
+        Err(e) => panic!("{name}: {e}"),
+    }
+}
+
+fn event(f: &Flight, kind: EventKind) -> &kickturn::sim::EventRecord {
+    match f.events.iter().find(|e| e.kind == kind) {
+        Some(e) => e,
+        None => panic!("no {kind:?} event"),
+    }
+}
+
+#[test]
+fn alpha_zero_handover_is_located_on_the_held_pitch() {
+    let p = demo("medium-2stage-leo200.json");
+    let f = fly(&p, &FlyOptions::default());
+    let kick = p.program.liftoff.map_or(0.0, |l| l.kick_rad).to_degrees();
+    let e = event(&f, EventKind::GravityTurnStart);
+    // The switching function is held pitch − γ_rel; located to 1e-10 s on the dense output.
+    assert!(
+        (e.at.flight_path_rel_deg - (90.0 - kick)).abs() < 1e-7,
+        "{}",
+        e.at.flight_path_rel_deg
+    );
+}
+
+#[test]
+fn burnout_is_located_at_zero_propellant() {
+    let p = demo("medium-2stage-leo200.json");
+    let f = fly(&p, &FlyOptions::default());
+    let e = event(&f, EventKind::Burnout);
+    // Liftoff mass minus the first stage's propellant (fairing still on board).
+    let expected = p.vehicle.liftoff_mass_kg() - p.vehicle.stages[0].propellant_kg;
+    assert!(
+        (e.at.mass_kg - expected).abs() < 1e-6,
+        "{} vs {expected}",
+        e.at.mass_kg
+    );
+}
+
+#[test]
+fn boosters_separate_at_their_burn_time() {
+    let p = demo("heavy-boosters-iss51.json");
+    let f = fly(&p, &FlyOptions::default());
+    let b = p.vehicle.boosters.as_ref().map_or(0.0, |b| b.burn_time_s());
+    let e = event(&f, EventKind::BoosterSeparation);
+    assert!((e.at.t_s - b).abs() < 1e-9, "{} vs {b}", e.at.t_s);
+}
+
+#[test]
+fn throttle_holds_the_axial_acceleration_limit() {
+    let p = demo("medium-2stage-leo200.json");
+    let f = fly(&p, &FlyOptions::default());
+    let limit_g = 5.0;
+    let max = f.max_axial_accel.map_or(0.0, |m| m.value);
+    assert!(
+        (max - limit_g).abs() < 1e-6,
+        "max axial acceleration {max} g0"
+    );
+    assert!(f
+        .events
+        .iter()
+        .any(|e| e.kind == EventKind::AccelLimitOnset));
+}
+
+/// Terminal states must vary smoothly with the program's parameters, or finite-difference
+/// Jacobians are noise: central differences with h and with h/10 must agree.
+#[test]
+fn terminal_state_is_smooth_in_the_kick_angle() {
+    let base = demo("medium-2stage-leo200.json");
+    let apogee = |dk_deg: f64| {
+        let mut p = base.clone();
+        if let Some(l) = p.program.liftoff.as_mut() {
+            l.kick_rad += dk_deg.to_radians();
+        }
+        let r = FlightReport::new(&p, &fly(&p, &FlyOptions::default()));
+        r.orbit.perigee_alt_km
+    };
+    let d1 = (apogee(1e-3) - apogee(-1e-3)) / 2e-3;
+    let d2 = (apogee(1e-4) - apogee(-1e-4)) / 2e-4;
+    assert!(
+        d1.abs() > 1.0,
+        "perigee must respond to the kick: {d1} km/deg"
+    );
+    assert!(
+        (d1 - d2).abs() < 1e-2 * d1.abs(),
+        "d(perigee)/d(kick): {d1} vs {d2} km/deg"
+    );
+}
+
+#[test]
+fn a_steep_kick_ends_in_ground_impact() {
+    let mut p = demo("medium-2stage-leo200.json");
+    if let Some(l) = p.program.liftoff.as_mut() {
+        l.kick_rad = 80f64.to_radians();
+        l.pitch_rate_rad_s = 5f64.to_radians();
+    }
+    let f = fly(&p, &FlyOptions::default());
+    let r = FlightReport::new(&p, &f);
+    assert_eq!(r.status, Status::GroundImpact);
+    assert!(f.events.iter().any(|e| e.kind == EventKind::Impact));
+    assert!(r.budget.closure_error_mps.abs() < 1e-3);
+}
+
+#[test]
+fn the_flight_time_limit_is_reported() {
+    let mut p = demo("medium-2stage-leo200.json");
+    p.integrator.max_flight_time_s = 50.0;
+    let f = fly(&p, &FlyOptions::default());
+    assert!((f.t1_s - 50.0).abs() < 1e-9);
+    assert_eq!(FlightReport::new(&p, &f).status, Status::TimeLimit);
+}
+
+#[test]
+fn an_unreachable_inclination_reports_its_plane_change() {
+    let mut p = demo("medium-2stage-leo200.json");
+    let lat_c = kickturn::problem::validate::geocentric_latitude_rad(p.site.geodetic.latitude_rad);
+    let inc = lat_c - 5f64.to_radians();
+    p.azimuth_source = kickturn::problem::AzimuthSource::FromInclination {
+        inclination_rad: inc,
+        northerly: true,
+    };
+    let u = p.unreachable_inclination();
+    // Source: ../shared/domain.md §4, Δv = 2v sin(Δi/2): 679 m/s for 5° at 7784 m/s (200 km).
+    let dv = u.map_or(0.0, |u| u.plane_change_mps);
+    assert!((dv - 679.09).abs() < 0.05, "{dv}");
+    // Reachable inclinations report nothing.
+    assert!(demo("medium-2stage-leo200.json")
+        .unreachable_inclination()
+        .is_none());
+}
+
+#[test]
+fn launch_azimuth_from_inclination_uses_the_rotating_earth_correction() {
+    // Source: ../shared/domain.md §3(c): φ = 28.5°, i = 51.65°, 200 km: β_R = 42.701° (spherical
+    // rotation speed 408.74 m/s). The site here is at 28.2° geodetic with WGS-84 rotation speed
+    // and geocentric latitude, so only the order of magnitude and the branch are checked:
+    let p = demo("medium-2stage-leo200.json");
+    let az = p.azimuth_rad.to_degrees();
+    assert!((41.5..44.0).contains(&az), "northerly azimuth {az}");
+}
+
+#[test]
+fn pitch_table_flies_exactly_the_given_pitch() {
+    let mut p = demo("medium-2stage-leo200.json");
+    let table = kickturn::steering::PitchTable {
+        t_s: vec![0.0, 10.0, 60.0],
+        pitch_rad: vec![90f64.to_radians(), 90f64.to_radians(), 60f64.to_radians()],
+    };
+    p.program.arcs[0] = kickturn::steering::Arc::Burn {
+        steering: kickturn::steering::Steering::PitchTable(table),
+        cutoff: kickturn::steering::Cutoff::Duration(40.0),
+    };
+    p.program.arcs.truncate(1);
+    let f = fly(
+        &p,
+        &FlyOptions {
+            record_step_s: Some(5.0),
+            initial: None,
+        },
+    );
+    // At t = 35 s the table gives 90 − 30·(25/50) = 75°.
+    let s = f.history.iter().find(|s| (s.t_s - 35.0).abs() < 1e-9);
+    let pitch = s.map_or(0.0, |s| s.pitch_deg);
+    assert!((pitch - 75.0).abs() < 1e-9, "{pitch}");
+}
