@@ -1,5 +1,5 @@
-//! The ΔV budget in two bookkeepings, from the integrated loss states (../shared/domain.md §2;
-//! defined in docs/method.md).
+//! The ΔV budget in two bookkeepings, from the integrated loss states (defined with sources in
+//! docs/method.md).
 //!
 //! Projecting `v̇` on a reference direction ê and writing `T = ΣκT_vac − p_a A_e` gives the exact
 //! identities

@@ -1,5 +1,6 @@
 //! Command-line front end: argument parsing and dispatch. Results go to stdout, diagnostics to
-//! stderr. Exit codes: 0 success, 1 ran but did not reach the target or orbit, 2 bad input or usage.
+//! stderr. Exit codes: 0 success (orbit reached), 1 ran but did not reach orbit (or the target
+//! inclination is out of reach of a direct ascent), 2 bad input or usage.
 
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -46,7 +47,7 @@ pub struct FlyArgs {
 
 /// Exit code for success.
 pub const EXIT_OK: u8 = 0;
-/// Exit code when the run completed but the target or orbit was not reached.
+/// Exit code when the run completed but orbit was not reached.
 pub const EXIT_NOT_REACHED: u8 = 1;
 /// Exit code for bad input or usage.
 pub const EXIT_BAD_INPUT: u8 = 2;
@@ -88,16 +89,16 @@ fn load(path: &Path) -> anyhow::Result<Problem> {
 }
 
 fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
-    let p = load(&a.problem)?;
-    if let Some(u) = p.unreachable_inclination() {
-        eprintln!("{}: {u}", a.problem.display());
-        return Ok(EXIT_NOT_REACHED);
-    }
     if !(a.csv_step_s.is_finite() && a.csv_step_s > 0.0) {
         bail!(
             "--csv-step-s: must be a finite number > 0, got {}",
             a.csv_step_s
         );
+    }
+    let p = load(&a.problem)?;
+    if let Some(u) = p.unreachable_inclination() {
+        eprintln!("{}: {u}", a.problem.display());
+        return Ok(EXIT_NOT_REACHED);
     }
     let opts = FlyOptions {
         record_step_s: a.csv.as_ref().map(|_| a.csv_step_s),
@@ -111,15 +112,25 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
         })?;
     }
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&report)?);
+        emit(&format!("{}\n", serde_json::to_string_pretty(&report)?))?;
     } else {
-        print!("{}", text::render(&report));
+        emit(&text::render(&report))?;
     }
     Ok(if report.reached_orbit() {
         EXIT_OK
     } else {
         EXIT_NOT_REACHED
     })
+}
+
+/// Writes results to stdout; a closed pipe (`kickturn fly … | head`) is not an error.
+fn emit(text: &str) -> anyhow::Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e.into()),
+        _ => Ok(()),
+    }
 }
 
 /// Writes a file atomically (temporary file in the same folder, then rename); refuses to write

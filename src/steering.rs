@@ -47,8 +47,8 @@ pub struct LinearTangent {
     pub pitch0_rad: f64,
     /// Rate c of the tangent, 1/s.
     pub tan_rate_per_s: f64,
-    /// Heading of the thrust plane, rad from north; `None`: the inertial velocity heading at the
-    /// arc's start.
+    /// Heading of the thrust plane, rad from north; `None`: the launch azimuth on the first arc,
+    /// the inertial velocity heading at the arc's start on later arcs.
     pub heading_rad: Option<f64>,
 }
 

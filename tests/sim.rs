@@ -176,3 +176,25 @@ fn pitch_table_flies_exactly_the_given_pitch() {
     let pitch = s.map_or(0.0, |s| s.pitch_deg);
     assert!((pitch - 75.0).abs() < 1e-9, "{pitch}");
 }
+
+#[test]
+fn a_core_cutoff_drops_boosters_that_still_burn() {
+    let mut p = demo("heavy-boosters-iss51.json");
+    p.program.arcs[0] = kickturn::steering::Arc::Burn {
+        steering: kickturn::steering::Steering::GravityTurn,
+        cutoff: kickturn::steering::Cutoff::Duration(40.0),
+    };
+    p.program.arcs[1] =
+        kickturn::steering::Arc::Coast(kickturn::steering::CoastEnd::Duration(10.0));
+    p.program.arcs.truncate(2);
+    let f = fly(&p, &FlyOptions::default());
+    let sep = event(&f, EventKind::BoosterSeparation);
+    assert!((sep.at.t_s - 40.0).abs() < 1e-9);
+    assert!(sep.label.contains("propellant left"), "{}", sep.label);
+    let r = FlightReport::new(&p, &f);
+    assert!(
+        r.phases[1].ideal_mps.abs() < 1e-12,
+        "coast ideal ΔV {}",
+        r.phases[1].ideal_mps
+    );
+}

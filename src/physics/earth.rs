@@ -187,7 +187,7 @@ pub fn local_frame(
 /// −(3/2) J2 μ a²/r⁵ · (x(1 − 5z²/r²), y(1 − 5z²/r²), z(3 − 5z²/r²)),
 /// the gradient of the J2 zonal potential (Vallado §8.6.1, from memory; domain
 /// brief §1). Sign: on the equator the J2 term points inward (it adds
-/// (3/2)J2μ/r² to the pull of the equatorial bulge); over the poles it points
+/// (3/2)J2μa²/r⁴ to the pull of the equatorial bulge); over the poles it points
 /// outward (it removes 3J2μa²/r⁴).
 ///
 /// Uses μ = [`WGS84_GM_M3_S2`] and a = [`WGS84_A_M`]. One square root, one

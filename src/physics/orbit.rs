@@ -222,14 +222,14 @@ pub enum AzimuthBranch {
 /// latitude: reachable inclinations are |φ| ≤ i ≤ 180° − |φ|. Also returned for
 /// |φ| > 90°, i outside [0°, 180°] or non-finite angles.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct UnreachableInclination {
+pub struct NoLaunchAzimuth {
     /// Launch latitude φ, rad.
     pub latitude_rad: f64,
     /// Requested inclination i, rad.
     pub inclination_rad: f64,
 }
 
-impl std::fmt::Display for UnreachableInclination {
+impl std::fmt::Display for NoLaunchAzimuth {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         let lat_deg = self.latitude_rad.to_degrees();
         let inc_deg = self.inclination_rad.to_degrees();
@@ -244,21 +244,21 @@ impl std::fmt::Display for UnreachableInclination {
     }
 }
 
-impl std::error::Error for UnreachableInclination {}
+impl std::error::Error for NoLaunchAzimuth {}
 
 /// Inertial launch azimuth, rad clockwise from north in [0, 2π), that puts a
-/// launch from geodetic latitude `latitude_rad` into inclination
+/// launch from latitude `latitude_rad` (the caller passes the geocentric latitude) into inclination
 /// `inclination_rad`: sin β_I = cos i / cos φ (Kluever Ex. 3.3; spherical
 /// trigonometry), evaluated as β_I = atan2(cos i, √(sin(i+|φ|) sin(i−|φ|)))
 /// so that i = |φ| gives exactly 90°. `Southerly` gives 180° − β_I. Retrograde orbits (i > 90°)
-/// give westerly azimuths (β in (180°, 360°) for `Northerly`).
+/// give westerly azimuths (β in (270°, 360°) for `Northerly`).
 /// Assumes insertion at the launch latitude.
 pub fn inertial_azimuth_rad(
     latitude_rad: f64,
     inclination_rad: f64,
     branch: AzimuthBranch,
-) -> Result<f64, UnreachableInclination> {
-    let unreachable = UnreachableInclination {
+) -> Result<f64, NoLaunchAzimuth> {
+    let unreachable = NoLaunchAzimuth {
         latitude_rad,
         inclination_rad,
     };
@@ -294,7 +294,7 @@ pub fn launch_azimuth_rad(
     orbit_speed_mps: f64,
     site_rotation_speed_mps: f64,
     branch: AzimuthBranch,
-) -> Result<f64, UnreachableInclination> {
+) -> Result<f64, NoLaunchAzimuth> {
     let beta_i = inertial_azimuth_rad(latitude_rad, inclination_rad, branch)?;
     let (sin_b, cos_b) = beta_i.sin_cos();
     let east_mps = orbit_speed_mps * sin_b - site_rotation_speed_mps;

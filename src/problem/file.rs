@@ -284,8 +284,8 @@ pub struct LinearTangentFile {
     pub pitch0_deg: f64,
     /// Rate c of the tangent, 1/s.
     pub tan_rate_per_s: f64,
-    /// Heading of the thrust plane, degrees from north (default: inertial velocity heading at the
-    /// arc's start).
+    /// Heading of the thrust plane, degrees from north (default: the launch azimuth on the first
+    /// arc, the inertial velocity heading at the arc's start on later arcs).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub heading_deg: Option<f64>,
 }

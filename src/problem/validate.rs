@@ -392,6 +392,20 @@ fn program(a: &AscentFile, v: &Vehicle, has_target: bool) -> R<Program> {
         }
         _ => {}
     }
+    if liftoff.is_some()
+        && !matches!(
+            arcs[0],
+            Arc::Burn {
+                steering: Steering::GravityTurn,
+                ..
+            }
+        )
+    {
+        return bad(
+            "ascent.liftoff",
+            "given, but the first arc is not a gravity turn: the liftoff manoeuvre would be ignored",
+        );
+    }
     let depleting = arcs
         .iter()
         .filter(|x| {
@@ -530,12 +544,28 @@ pub fn geocentric_latitude_rad(geodetic_lat_rad: f64) -> f64 {
 
 fn azimuth(l: &LaunchFile, site: &Site, target: Option<&Target>) -> R<(f64, AzimuthSource)> {
     match (l.azimuth_deg, l.inclination_deg) {
+        (Some(_), None) if l.branch.is_some() => bad(
+            "launch.branch",
+            "applies only with inclination_deg; with azimuth_deg the direction is already given",
+        ),
         (Some(az), None) => {
             let az = range("launch.azimuth_deg", az, -360.0, 360.0, true)?;
             Ok((az.rem_euclid(360.0).to_radians(), AzimuthSource::Fixed))
         }
         (None, Some(inc)) => {
             let inc = range("launch.inclination_deg", inc, 0.0, 180.0, true)?.to_radians();
+            if let Some(ti) = target.and_then(|t| t.inclination_rad) {
+                if (ti - inc).abs() > 1e-9 {
+                    return bad(
+                        "launch.inclination_deg",
+                        format!(
+                            "{:.4}° contradicts target.inclination_deg {:.4}°",
+                            inc.to_degrees(),
+                            ti.to_degrees()
+                        ),
+                    );
+                }
+            }
             let northerly = l.branch != Some(BranchFile::Southerly);
             let branch = if northerly {
                 AzimuthBranch::Northerly

@@ -53,9 +53,9 @@ pub fn write_history<W: Write>(w: W, rows: &[Snapshot]) -> Result<(), csv::Error
             s.throttle,
             s.mass_kg,
             s.ideal_mps,
-            s.gravity_loss_mps,
-            s.drag_loss_mps,
-            s.steering_loss_mps,
+            s.gravity_loss_rel_mps,
+            s.drag_loss_rel_mps,
+            s.steering_loss_rel_mps,
             s.back_pressure_loss_mps,
         ];
         let rec: Vec<String> = vals.iter().map(|v| format!("{v:.6}")).collect();

@@ -66,6 +66,38 @@ pub struct TargetSummary {
     pub inclination_deg: Option<f64>,
 }
 
+/// Orbit reached minus target (km, deg).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct TargetDeviation {
+    /// Perigee altitude error, km.
+    pub perigee_km: f64,
+    /// Apogee altitude error, km (null when the orbit is unbound).
+    pub apogee_km: Option<f64>,
+    /// Inclination error, deg (null without a target inclination).
+    pub inclination_deg: Option<f64>,
+    /// Within the insertion tolerances: apsides ±0.1 km, inclination ±0.001°.
+    pub met: bool,
+}
+
+/// Insertion tolerance on apsis altitudes, km.
+pub const APSIS_TOL_KM: f64 = 0.1;
+/// Insertion tolerance on inclination, deg.
+pub const INCLINATION_TOL_DEG: f64 = 0.001;
+
+fn deviation(o: &OrbitSummary, t: &TargetSummary) -> TargetDeviation {
+    let dp = o.perigee_alt_km - t.perigee_alt_km;
+    let da = o.apogee_alt_km.map(|a| a - t.apogee_alt_km);
+    let di = t.inclination_deg.map(|i| o.inclination_deg - i);
+    TargetDeviation {
+        perigee_km: dp,
+        apogee_km: da,
+        inclination_deg: di,
+        met: dp.abs() <= APSIS_TOL_KM
+            && da.is_some_and(|a| a.abs() <= APSIS_TOL_KM)
+            && di.is_none_or(|i| i.abs() <= INCLINATION_TOL_DEG),
+    }
+}
+
 /// Everything `fly` reports (the `--json` document).
 #[derive(Debug, Clone, Serialize)]
 pub struct FlightReport {
@@ -95,6 +127,8 @@ pub struct FlightReport {
     pub orbit: OrbitSummary,
     /// Target orbit, if given.
     pub target: Option<TargetSummary>,
+    /// Orbit reached minus target, if a target is given.
+    pub target_deviation: Option<TargetDeviation>,
     /// Propellant left in the current and later stages, kg.
     pub propellant_remaining_kg: f64,
     /// Mass at cutoff, kg.
@@ -107,6 +141,8 @@ pub struct FlightReport {
     pub max_axial_accel_g: f64,
     /// Limit on dynamic pressure, Pa, if given.
     pub max_dynamic_pressure_limit_pa: Option<f64>,
+    /// Limit on axial acceleration, g0, if given.
+    pub max_axial_accel_limit_g: Option<f64>,
     /// Events in time order.
     pub events: Vec<EventRecord>,
     /// Integrator work.
@@ -118,11 +154,12 @@ pub struct FlightReport {
 }
 
 /// Conventions stated in every report.
-pub const CONVENTIONS: [&str; 4] = [
+pub const CONVENTIONS: [&str; 5] = [
     "apsis and insertion altitudes are radius minus 6378.137 km (WGS-84 equatorial radius)",
     "orbital elements are osculating two-body elements (GM = 3.986004418e14) at cutoff",
     "event-table altitudes are geodetic (WGS-84); flight-path angles are Earth-relative unless named inertial",
     "budget: losses projected on the Earth-relative velocity; budget_inertial: on the inertial velocity",
+    "orbit.flight_path_angle_deg is measured from the plane normal to the geocentric radius; event and history flight-path angles from the local (ellipsoid) horizontal",
 ];
 
 /// Osculating orbit of the final state.
@@ -166,6 +203,11 @@ impl FlightReport {
     pub fn new(p: &Problem, f: &Flight) -> Self {
         let env = &p.environment;
         let orbit = orbit_summary(&f.y1);
+        let target = p.target.map(|t| TargetSummary {
+            perigee_alt_km: t.perigee_alt_m / 1e3,
+            apogee_alt_km: t.apogee_alt_m / 1e3,
+            inclination_deg: t.inclination_rad.map(f64::to_degrees),
+        });
         FlightReport {
             tool: format!("kickturn {}", env!("CARGO_PKG_VERSION")),
             input_sha256: p.input_sha256.clone(),
@@ -179,17 +221,18 @@ impl FlightReport {
             budget_inertial: budget(env, &f.y0, &f.y1, Bookkeeping::Inertial),
             phases: phase_budgets(env, &f.phases),
             orbit,
-            target: p.target.map(|t| TargetSummary {
-                perigee_alt_km: t.perigee_alt_m / 1e3,
-                apogee_alt_km: t.apogee_alt_m / 1e3,
-                inclination_deg: t.inclination_rad.map(f64::to_degrees),
-            }),
+            target_deviation: target.as_ref().map(|t| deviation(&orbit, t)),
+            target,
             propellant_remaining_kg: f.propellant_remaining_kg,
             final_mass_kg: f.y1[crate::sim::dynamics::ix::M],
             max_dynamic_pressure_pa: f.max_q.map_or(0.0, |m| m.value),
             max_q: f.max_q,
             max_axial_accel_g: f.max_axial_accel.map_or(0.0, |m| m.value),
             max_dynamic_pressure_limit_pa: p.limits.max_dynamic_pressure_pa,
+            max_axial_accel_limit_g: p
+                .limits
+                .max_axial_accel_mps2
+                .map(|a| a / crate::physics::earth::G0_MPS2),
             events: f.events.clone(),
             stats: f.stats,
             conventions: CONVENTIONS.to_vec(),

@@ -34,9 +34,18 @@ fn verdict(r: &FlightReport, s: &mut String) {
         let inc = t
             .inclination_deg
             .map_or(String::new(), |i| format!(", i {i:.3}°"));
+        let dev = r.target_deviation.map_or(String::new(), |d| {
+            let apo = d.apogee_km.map_or("unbound".into(), |a| format!("{a:+.2} km"));
+            let inc = d.inclination_deg.map_or(String::new(), |i| format!(", inclination {i:+.4}°"));
+            let met = if d.met { "within" } else { "outside" };
+            format!(
+                " (reached − target: perigee {:+.2} km, apogee {apo}{inc}; {met} ±0.1 km / ±0.001°)",
+                d.perigee_km
+            )
+        });
         let _ = writeln!(
             s,
-            "target: {:.1} × {:.1} km{inc}",
+            "target: {:.1} × {:.1} km{inc}{dev}",
             t.perigee_alt_km, t.apogee_alt_km
         );
     }
@@ -144,7 +153,21 @@ fn extremes(r: &FlightReport, s: &mut String) {
             m.at.mach
         );
     }
-    let _ = writeln!(s, "max axial acceleration {:.3} g0", r.max_axial_accel_g);
+    let lim = r.max_axial_accel_limit_g.map_or(String::new(), |l| {
+        // The throttle holds the limit to integrator precision; only a stage that cannot
+        // throttle low enough exceeds it.
+        let word = if r.max_axial_accel_g > l * (1.0 + 1e-6) {
+            "EXCEEDS"
+        } else {
+            "within"
+        };
+        format!(" ({word} limit {l:.2} g0)")
+    });
+    let _ = writeln!(
+        s,
+        "max axial acceleration {:.3} g0{lim}",
+        r.max_axial_accel_g
+    );
 }
 
 fn events(r: &FlightReport, s: &mut String) {

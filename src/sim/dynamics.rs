@@ -4,7 +4,7 @@
 //! ideal `∫Σκ·T_vac/m dt`, back-pressure `∫p_a·A_e/m dt`, and for each bookkeeping
 //! (inertial: along v̂; Earth-relative: along v̂_rel) steering `∫(T/m)(1 − û·ê)dt`,
 //! drag `−∫F_aero·ê/m dt`, gravity `−∫g·ê dt`; plus the rotating-frame term
-//! `∫(−ω×(ω×r))·v̂_rel dt` of the Earth-relative form (../shared/domain.md §2).
+//! `∫(−ω×(ω×r))·v̂_rel dt` of the Earth-relative form (docs/method.md, "ΔV budget").
 //!
 //! `ṙ = v`, `v̇ = (T/m)û + F_aero/m + g`, `ṁ = −Σκ·T_vac/(g0·Isp_vac)`, with
 //! `T = Σ(κ·T_vac − p_a·A_e)` and `F_aero = −½ρ|v_rel|v_rel C_D(M) S`.

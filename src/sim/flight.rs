@@ -849,7 +849,15 @@ impl<'a> Flyer<'a> {
 
     fn separate_boosters(&mut self) {
         if let Some(b) = &self.p.vehicle.boosters {
-            let label = format!("{} × {} burnout and separation", b.count, b.name);
+            let left = b.mass_at_kg(self.t) - f64::from(b.count) * b.dry_mass_kg;
+            let label = if left > 1e-6 {
+                format!(
+                    "{} × {} separation with {left:.0} kg propellant left",
+                    b.count, b.name
+                )
+            } else {
+                format!("{} × {} burnout and separation", b.count, b.name)
+            };
             self.event(EventKind::BoosterSeparation, label);
             self.y[ix::M] -= b.mass_at_kg(self.t);
         }
@@ -867,6 +875,10 @@ impl<'a> Flyer<'a> {
     fn cutoff(&mut self) {
         let name = self.p.vehicle.stages[self.mode.stage].name.clone();
         self.event(EventKind::Cutoff, format!("cutoff: {name}"));
+        // Strap-on boosters cannot be shut down: a core cutoff drops any still attached.
+        if self.mode.boosters_attached {
+            self.separate_boosters();
+        }
         self.mode.thrusting = false;
         self.arc_done = true;
     }

@@ -4,7 +4,7 @@
 //!
 //! Integrator: Dormand–Prince 5(4) (`ode_solvers::Dopri5`, Hairer, Nørsett & Wanner, *Solving ODEs
 //! I*, §II.5) with the problem's `rtol`/`atol`. Dop853 is not used: in ode_solvers 0.6.2 it
-//! mis-evaluates time-dependent right-hand sides (../shared/crates.md). Nothing is ever integrated
+//! mis-evaluates time-dependent right-hand sides (its stage-12 node is wrong; docs/method.md). Nothing is ever integrated
 //! across a discontinuity: each segment ends at the next event (time events exactly, state events by
 //! root-finding on the dense output) and the next segment restarts from the located state.
 //!

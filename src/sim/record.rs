@@ -46,11 +46,11 @@ pub struct Snapshot {
     /// Cumulative ideal ΔV, m/s.
     pub ideal_mps: f64,
     /// Cumulative gravity loss (Earth-relative bookkeeping), m/s.
-    pub gravity_loss_mps: f64,
+    pub gravity_loss_rel_mps: f64,
     /// Cumulative drag loss (Earth-relative bookkeeping), m/s.
-    pub drag_loss_mps: f64,
+    pub drag_loss_rel_mps: f64,
     /// Cumulative steering loss (Earth-relative bookkeeping), m/s.
-    pub steering_loss_mps: f64,
+    pub steering_loss_rel_mps: f64,
     /// Cumulative back-pressure loss, m/s.
     pub back_pressure_loss_mps: f64,
 }
@@ -111,9 +111,9 @@ pub fn snapshot(p: &Problem, mode: &Mode, t: f64, y: &State) -> Snapshot {
         throttle: f.throttle,
         mass_kg: m,
         ideal_mps: y[ix::IDEAL],
-        gravity_loss_mps: y[ix::GRAV_R],
-        drag_loss_mps: y[ix::DRAG_R],
-        steering_loss_mps: y[ix::STEER_R],
+        gravity_loss_rel_mps: y[ix::GRAV_R],
+        drag_loss_rel_mps: y[ix::DRAG_R],
+        steering_loss_rel_mps: y[ix::STEER_R],
         back_pressure_loss_mps: y[ix::PRESS],
     }
 }

@@ -46,22 +46,30 @@ fn stage_json(i: usize, s: &StageSpec) -> Value {
 }
 
 /// A validated problem: invented site on the equator, azimuth 90°, the given stages and arcs
-/// (JSON `ascent.arcs`), a liftoff manoeuvre (ignored when flown from a non-pad state).
+/// (JSON `ascent.arcs`), and a liftoff manoeuvre when the first arc is a gravity turn (ignored
+/// when flown from a non-pad state).
 pub fn problem(payload_kg: f64, stages: &[StageSpec], arcs: Value) -> Problem {
     let stages: Vec<Value> = stages
         .iter()
         .enumerate()
         .map(|(i, s)| stage_json(i, s))
         .collect();
+    // The liftoff manoeuvre belongs to a first-arc gravity turn only (validation rejects it
+    // otherwise).
+    let ascent = if arcs[0]["burn"]["steering"] == "gravity_turn" {
+        json!({
+            "liftoff": { "vertical_rise": { "time_s": 5.0 }, "pitch_rate_deg_s": 1.0, "kick_deg": 1.0 },
+            "arcs": arcs
+        })
+    } else {
+        json!({ "arcs": arcs })
+    };
     let doc = json!({
         "name": "closed-form check",
         "site": { "name": "Test Flats", "latitude_deg": 0.0, "longitude_deg": 0.0 },
         "launch": { "azimuth_deg": 90.0 },
         "vehicle": { "name": "Test Rocket", "payload_kg": payload_kg, "stages": stages },
-        "ascent": {
-            "liftoff": { "vertical_rise": { "time_s": 5.0 }, "pitch_rate_deg_s": 1.0, "kick_deg": 1.0 },
-            "arcs": arcs
-        }
+        "ascent": ascent
     });
     Problem::from_json(&doc.to_string()).expect("test problem must validate")
 }
