@@ -27,6 +27,42 @@ pub struct Cli {
 pub enum Command {
     /// Fly the program in a problem file and report the ΔV budget.
     Fly(FlyArgs),
+    /// Tune the ascent program for the least propellant to the target orbit, then report.
+    Solve(SolveArgs),
+}
+
+/// Arguments of `solve`.
+#[derive(Debug, clap::Args)]
+pub struct SolveArgs {
+    /// Problem file (JSON) with a `target`.
+    pub problem: PathBuf,
+    /// Print one JSON object instead of the text report.
+    #[arg(long)]
+    pub json: bool,
+    /// Write the time history of the tuned ascent to this CSV file.
+    #[arg(long, value_name = "FILE")]
+    pub csv: Option<PathBuf>,
+    /// Time-history spacing for --csv, s.
+    #[arg(long, default_value_t = 1.0, value_name = "S")]
+    pub csv_step_s: f64,
+    /// Write the problem with the tuned program to this file (atomic; never over the input).
+    #[arg(long, value_name = "OUT.json")]
+    pub write_program: Option<PathBuf>,
+    /// Wall-time budget, s.
+    #[arg(long, default_value_t = 60.0, value_name = "S")]
+    pub max_wall_s: f64,
+    /// Trajectory budget.
+    #[arg(long, default_value_t = 50_000, value_name = "N")]
+    pub max_trajectories: usize,
+    /// Also tune these variable groups: pitch_rate, rise_time, azimuth, coasts.
+    #[arg(long, value_name = "GROUP", value_delimiter = ',')]
+    pub free: Vec<String>,
+    /// Hold these variable groups at the file's values: kick, steering.
+    #[arg(long, value_name = "GROUP", value_delimiter = ',')]
+    pub fix: Vec<String>,
+    /// Start from the file's program instead of the automatic guess and kick scan.
+    #[arg(long)]
+    pub no_scan: bool,
 }
 
 /// Arguments of `fly`.
@@ -78,10 +114,12 @@ pub fn main_with_args(args: impl IntoIterator<Item = std::ffi::OsString>) -> Exi
 fn run(cli: Cli) -> anyhow::Result<u8> {
     match cli.command {
         Command::Fly(a) => run_fly(&a),
+        Command::Solve(a) => crate::report::solve::run(&a),
     }
 }
 
-fn load(path: &Path) -> anyhow::Result<Problem> {
+/// Loads and validates a problem file, with the path in any error.
+pub fn load(path: &Path) -> anyhow::Result<Problem> {
     Problem::from_path(path).map_err(|e| match e {
         ProblemError::Io(io) => anyhow::Error::new(io).context(format!("{}", path.display())),
         other => anyhow::Error::new(other).context(format!("{}", path.display())),
@@ -124,7 +162,7 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
 }
 
 /// Writes results to stdout; a closed pipe (`kickturn fly … | head`) is not an error.
-fn emit(text: &str) -> anyhow::Result<()> {
+pub fn emit(text: &str) -> anyhow::Result<()> {
     use std::io::Write;
     let mut out = std::io::stdout().lock();
     match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {

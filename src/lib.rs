@@ -15,6 +15,7 @@
 pub mod budget;
 pub mod cli;
 pub mod error;
+pub mod optimize;
 pub mod physics;
 pub mod problem;
 pub mod report;

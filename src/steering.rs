@@ -88,6 +88,8 @@ pub enum Steering {
     GravityTurn,
     /// Linear tangent law.
     LinearTangent(LinearTangent),
+    /// The previous linear-tangent arc's law, continued (same frame, same clock).
+    LinearTangentContinued,
     /// Tabulated pitch against time since liftoff, heading = launch azimuth.
     PitchTable(PitchTable),
 }

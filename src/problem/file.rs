@@ -74,17 +74,44 @@ pub enum BranchFile {
     Southerly,
 }
 
-/// Target orbit. Apsis altitudes are radius − 6378.137 km (osculating, at cutoff).
-#[derive(Debug, Clone, Serialize, Deserialize)]
+/// Target orbit: either apsides (`perigee_alt_km`, `apogee_alt_km`, optional `insertion`) or an
+/// insertion state (`insertion_alt_km`, `insertion_speed_mps`, `insertion_flight_path_deg`).
+/// Altitudes are radius − 6378.137 km (osculating, at cutoff).
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct TargetFile {
     /// Perigee altitude, km.
-    pub perigee_alt_km: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub perigee_alt_km: Option<f64>,
     /// Apogee altitude, km.
-    pub apogee_alt_km: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub apogee_alt_km: Option<f64>,
+    /// Where the apsis target is met: `"perigee"` (default: cutoff at perigee, flight-path angle 0)
+    /// or `"free"` (anywhere on the orbit).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub insertion: Option<InsertionFile>,
+    /// Insertion-state target: altitude at cutoff, km.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub insertion_alt_km: Option<f64>,
+    /// Insertion-state target: inertial speed at cutoff, m/s.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub insertion_speed_mps: Option<f64>,
+    /// Insertion-state target: inertial flight-path angle at cutoff, degrees.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub insertion_flight_path_deg: Option<f64>,
     /// Inclination, degrees (optional).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub inclination_deg: Option<f64>,
+}
+
+/// Where an apsis target is met.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum InsertionFile {
+    /// At perigee: cutoff radius = perigee radius, flight-path angle 0.
+    Perigee,
+    /// Anywhere on the target orbit.
+    Free,
 }
 
 /// The vehicle: payload, serial stages (first fires at liftoff), optional boosters, jettisons.
@@ -271,6 +298,9 @@ pub enum SteeringFile {
     GravityTurn,
     /// Linear tangent law in a frame frozen at the arc's start.
     LinearTangent(LinearTangentFile),
+    /// The linear tangent law of the previous linear-tangent arc continued (same frozen frame,
+    /// same clock): one law across several upper burns.
+    LinearTangentContinued,
     /// Pitch against time since liftoff, in the launch-azimuth plane.
     PitchTable(Vec<[f64; 2]>),
 }

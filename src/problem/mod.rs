@@ -41,15 +41,43 @@ pub struct Site {
     pub geodetic: Geodetic,
 }
 
+/// How the target orbit is met at cutoff.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Insertion {
+    /// At perigee (radius = perigee radius, flight-path angle 0).
+    Perigee,
+    /// Anywhere on the orbit (apsides only).
+    Free,
+    /// At a given state.
+    State {
+        /// Altitude at cutoff (radius − 6378.137 km), m.
+        alt_m: f64,
+        /// Inertial speed, m/s.
+        speed_mps: f64,
+        /// Inertial flight-path angle, rad.
+        flight_path_rad: f64,
+    },
+}
+
 /// Target orbit (apsis altitudes above the equatorial radius, osculating at cutoff).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Target {
+    /// How the orbit is met.
+    pub insertion: Insertion,
     /// Perigee altitude, m.
     pub perigee_alt_m: f64,
     /// Apogee altitude, m.
     pub apogee_alt_m: f64,
     /// Inclination, rad.
     pub inclination_rad: Option<f64>,
+}
+
+impl Target {
+    /// Specific orbital energy of the target orbit, J/kg: −μ/(2a).
+    pub fn energy_j_kg(&self) -> f64 {
+        let a = WGS84_A_M + 0.5 * (self.perigee_alt_m + self.apogee_alt_m);
+        -WGS84_GM_M3_S2 / (2.0 * a)
+    }
 }
 
 /// Path limits.

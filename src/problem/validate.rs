@@ -2,7 +2,7 @@
 //! path of the field and the reason.
 
 use super::file::*;
-use super::{AzimuthSource, IntegratorSettings, Limits, Problem, Site, Target};
+use super::{AzimuthSource, Insertion, IntegratorSettings, Limits, Problem, Site, Target};
 use crate::error::ProblemError;
 use crate::physics::aero::DragTable;
 use crate::physics::earth::{self, Geodetic, G0_MPS2, WGS84_A_M, WGS84_E2, WGS84_GM_M3_S2};
@@ -97,23 +97,82 @@ fn site(s: &SiteFile) -> R<Site> {
 }
 
 fn target(t: &TargetFile) -> R<Target> {
-    let rp = range("target.perigee_alt_km", t.perigee_alt_km, 80.0, 1.0e6, true)?;
-    let ra = range("target.apogee_alt_km", t.apogee_alt_km, 80.0, 1.0e6, true)?;
-    if ra < rp {
-        return bad(
-            "target.apogee_alt_km",
-            format!("apogee {ra} km is below perigee {rp} km"),
-        );
-    }
+    let state = (
+        t.insertion_alt_km,
+        t.insertion_speed_mps,
+        t.insertion_flight_path_deg,
+    );
+    let (rp, ra, insertion) =
+        match (t.perigee_alt_km, t.apogee_alt_km, state) {
+            (Some(rp), Some(ra), (None, None, None)) => {
+                let rp = range("target.perigee_alt_km", rp, 80.0, 1.0e6, true)?;
+                let ra = range("target.apogee_alt_km", ra, 80.0, 1.0e6, true)?;
+                if ra < rp {
+                    return bad(
+                        "target.apogee_alt_km",
+                        format!("apogee {ra} km is below perigee {rp} km"),
+                    );
+                }
+                let ins = match t.insertion.unwrap_or(InsertionFile::Perigee) {
+                    InsertionFile::Perigee => Insertion::Perigee,
+                    InsertionFile::Free => Insertion::Free,
+                };
+                (rp, ra, ins)
+            }
+            (None, None, (Some(h), Some(v), Some(g))) if t.insertion.is_none() => {
+                insertion_state(h, v, g)?
+            }
+            _ => return bad(
+                "target",
+                "give perigee_alt_km and apogee_alt_km (optionally insertion), or all three of \
+                 insertion_alt_km, insertion_speed_mps and insertion_flight_path_deg",
+            ),
+        };
     let inc = t
         .inclination_deg
         .map(|i| range("target.inclination_deg", i, 0.0, 180.0, true))
         .transpose()?;
     Ok(Target {
+        insertion,
         perigee_alt_m: rp * 1e3,
         apogee_alt_m: ra * 1e3,
         inclination_rad: inc.map(f64::to_radians),
     })
+}
+
+/// Apsides (km) of the orbit through an insertion state (two-body; altitudes r − 6378.137 km).
+fn insertion_state(h_km: f64, v: f64, g_deg: f64) -> R<(f64, f64, Insertion)> {
+    let h = range("target.insertion_alt_km", h_km, 80.0, 1.0e5, true)?;
+    let r = WGS84_A_M + h * 1e3;
+    let v_esc = (2.0 * WGS84_GM_M3_S2 / r).sqrt();
+    let v = range("target.insertion_speed_mps", v, 0.0, v_esc, false).map_err(|_| {
+        ProblemError::invalid(
+            "target.insertion_speed_mps",
+            format!("{v} m/s is not below the escape speed {v_esc:.1} m/s at that altitude"),
+        )
+    })?;
+    let g = range("target.insertion_flight_path_deg", g_deg, -30.0, 30.0, true)?.to_radians();
+    let mu = WGS84_GM_M3_S2;
+    let energy = 0.5 * v * v - mu / r;
+    let hm = r * v * g.cos();
+    let e = (1.0 + 2.0 * energy * hm * hm / (mu * mu)).max(0.0).sqrt();
+    let p = hm * hm / mu;
+    let (rp, ra) = (p / (1.0 + e), p / (1.0 - e));
+    let rp_alt_km = (rp - WGS84_A_M) / 1e3;
+    if rp_alt_km < 80.0 {
+        return bad(
+            "target",
+            format!(
+                "the insertion state gives a perigee of {rp_alt_km:.1} km, inside the atmosphere"
+            ),
+        );
+    }
+    let ins = Insertion::State {
+        alt_m: h * 1e3,
+        speed_mps: v,
+        flight_path_rad: g,
+    };
+    Ok((rp_alt_km, (ra - WGS84_A_M) / 1e3, ins))
 }
 
 fn aero(path: &str, a: &AeroFile) -> R<DragTable> {
@@ -315,6 +374,7 @@ fn steering(path: &str, s: &SteeringFile) -> R<Steering> {
             })
         }
         SteeringFile::PitchTable(pts) => pitch_table(path, pts)?,
+        SteeringFile::LinearTangentContinued => Steering::LinearTangentContinued,
     })
 }
 
@@ -405,6 +465,30 @@ fn program(a: &AscentFile, v: &Vehicle, has_target: bool) -> R<Program> {
             "ascent.liftoff",
             "given, but the first arc is not a gravity turn: the liftoff manoeuvre would be ignored",
         );
+    }
+    for (i, a) in arcs.iter().enumerate() {
+        let continued = matches!(
+            a,
+            Arc::Burn {
+                steering: Steering::LinearTangentContinued,
+                ..
+            }
+        );
+        let has_law = arcs[..i].iter().any(|b| {
+            matches!(
+                b,
+                Arc::Burn {
+                    steering: Steering::LinearTangent(_),
+                    ..
+                }
+            )
+        });
+        if continued && !has_law {
+            return bad(
+                &format!("ascent.arcs[{i}].burn.steering"),
+                "\"linear_tangent_continued\" needs an earlier linear_tangent arc whose law it continues",
+            );
+        }
     }
     let depleting = arcs
         .iter()

@@ -3,6 +3,7 @@
 //! user reads is formatted here.
 
 pub mod csv_out;
+pub mod solve;
 pub mod text;
 
 use nalgebra::Vector3;

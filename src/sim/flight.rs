@@ -8,7 +8,7 @@ use serde::Serialize;
 use super::dynamics::{derivative, ix, Attitude, Mode, State, Throttle};
 use super::events::{self, StateEvent};
 use super::record::{snapshot, Snapshot};
-use crate::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
+use crate::physics::earth::WGS84_A_M;
 use crate::problem::Problem;
 use crate::steering::{Arc, CoastEnd, Cutoff, RiseEnd, Steering};
 use crate::vehicle::JettisonWhen;
@@ -225,6 +225,8 @@ struct Flags {
     bucket_done: bool,
     stage_spent: bool,
     arc_start_s: f64,
+    /// The last linear tangent law flown (for `LinearTangentContinued`).
+    last_law: Option<Attitude>,
 }
 
 /// ODE system handed to the integrator; watches state events after each accepted step.
@@ -347,6 +349,7 @@ impl<'a> Flyer<'a> {
                 bucket_done: false,
                 stage_spent: false,
                 arc_start_s: t,
+                last_law: None,
             },
             out,
             arc_done: false,
@@ -422,6 +425,9 @@ impl<'a> Flyer<'a> {
                 self.mode.thrusting = true;
                 self.mode.throttle = Throttle::Fixed(self.nominal_throttle());
                 self.mode.attitude = self.initial_attitude(i, steering);
+                if matches!(self.mode.attitude, Attitude::LinearTangent { .. }) {
+                    self.flags.last_law = Some(self.mode.attitude);
+                }
                 if i > 0 {
                     let name = self.p.vehicle.stages[self.mode.stage].name.clone();
                     self.event(EventKind::Ignition, format!("ignition: {name}"));
@@ -441,6 +447,8 @@ impl<'a> Flyer<'a> {
             }
             Steering::GravityTurn => Attitude::ZeroAlpha,
             Steering::PitchTable(_) => Attitude::Table,
+            // Validation guarantees an earlier law; vertical is only a defensive fallback.
+            Steering::LinearTangentContinued => self.flags.last_law.unwrap_or(Attitude::Vertical),
             Steering::LinearTangent(lt) => {
                 let r = Vector3::new(self.y[0], self.y[1], self.y[2]);
                 let v = Vector3::new(self.y[3], self.y[4], self.y[5]);
@@ -521,8 +529,7 @@ impl<'a> Flyer<'a> {
             Arc::Burn { cutoff, .. } => match *cutoff {
                 Cutoff::TargetOrbit => {
                     if let Some(t) = p.target {
-                        let a = WGS84_A_M + 0.5 * (t.perigee_alt_m + t.apogee_alt_m);
-                        evs.push(StateEvent::Energy(-WGS84_GM_M3_S2 / (2.0 * a)));
+                        evs.push(StateEvent::Energy(t.energy_j_kg()));
                     }
                 }
                 Cutoff::ApogeeAlt(h) => evs.push(StateEvent::ApogeeRadius(WGS84_A_M + h)),

@@ -1,0 +1,379 @@
+//! The shooting optimizer: the least-propellant ascent program that reaches the target orbit.
+//!
+//! Method (docs/method.md, "Optimizer"): the decision variables are split in two.
+//! - *Inner* variables, one per terminal condition (the final linear tangent law's pitch and rate,
+//!   or the transfer burn's apogee cutoff and the circularization pitch; the first law's heading
+//!   for the inclination), are solved by Levenberg–Marquardt on the terminal residuals
+//!   ([`targeting`]) for each setting of the outer variables.
+//! - *Outer* variables (the kick angle by default, plus any other free law parameters) minimize the
+//!   propellant burned, with the inner solve nested: Brent's method in one dimension, Nelder–Mead
+//!   in several (argmin). A coarse scan of the kick angle first finds a feasible, low-propellant
+//!   region (the kick is the most sensitive parameter; ../shared domain notes, Curtis Ex. 11.3),
+//!   which also makes the start independent of the user's guess.
+//!
+//! Nesting keeps the outer problem smooth and low-dimensional: every outer point is a trajectory
+//! that meets the target, so the objective compares like with like.
+
+pub mod design;
+pub mod inner;
+mod outer;
+pub mod targeting;
+
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::time::{Duration, Instant};
+
+use serde::Serialize;
+
+use crate::problem::{Problem, Target};
+use crate::steering::{Arc, CoastEnd, Cutoff, Steering};
+pub use design::Var;
+use targeting::Eval;
+
+/// Objective penalty per unit of normalized residual above the inner tolerance, kg.
+pub const PENALTY_KG: f64 = 1e5;
+
+/// Settings of one solve.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SolveOptions {
+    /// Wall-time budget, s (default 60).
+    pub max_wall_s: f64,
+    /// Trajectory budget (default 50 000).
+    pub max_trajectories: usize,
+    /// Variable groups to free in addition to the defaults (`pitch_rate`, `rise_time`,
+    /// `azimuth`, `coasts`).
+    pub free: Vec<String>,
+    /// Variable groups to hold at the problem file's values (`kick`, `steering`, `apogee_cutoffs`).
+    pub fix: Vec<String>,
+    /// Scan the kick angle for a start (default true); off: start from the file's program.
+    pub scan: bool,
+}
+
+impl Default for SolveOptions {
+    fn default() -> Self {
+        Self {
+            max_wall_s: 60.0,
+            max_trajectories: 50_000,
+            free: Vec::new(),
+            fix: Vec::new(),
+            scan: true,
+        }
+    }
+}
+
+/// How the solve ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SolveStatus {
+    /// Terminal conditions met and the outer search converged.
+    Converged,
+    /// Terminal conditions met, but the wall-time or trajectory budget ended the outer search.
+    BudgetExhausted,
+    /// No program met the terminal conditions.
+    Infeasible,
+}
+
+/// Convergence report.
+#[derive(Debug, Clone, Serialize)]
+pub struct Convergence {
+    /// Outcome.
+    pub status: SolveStatus,
+    /// Why the search stopped, in words.
+    pub reason: String,
+    /// Outer iterations (objective evaluations).
+    pub iterations: usize,
+    /// Trajectories flown.
+    pub trajectories: usize,
+    /// Wall time, s.
+    pub wall_s: f64,
+    /// Terminal residuals at the solution (names with units).
+    pub terminal_residuals: Vec<(String, f64)>,
+}
+
+/// Result of a solve.
+#[derive(Debug, Clone)]
+pub struct Solution {
+    /// The problem with the tuned program.
+    pub problem: Problem,
+    /// Tuned variables and their values (SI), inner ones first.
+    pub variables: Vec<(Var, f64)>,
+    /// Evaluation of the tuned program.
+    pub eval: Eval,
+    /// Convergence report.
+    pub convergence: Convergence,
+}
+
+/// Why the problem cannot be solved as posed.
+#[derive(Debug, thiserror::Error, Clone, PartialEq)]
+#[non_exhaustive]
+pub enum SolveError {
+    /// The problem has no target orbit.
+    #[error("target: missing; `solve` needs a target orbit")]
+    NoTarget,
+    /// The program's structure does not give the optimizer the controls it needs.
+    #[error("{field}: {reason}")]
+    Structure {
+        /// JSON path.
+        field: String,
+        /// What is missing.
+        reason: String,
+    },
+}
+
+/// Evaluation context shared by the inner and outer searches.
+pub struct Ctx<'a> {
+    base: &'a Problem,
+    target: Target,
+    inner: Vec<Var>,
+    outer: Vec<Var>,
+    flights: AtomicUsize,
+    start: Instant,
+    deadline: Duration,
+    max_flights: usize,
+}
+
+impl Ctx<'_> {
+    /// The problem with outer and inner variables set (normalized values).
+    pub fn problem_with(&self, outer: &[f64], inner: &[f64]) -> Problem {
+        let mut p = self.base.clone();
+        for (v, x) in self
+            .outer
+            .iter()
+            .zip(outer)
+            .chain(self.inner.iter().zip(inner))
+        {
+            v.set(&mut p, x * v.scale());
+        }
+        p
+    }
+
+    /// Flies and evaluates one program.
+    pub fn eval(&self, outer: &[f64], inner: &[f64]) -> Eval {
+        self.flights.fetch_add(1, Ordering::Relaxed);
+        targeting::evaluate(&self.problem_with(outer, inner), &self.target)
+    }
+
+    /// True once the wall-time or trajectory budget is spent.
+    pub fn out_of_budget(&self) -> bool {
+        self.flights.load(Ordering::Relaxed) >= self.max_flights
+            || self.start.elapsed() >= self.deadline
+    }
+
+    fn normalized(&self, vars: &[Var], p: &Problem) -> Vec<f64> {
+        vars.iter()
+            .map(|v| v.get(p).unwrap_or(0.0) / v.scale())
+            .collect()
+    }
+}
+
+/// Objective of an evaluated program: propellant burned plus a penalty on unmet conditions, kg.
+pub fn objective(e: &Eval) -> f64 {
+    e.propellant_used_kg + PENALTY_KG * (e.max_abs() - inner::INNER_TOL).max(0.0)
+}
+
+fn struct_err(field: &str, reason: &str) -> SolveError {
+    SolveError::Structure {
+        field: field.into(),
+        reason: reason.into(),
+    }
+}
+
+/// Index of the arc whose linear tangent law steers arc `i` (itself or the one it continues).
+fn law_owner(p: &Problem, i: usize) -> Option<usize> {
+    match &p.program.arcs[i] {
+        Arc::Burn {
+            steering: Steering::LinearTangent(_),
+            ..
+        } => Some(i),
+        Arc::Burn {
+            steering: Steering::LinearTangentContinued,
+            ..
+        } => (0..i).rev().find(|j| law_owner(p, *j) == Some(*j)),
+        _ => None,
+    }
+}
+
+/// A burn–coast-to-apogee–burn ending: (transfer burn with an apogee cutoff, final burn).
+fn circularization(p: &Problem, last: usize) -> Option<usize> {
+    let arcs = &p.program.arcs;
+    let coast = (0..last)
+        .rev()
+        .find(|j| matches!(arcs[*j], Arc::Coast(_)))?;
+    if !matches!(arcs[coast], Arc::Coast(CoastEnd::ToApogee)) {
+        return None;
+    }
+    (0..coast).rev().find(|j| {
+        matches!(
+            arcs[*j],
+            Arc::Burn {
+                cutoff: Cutoff::ApogeeAlt(_),
+                ..
+            }
+        )
+    })
+}
+
+/// Chooses inner and outer variables from the program's structure and the options.
+fn choose_vars(
+    p: &Problem,
+    t: &Target,
+    o: &SolveOptions,
+) -> Result<(Vec<Var>, Vec<Var>), SolveError> {
+    let arcs = &p.program.arcs;
+    let last = (0..arcs.len())
+        .rev()
+        .find(|i| matches!(arcs[*i], Arc::Burn { .. }))
+        .ok_or_else(|| struct_err("ascent.arcs", "no burn"))?;
+    let owner = law_owner(p, last).ok_or_else(|| {
+        struct_err(
+            &format!("ascent.arcs[{last}].burn.steering"),
+            "the last burn must use linear_tangent steering (or continue one) for the optimizer",
+        )
+    })?;
+    let first_law = (0..arcs.len())
+        .find(|i| law_owner(p, *i) == Some(*i))
+        .unwrap_or(owner);
+    let has = |g: &str| o.free.iter().any(|f| f == g);
+    let fixed = |g: &str| o.fix.iter().any(|f| f == g);
+    let mut inner = Vec::new();
+    let mut outer = Vec::new();
+    match (circularization(p, last), t.insertion) {
+        (Some(transfer), _) => {
+            inner.push(Var::ApogeeCutoff(transfer));
+            inner.push(Var::Pitch0(owner));
+        }
+        (None, crate::problem::Insertion::Free) => {
+            inner.push(Var::Pitch0(owner));
+            if !fixed("steering") {
+                outer.push(Var::TanRate(owner));
+            }
+        }
+        (None, _) => {
+            inner.push(Var::Pitch0(owner));
+            inner.push(Var::TanRate(owner));
+        }
+    }
+    if t.inclination_rad.is_some() {
+        inner.push(Var::Heading(first_law));
+    }
+    if p.program.liftoff.is_some() && !fixed("kick") {
+        outer.push(Var::Kick);
+    }
+    if !fixed("steering") {
+        for i in (0..arcs.len()).filter(|i| law_owner(p, *i) == Some(*i) && *i != owner) {
+            outer.push(Var::Pitch0(i));
+            outer.push(Var::TanRate(i));
+        }
+    }
+    for (g, v) in [
+        ("pitch_rate", Var::PitchRate),
+        ("rise_time", Var::RiseTime),
+        ("azimuth", Var::Azimuth),
+    ] {
+        if has(g) && v.get(p).is_some() {
+            outer.push(v);
+        }
+    }
+    if has("coasts") {
+        outer.extend(
+            (0..arcs.len())
+                .map(Var::Coast)
+                .filter(|v| v.get(p).is_some()),
+        );
+    }
+    Ok((inner, outer))
+}
+
+/// Prepares the base problem: the last burn cuts off on the target energy.
+fn prepare(p: &Problem) -> Problem {
+    let mut q = p.clone();
+    if let Some(i) = (0..q.program.arcs.len())
+        .rev()
+        .find(|i| matches!(q.program.arcs[*i], Arc::Burn { .. }))
+    {
+        if let Arc::Burn { cutoff, .. } = &mut q.program.arcs[i] {
+            *cutoff = Cutoff::TargetOrbit;
+        }
+    }
+    q
+}
+
+/// Finds the least-propellant program of `p` that reaches its target.
+pub fn solve(p: &Problem, o: &SolveOptions) -> Result<Solution, SolveError> {
+    let target = p.target.ok_or(SolveError::NoTarget)?;
+    let base = prepare(p);
+    let (inner, outer) = choose_vars(&base, &target, o)?;
+    let ctx = Ctx {
+        base: &base,
+        target,
+        inner,
+        outer,
+        flights: AtomicUsize::new(0),
+        start: Instant::now(),
+        deadline: Duration::from_secs_f64(o.max_wall_s.max(0.0)),
+        max_flights: o.max_trajectories,
+    };
+    let start = outer::initial_guess(&ctx, o);
+    let best = outer::search(&ctx, start);
+    Ok(finish(&ctx, best))
+}
+
+fn finish(ctx: &Ctx, best: outer::Point) -> Solution {
+    let problem = ctx.problem_with(&best.outer, &best.inner);
+    let variables = ctx
+        .inner
+        .iter()
+        .chain(&ctx.outer)
+        .map(|v| (*v, v.get(&problem).unwrap_or(f64::NAN)))
+        .collect();
+    let status = if !best.eval.reached || best.eval.max_abs() >= 1e-3 {
+        SolveStatus::Infeasible
+    } else if best.budget_hit {
+        SolveStatus::BudgetExhausted
+    } else {
+        SolveStatus::Converged
+    };
+    let convergence = Convergence {
+        status,
+        reason: best.reason.clone(),
+        iterations: best.iterations,
+        trajectories: ctx.flights.load(Ordering::Relaxed),
+        wall_s: ctx.start.elapsed().as_secs_f64(),
+        terminal_residuals: residual_names(&ctx.target, &best.eval),
+    };
+    Solution {
+        problem,
+        variables,
+        eval: best.eval,
+        convergence,
+    }
+}
+
+/// Residuals in physical units with their names.
+fn residual_names(t: &Target, e: &Eval) -> Vec<(String, f64)> {
+    use crate::problem::Insertion;
+    let r_km = targeting::R_SCALE_M / 1e3;
+    let deg = targeting::ANGLE_SCALE_RAD.to_degrees();
+    let mut names: Vec<(&str, f64)> = match t.insertion {
+        Insertion::Perigee => vec![
+            ("cutoff_radius_minus_perigee_km", r_km),
+            ("flight_path_angle_deg", deg),
+        ],
+        Insertion::Free => vec![("perigee_alt_error_km", r_km)],
+        Insertion::State { .. } => vec![
+            ("insertion_alt_error_km", r_km),
+            ("flight_path_angle_error_deg", deg),
+        ],
+    };
+    if t.inclination_rad.is_some() {
+        names.push(("inclination_error_deg", deg));
+    }
+    names.push((
+        "energy_shortfall_fraction",
+        1.0 / targeting::SHORTFALL_WEIGHT,
+    ));
+    names
+        .iter()
+        .zip(&e.residuals)
+        .map(|((n, s), r)| (n.to_string(), r * s))
+        .collect()
+}

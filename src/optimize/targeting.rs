@@ -1,0 +1,121 @@
+//! Terminal conditions: the scaled residuals of a flown trajectory against the target orbit.
+//!
+//! The last burn cuts off when the orbital energy reaches the target's, so the semi-major axis is
+//! met by construction and the residuals are the remaining conditions (../shared practice, also
+//! docs/method.md): insertion at perigee `[(r − r_p)/100 km, γ/1°]`, free insertion
+//! `[(r_p − r_p*)/100 km]`, insertion state `[(r − r*)/100 km, (γ − γ*)/1°]`, then `(i − i*)/1°`
+//! when an inclination is targeted, and last an energy-shortfall term that is zero whenever the
+//! cutoff was reached. A residual of 1e-3 is the insertion tolerance (0.1 km, 0.001°; 100 m for
+//! an insertion state).
+
+use nalgebra::Vector3;
+
+use crate::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
+use crate::physics::orbit::Elements;
+use crate::problem::{Insertion, Problem, Target};
+use crate::sim::{fly, EndReason, Flight, FlyOptions};
+
+/// Radius residual scale, m.
+pub const R_SCALE_M: f64 = 100e3;
+/// Angle residual scale, rad.
+pub const ANGLE_SCALE_RAD: f64 = 0.017_453_292_519_943_295;
+/// Weight of the energy shortfall (fraction of the target energy) in the residuals.
+pub const SHORTFALL_WEIGHT: f64 = 10.0;
+
+/// One evaluated program.
+#[derive(Debug, Clone)]
+pub struct Eval {
+    /// Scaled residuals (see the module doc).
+    pub residuals: Vec<f64>,
+    /// Propellant burned, kg.
+    pub propellant_used_kg: f64,
+    /// The final cutoff on the target energy was reached and the flight completed.
+    pub reached: bool,
+    /// Highest apogee altitude seen at the end, m (for infeasible reports).
+    pub apogee_alt_m: f64,
+    /// Energy shortfall at the end, fraction of |target energy| (0 when reached).
+    pub shortfall: f64,
+}
+
+impl Eval {
+    /// Largest absolute residual.
+    pub fn max_abs(&self) -> f64 {
+        self.residuals.iter().fold(0.0, |m, r| m.max(r.abs()))
+    }
+}
+
+/// Number of residuals for a target.
+pub fn residual_count(t: &Target) -> usize {
+    let n = match t.insertion {
+        Insertion::Free => 1,
+        Insertion::Perigee | Insertion::State { .. } => 2,
+    };
+    n + usize::from(t.inclination_rad.is_some()) + 1
+}
+
+/// Residuals of a flight against `t`.
+pub fn residuals(t: &Target, f: &Flight) -> (Vec<f64>, f64) {
+    let y = &f.y1;
+    let r = Vector3::new(y[0], y[1], y[2]);
+    let v = Vector3::new(y[3], y[4], y[5]);
+    let el = Elements::from_state(&r, &v, WGS84_GM_M3_S2);
+    let gamma = (r.dot(&v) / (r.norm() * v.norm()).max(1e-9))
+        .clamp(-1.0, 1.0)
+        .asin();
+    let mut res = match t.insertion {
+        Insertion::Perigee => vec![
+            (r.norm() - WGS84_A_M - t.perigee_alt_m) / R_SCALE_M,
+            gamma / ANGLE_SCALE_RAD,
+        ],
+        Insertion::Free => vec![(el.perigee_radius_m - WGS84_A_M - t.perigee_alt_m) / R_SCALE_M],
+        Insertion::State {
+            alt_m,
+            flight_path_rad,
+            ..
+        } => vec![
+            (r.norm() - WGS84_A_M - alt_m) / R_SCALE_M,
+            (gamma - flight_path_rad) / ANGLE_SCALE_RAD,
+        ],
+    };
+    if let Some(i) = t.inclination_rad {
+        res.push((el.inclination_rad - i) / ANGLE_SCALE_RAD);
+    }
+    let e = 0.5 * v.norm_squared() - WGS84_GM_M3_S2 / r.norm();
+    let e_t = t.energy_j_kg();
+    let completed = matches!(f.end, EndReason::Completed);
+    let shortfall = if completed {
+        ((e_t - e) / e_t.abs()).max(0.0)
+    } else {
+        ((e_t - e) / e_t.abs()).max(0.0) + 1.0
+    };
+    // Below 1e-9 the shortfall is the cutoff's own root-finding round-off.
+    let shortfall = if shortfall < 1e-9 { 0.0 } else { shortfall };
+    res.push(SHORTFALL_WEIGHT * shortfall);
+    (res, shortfall)
+}
+
+/// Flies `p` and evaluates it against its target.
+pub fn evaluate(p: &Problem, t: &Target) -> Eval {
+    let f = fly(p, &FlyOptions::default());
+    let (residuals, shortfall) = residuals(t, &f);
+    let y = &f.y1;
+    let r = Vector3::new(y[0], y[1], y[2]);
+    let v = Vector3::new(y[3], y[4], y[5]);
+    let el = Elements::from_state(&r, &v, WGS84_GM_M3_S2);
+    let finite = residuals.iter().all(|x| x.is_finite());
+    Eval {
+        residuals: if finite {
+            residuals
+        } else {
+            vec![1e6; residual_count(t)]
+        },
+        propellant_used_kg: p.vehicle.propellant_loaded_kg() - f.propellant_remaining_kg,
+        reached: shortfall == 0.0 && matches!(f.end, EndReason::Completed),
+        apogee_alt_m: if el.apogee_radius_m.is_finite() {
+            el.apogee_radius_m - WGS84_A_M
+        } else {
+            f64::INFINITY
+        },
+        shortfall,
+    }
+}

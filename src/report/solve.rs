@@ -1,0 +1,248 @@
+//! `solve`: tune the program, fly it, and report it like `fly` plus the tuned program and the
+//! convergence report.
+
+use std::fmt::Write as _;
+
+use anyhow::{bail, Context};
+use serde::Serialize;
+
+use super::{text, FlightReport};
+use crate::cli::{emit, write_atomic, SolveArgs, EXIT_BAD_INPUT, EXIT_NOT_REACHED, EXIT_OK};
+use crate::optimize::{solve, Convergence, SolveOptions, SolveStatus};
+use crate::problem::file::{AscentFile, LaunchFile, ProblemFile};
+use crate::problem::{parse, validate, Problem};
+use crate::sim::{fly, EventKind, FlyOptions};
+
+/// The tuned program in the problem file's own syntax.
+#[derive(Debug, Clone, Serialize)]
+pub struct Program {
+    /// `launch` section (changed only when the azimuth was tuned).
+    pub launch: LaunchFile,
+    /// `ascent` section with the tuned values.
+    pub ascent: AscentFile,
+}
+
+/// One tuned variable.
+#[derive(Debug, Clone, Serialize)]
+pub struct Tuned {
+    /// JSON path of the field.
+    pub field: String,
+    /// Value in the field's unit.
+    pub value: f64,
+}
+
+/// Everything `solve` reports (the `--json` document): the `fly` report of the tuned program plus
+/// the solve's own fields.
+#[derive(Debug, Clone, Serialize)]
+pub struct SolveReport {
+    /// The flight of the tuned program.
+    #[serde(flatten)]
+    pub flight: FlightReport,
+    /// Tuned program, ready to paste into the problem file.
+    pub program: Program,
+    /// Tuned variables.
+    pub tuned: Vec<Tuned>,
+    /// Convergence report.
+    pub convergence: Convergence,
+    /// Propellant burned, kg.
+    pub propellant_used_kg: f64,
+    /// Payload, kg.
+    pub payload_kg: f64,
+    /// Propellant left after cutoff (no reserves deducted), kg.
+    pub margin_kg: f64,
+    /// The margin as ΔV of the last stage: g0 Isp ln(m_f / (m_f − margin)), m/s.
+    pub margin_mps: f64,
+    /// Path limits that are active on the solved ascent.
+    pub active_constraints: Vec<String>,
+}
+
+fn active_constraints(p: &Problem, r: &FlightReport, accel_limited: bool) -> Vec<String> {
+    let mut v = Vec::new();
+    if accel_limited {
+        v.push("max_axial_accel_g: throttle holds the limit".to_string());
+    }
+    if let Some(q) = p.limits.max_dynamic_pressure_pa {
+        if r.max_dynamic_pressure_pa > q {
+            v.push(format!(
+                "max_dynamic_pressure_pa: EXCEEDED ({:.1} kPa > {:.1} kPa; not enforced yet)",
+                r.max_dynamic_pressure_pa / 1e3,
+                q / 1e3
+            ));
+        }
+    }
+    v
+}
+
+/// Runs `kickturn solve`.
+pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
+    if !(a.csv_step_s.is_finite() && a.csv_step_s > 0.0) {
+        bail!(
+            "--csv-step-s: must be a finite number > 0, got {}",
+            a.csv_step_s
+        );
+    }
+    if !(a.max_wall_s.is_finite() && a.max_wall_s > 0.0) {
+        bail!(
+            "--max-wall-s: must be a finite number > 0, got {}",
+            a.max_wall_s
+        );
+    }
+    let text_in =
+        std::fs::read_to_string(&a.problem).with_context(|| format!("{}", a.problem.display()))?;
+    let file = parse(&text_in).with_context(|| format!("{}", a.problem.display()))?;
+    let mut p = validate::validate(&file).with_context(|| format!("{}", a.problem.display()))?;
+    p.input_sha256 = crate::problem::sha256_hex(text_in.as_bytes());
+    if let Some(u) = p.unreachable_inclination() {
+        eprintln!("{}: {u}", a.problem.display());
+        return Ok(EXIT_NOT_REACHED);
+    }
+    for g in &a.free {
+        if !["pitch_rate", "rise_time", "azimuth", "coasts"].contains(&g.as_str()) {
+            bail!("--free: unknown group `{g}` (pitch_rate, rise_time, azimuth, coasts)");
+        }
+    }
+    for g in &a.fix {
+        if !["kick", "steering"].contains(&g.as_str()) {
+            bail!("--fix: unknown group `{g}` (kick, steering)");
+        }
+    }
+    let opts = SolveOptions {
+        max_wall_s: a.max_wall_s,
+        max_trajectories: a.max_trajectories,
+        free: a.free.clone(),
+        fix: a.fix.clone(),
+        scan: !a.no_scan,
+    };
+    let sol = match solve(&p, &opts) {
+        Ok(s) => s,
+        Err(e) => {
+            eprintln!("error: {}: {e}", a.problem.display());
+            return Ok(EXIT_BAD_INPUT);
+        }
+    };
+    let mut tuned_file = file.clone();
+    for (v, x) in &sol.variables {
+        v.write(&mut tuned_file, *x);
+    }
+    set_final_cutoff(&mut tuned_file);
+    let record = a.csv.as_ref().map(|_| a.csv_step_s);
+    let flight = fly(
+        &sol.problem,
+        &FlyOptions {
+            record_step_s: record,
+            initial: None,
+        },
+    );
+    let report = FlightReport::new(&sol.problem, &flight);
+    let accel_limited = flight
+        .events
+        .iter()
+        .any(|e| e.kind == EventKind::AccelLimitOnset);
+    let last = sol.problem.vehicle.stages.len() - 1;
+    let stage = &sol.problem.vehicle.stages[flight.final_mode.stage.min(last)];
+    let m_f = report.final_mass_kg;
+    let margin = report.propellant_remaining_kg;
+    let margin_mps = if m_f > margin {
+        stage.engine.exhaust_velocity_mps() * (m_f / (m_f - margin)).ln()
+    } else {
+        f64::NAN
+    };
+    let out = SolveReport {
+        program: Program {
+            launch: tuned_file.launch.clone(),
+            ascent: tuned_file.ascent.clone(),
+        },
+        tuned: sol
+            .variables
+            .iter()
+            .map(|(v, x)| Tuned {
+                field: v.name(),
+                value: v.to_file_unit(*x),
+            })
+            .collect(),
+        propellant_used_kg: sol.eval.propellant_used_kg,
+        payload_kg: sol.problem.vehicle.payload_kg,
+        margin_kg: margin,
+        margin_mps,
+        active_constraints: active_constraints(&sol.problem, &report, accel_limited),
+        convergence: sol.convergence.clone(),
+        flight: report,
+    };
+    if let Some(path) = &a.csv {
+        write_atomic(path, &a.problem, |w| {
+            super::csv_out::write_history(w, &flight.history).map_err(Into::into)
+        })?;
+    }
+    if let Some(path) = &a.write_program {
+        let json = serde_json::to_string_pretty(&tuned_file)? + "\n";
+        write_atomic(path, &a.problem, |w| {
+            use std::io::Write;
+            w.write_all(json.as_bytes()).map_err(Into::into)
+        })?;
+    }
+    if a.json {
+        emit(&format!("{}\n", serde_json::to_string_pretty(&out)?))?;
+    } else {
+        emit(&render(&out))?;
+    }
+    let ok = out.convergence.status != SolveStatus::Infeasible && out.flight.reached_orbit();
+    Ok(if ok { EXIT_OK } else { EXIT_NOT_REACHED })
+}
+
+/// The optimizer cuts the last burn on the target energy; the written program says so.
+fn set_final_cutoff(f: &mut ProblemFile) {
+    use crate::problem::file::{ArcFile, CutoffFile};
+    if let Some(ArcFile::Burn(b)) = f
+        .ascent
+        .arcs
+        .iter_mut()
+        .rev()
+        .find(|a| matches!(a, ArcFile::Burn(_)))
+    {
+        b.cutoff = Some(CutoffFile::TargetOrbit);
+    }
+}
+
+fn status_line(c: &Convergence) -> &'static str {
+    match c.status {
+        SolveStatus::Converged => "SOLVED",
+        SolveStatus::BudgetExhausted => "SOLVED (budget ended the search early)",
+        SolveStatus::Infeasible => "NOT SOLVED: the target cannot be reached",
+    }
+}
+
+/// Text rendering: the solve verdict, the tuned program, then the flight report.
+pub fn render(r: &SolveReport) -> String {
+    let mut s = String::new();
+    let c = &r.convergence;
+    let _ = writeln!(
+        s,
+        "{}: propellant used {:.1} kg, margin {:.1} kg ({:.1} m/s), payload {:.1} kg",
+        status_line(c),
+        r.propellant_used_kg,
+        r.margin_kg,
+        r.margin_mps,
+        r.payload_kg
+    );
+    let _ = writeln!(
+        s,
+        "search: {} outer iterations, {} trajectories, {:.2} s; {}",
+        c.iterations, c.trajectories, c.wall_s, c.reason
+    );
+    let res: Vec<String> = c
+        .terminal_residuals
+        .iter()
+        .map(|(n, v)| format!("{n} {v:+.3e}"))
+        .collect();
+    let _ = writeln!(s, "terminal residuals: {}", res.join(", "));
+    let _ = writeln!(s, "tuned program:");
+    for t in &r.tuned {
+        let _ = writeln!(s, "  {:<64} {:>14.6}", t.field, t.value);
+    }
+    for a in &r.active_constraints {
+        let _ = writeln!(s, "active: {a}");
+    }
+    let _ = writeln!(s);
+    s.push_str(&text::render(&r.flight));
+    s
+}
