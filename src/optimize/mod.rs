@@ -46,6 +46,9 @@ pub struct SolveOptions {
     pub fix: Vec<String>,
     /// Scan the kick angle for a start (default true); off: start from the file's program.
     pub scan: bool,
+    /// Perturb the automatic start (law parameters ±30 %, kick grid ×0.7–1.3) with this seed:
+    /// for robustness checks. `None`: the plain automatic start.
+    pub perturb_seed: Option<u64>,
 }
 
 impl Default for SolveOptions {
@@ -56,6 +59,7 @@ impl Default for SolveOptions {
             free: Vec::new(),
             fix: Vec::new(),
             scan: true,
+            perturb_seed: None,
         }
     }
 }
@@ -313,6 +317,12 @@ pub fn solve(p: &Problem, o: &SolveOptions) -> Result<Solution, SolveError> {
         max_flights: o.max_trajectories,
     };
     let start = outer::initial_guess(&ctx, o);
+    if std::env::var_os("KICKTURN_DEBUG").is_some() {
+        eprintln!(
+            "debug: scan used {} trajectories",
+            ctx.flights.load(Ordering::Relaxed)
+        );
+    }
     let best = outer::search(&ctx, start);
     Ok(finish(&ctx, best))
 }

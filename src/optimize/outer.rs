@@ -8,6 +8,7 @@ use argmin::core::{CostFunction, Error, Executor};
 use argmin::solver::brent::BrentOpt;
 use argmin::solver::neldermead::NelderMead;
 use nalgebra::Vector3;
+use rayon::prelude::*;
 
 use super::design::Var;
 use super::inner;
@@ -37,6 +38,8 @@ pub struct Point {
     pub budget_hit: bool,
     /// Why the search stopped.
     pub reason: String,
+    /// Kick bracket (normalized) from the scan: the best scan point's neighbours.
+    pub kick_bracket: Option<(f64, f64)>,
 }
 
 impl Point {
@@ -108,11 +111,39 @@ fn heading_guess(ctx: &Ctx, p: &Problem, arc: usize) -> f64 {
     }
 }
 
+/// Deterministic pseudo-random factors in [1 − a, 1 + a] (SplitMix64; Steele et al., 2014).
+struct Jitter(u64);
+
+impl Jitter {
+    fn factor(&mut self, a: f64) -> f64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^= z >> 31;
+        let u = (z >> 11) as f64 / (1u64 << 53) as f64;
+        1.0 + a * (2.0 * u - 1.0)
+    }
+}
+
 /// The automatic starting program, then the kick scan when enabled.
 pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Point {
     let mut p = ctx.base.clone();
     if o.scan {
         auto_laws(ctx, &mut p);
+    }
+    let mut jitter = o.perturb_seed.map(Jitter);
+    if let Some(j) = jitter.as_mut() {
+        for a in p.program.arcs.iter_mut() {
+            if let Arc::Burn {
+                steering: Steering::LinearTangent(lt),
+                ..
+            } = a
+            {
+                lt.pitch0_rad *= j.factor(0.3);
+                lt.tan_rate_per_s *= j.factor(0.3);
+            }
+        }
     }
     for v in &ctx.inner {
         if let Var::Heading(arc) = v {
@@ -126,34 +157,53 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Point {
     let inner0 = ctx.normalized(&ctx.inner, &p);
     let kick = ctx.outer.iter().position(|v| *v == Var::Kick);
     let starts: Vec<Vec<f64>> = match (o.scan, kick) {
-        (true, Some(k)) => KICK_GRID_DEG
-            .iter()
-            .map(|deg| {
-                let mut x = outer0.clone();
-                x[k] = deg.to_radians() / Var::Kick.scale();
-                x
-            })
-            .collect(),
+        (true, Some(k)) => {
+            let shift = jitter.as_mut().map_or(1.0, |j| j.factor(0.3));
+            KICK_GRID_DEG
+                .iter()
+                .map(|deg| {
+                    let mut x = outer0.clone();
+                    x[k] = shift * deg.to_radians() / Var::Kick.scale();
+                    x
+                })
+                .collect()
+        }
         _ => vec![outer0],
     };
-    let mut best: Option<Point> = None;
-    for x in starts {
-        let r = inner::solve(ctx, &x, &inner0);
-        let pt = Point {
-            outer: x,
-            inner: r.x,
-            eval: r.eval,
-            iterations: 0,
-            budget_hit: false,
-            reason: String::new(),
-        };
-        if best.as_ref().is_none_or(|b| pt.cost() < b.cost()) {
-            best = Some(pt);
-        }
-        if ctx.out_of_budget() {
-            break;
+    // The scan points are independent: solve them in parallel, keep the first best in grid
+    // order (deterministic whatever the thread count).
+    let points: Vec<Point> = starts
+        .into_par_iter()
+        .map(|x| {
+            let r = inner::solve(ctx, &x, &inner0, None);
+            Point {
+                outer: x,
+                inner: r.x,
+                eval: r.eval,
+                iterations: 0,
+                budget_hit: false,
+                reason: String::new(),
+                kick_bracket: None,
+            }
+        })
+        .collect();
+    let mut best: Option<(usize, Point)> = None;
+    for (i, pt) in points.iter().enumerate() {
+        if best.as_ref().is_none_or(|(_, b)| pt.cost() < b.cost()) {
+            best = Some((i, pt.clone()));
         }
     }
+    let best = best.map(|(i, mut b)| {
+        if let (Some(k), true) = (kick, points.len() > 1) {
+            let at = |j: usize| points[j].outer[k];
+            b.kick_bracket = Some(match i {
+                0 => (0.25 * at(0), at(1)),
+                i if i + 1 == points.len() => (at(i - 1), 2.0 * at(i)),
+                i => (at(i - 1), at(i + 1)),
+            });
+        }
+        b
+    });
     best.unwrap_or_else(|| {
         let e = ctx.eval(&[], &inner0);
         Point {
@@ -163,6 +213,7 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Point {
             iterations: 0,
             budget_hit: true,
             reason: String::new(),
+            kick_bracket: None,
         }
     })
 }
@@ -171,6 +222,7 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Point {
 struct Outer<'a> {
     ctx: &'a Ctx<'a>,
     warm: Mutex<Vec<f64>>,
+    jac: Mutex<Option<nalgebra::DMatrix<f64>>>,
     best: Mutex<Point>,
     count: Mutex<usize>,
 }
@@ -181,7 +233,21 @@ impl Outer<'_> {
             return Err(Error::msg("wall-time or trajectory budget spent"));
         }
         let warm = self.warm.lock().map(|w| w.clone()).unwrap_or_default();
-        let r = inner::solve(self.ctx, x, &warm);
+        let jac = self.jac.lock().ok().and_then(|j| j.clone());
+        let before = self.ctx.flights.load(std::sync::atomic::Ordering::Relaxed);
+        let r = inner::solve(self.ctx, x, &warm, jac.as_ref());
+        if std::env::var_os("KICKTURN_DEBUG").is_some() {
+            let n = self.ctx.flights.load(std::sync::atomic::Ordering::Relaxed) - before;
+            eprintln!(
+                "debug: outer {x:?} inner flights {n} conv {} res {:.2e} cost {:.3}",
+                r.converged,
+                r.eval.max_abs(),
+                objective(&r.eval)
+            );
+        }
+        if let (Ok(mut j), Some(new)) = (self.jac.lock(), r.jacobian.clone()) {
+            *j = Some(new);
+        }
         if let Ok(mut c) = self.count.lock() {
             *c += 1;
         }
@@ -237,11 +303,12 @@ pub fn search(ctx: &Ctx, start: Point) -> Point {
     let outer = Outer {
         ctx,
         warm: Mutex::new(start.inner.clone()),
+        jac: Mutex::new(None),
         best: Mutex::new(start.clone()),
         count: Mutex::new(0),
     };
     let result = if n == 1 && ctx.outer[0] == Var::Kick {
-        brent_kick(&outer, start.outer[0])
+        brent_kick(&outer, start.outer[0], start.kick_bracket)
     } else {
         nelder_mead(&outer, &start.outer)
     };
@@ -255,17 +322,11 @@ pub fn search(ctx: &Ctx, start: Point) -> Point {
     best
 }
 
-fn brent_kick(outer: &Outer, k0: f64) -> Result<String, Error> {
-    let grid: Vec<f64> = KICK_GRID_DEG
-        .iter()
-        .map(|d| d.to_radians() / Var::Kick.scale())
-        .collect();
-    let i = grid.iter().position(|g| (g - k0).abs() < 1e-12);
-    let (lo, hi) = match i {
-        Some(0) => (grid[0] * 0.25, grid[1]),
-        Some(i) if i + 1 == grid.len() => (grid[i - 1], grid[i] * 2.0),
-        Some(i) => (grid[i - 1], grid[i + 1]),
-        None => (k0 * 0.5, k0 * 1.5 + 0.5),
+fn brent_kick(outer: &Outer, k0: f64, scan: Option<(f64, f64)>) -> Result<String, Error> {
+    // A scan start is bracketed by its neighbours on the grid; any other start by a search.
+    let (lo, hi) = match scan {
+        Some(b) => b,
+        None => bracket(outer, k0)?,
     };
     let solver = BrentOpt::new(lo, hi).set_tolerance(1e-10, 1e-5);
     let res = Executor::new(Outer1(outer), solver)
@@ -277,12 +338,44 @@ fn brent_kick(outer: &Outer, k0: f64) -> Result<String, Error> {
     ))
 }
 
+/// Brackets the minimum downhill from `k0` by doubling steps (normalized kick units).
+fn bracket(outer: &Outer, k0: f64) -> Result<(f64, f64), Error> {
+    let lo_bound = Var::Kick.bounds().0 / Var::Kick.scale();
+    let f0 = outer.run(&[k0])?;
+    let mut step = (0.2 * k0).max(0.05);
+    let fr = outer.run(&[k0 + step])?;
+    let dir = if fr < f0 { 1.0 } else { -1.0 };
+    let (mut a, mut fa) = (k0, f0);
+    let (mut b, mut fb) = if dir > 0.0 { (k0 + step, fr) } else { (k0, f0) };
+    if dir < 0.0 {
+        a = k0 + step;
+        fa = fr;
+    }
+    for _ in 0..12 {
+        let c = (b + dir * step).max(lo_bound);
+        let fc = outer.run(&[c])?;
+        if fc >= fb || c <= lo_bound {
+            return Ok(if dir > 0.0 { (a, c) } else { (c, a) });
+        }
+        (a, fa, b, fb) = (b, fb, c, fc);
+        step *= 2.0;
+    }
+    let _ = fa;
+    Ok(if dir > 0.0 {
+        (a, b + step)
+    } else {
+        ((b - step).max(lo_bound), a)
+    })
+}
+
 fn nelder_mead(outer: &Outer, x0: &[f64]) -> Result<String, Error> {
     let n = x0.len();
     let mut simplex = vec![x0.to_vec()];
+    // Steps of 10 % of each variable (at least 0.05 normalized units): the feasible region in
+    // the kick can be a fraction of a degree wide for a low thrust-to-weight vehicle.
     for i in 0..n {
         let mut x = x0.to_vec();
-        x[i] += 0.5;
+        x[i] += (0.1 * x0[i].abs()).max(0.05);
         simplex.push(x);
     }
     let solver = NelderMead::new(simplex).with_sd_tolerance(0.01)?;

@@ -53,41 +53,35 @@ pub fn residual_count(t: &Target) -> usize {
     n + usize::from(t.inclination_rad.is_some()) + 1
 }
 
-/// Residuals of a flight against `t`.
-pub fn residuals(t: &Target, f: &Flight) -> (Vec<f64>, f64) {
+/// Residuals of a flight of `p` against `t`, and the energy shortfall.
+pub fn residuals(p: &Problem, t: &Target, f: &Flight) -> (Vec<f64>, f64) {
+    let env = &p.environment;
     let y = &f.y1;
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);
     let el = Elements::from_state(&r, &v, WGS84_GM_M3_S2);
-    let gamma = (r.dot(&v) / (r.norm() * v.norm()).max(1e-9))
-        .clamp(-1.0, 1.0)
-        .asin();
+    let gamma = env.flight_path_angle_rad(&r, &v);
+    let alt = env.radial_altitude_m(&r);
     let mut res = match t.insertion {
-        Insertion::Perigee => vec![
-            (r.norm() - WGS84_A_M - t.perigee_alt_m) / R_SCALE_M,
-            gamma / ANGLE_SCALE_RAD,
-        ],
+        Insertion::Perigee => vec![(alt - t.perigee_alt_m) / R_SCALE_M, gamma / ANGLE_SCALE_RAD],
         Insertion::Free => vec![(el.perigee_radius_m - WGS84_A_M - t.perigee_alt_m) / R_SCALE_M],
         Insertion::State {
             alt_m,
             flight_path_rad,
             ..
         } => vec![
-            (r.norm() - WGS84_A_M - alt_m) / R_SCALE_M,
+            (alt - alt_m) / R_SCALE_M,
             (gamma - flight_path_rad) / ANGLE_SCALE_RAD,
         ],
     };
     if let Some(i) = t.inclination_rad {
         res.push((el.inclination_rad - i) / ANGLE_SCALE_RAD);
     }
-    let e = 0.5 * v.norm_squared() - WGS84_GM_M3_S2 / r.norm();
-    let e_t = t.energy_j_kg();
+    let e = env.specific_energy_j_kg(&r, &v);
+    let e_t = t.energy_j_kg(env);
+    let deficit = ((e_t - e) / e_t.abs().max(1.0)).max(0.0);
     let completed = matches!(f.end, EndReason::Completed);
-    let shortfall = if completed {
-        ((e_t - e) / e_t.abs()).max(0.0)
-    } else {
-        ((e_t - e) / e_t.abs()).max(0.0) + 1.0
-    };
+    let shortfall = if completed { deficit } else { deficit + 1.0 };
     // Below 1e-9 the shortfall is the cutoff's own root-finding round-off.
     let shortfall = if shortfall < 1e-9 { 0.0 } else { shortfall };
     res.push(SHORTFALL_WEIGHT * shortfall);
@@ -97,7 +91,7 @@ pub fn residuals(t: &Target, f: &Flight) -> (Vec<f64>, f64) {
 /// Flies `p` and evaluates it against its target.
 pub fn evaluate(p: &Problem, t: &Target) -> Eval {
     let f = fly(p, &FlyOptions::default());
-    let (residuals, shortfall) = residuals(t, &f);
+    let (residuals, shortfall) = residuals(p, t, &f);
     let y = &f.y1;
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);

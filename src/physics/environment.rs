@@ -97,6 +97,37 @@ impl Environment {
         self.omega_rad_s().z * t_s
     }
 
+    /// Specific mechanical energy, J/kg: `v²/2 − μ/r` (point-mass potential, WGS-84 GM), or
+    /// `v²/2 + g z` on the flat check model.
+    pub fn specific_energy_j_kg(&self, r_m: &Vector3<f64>, v_mps: &Vector3<f64>) -> f64 {
+        match self.earth {
+            EarthModel::Wgs84 { .. } => {
+                0.5 * v_mps.norm_squared() - earth::WGS84_GM_M3_S2 / r_m.norm()
+            }
+            EarthModel::Flat { gravity_mps2 } => 0.5 * v_mps.norm_squared() + gravity_mps2 * r_m.z,
+        }
+    }
+
+    /// Orbital altitude `|r| − a` (m; the report convention) or `z` on the flat model.
+    pub fn radial_altitude_m(&self, r_m: &Vector3<f64>) -> f64 {
+        match self.earth {
+            EarthModel::Wgs84 { .. } => r_m.norm() - earth::WGS84_A_M,
+            EarthModel::Flat { .. } => r_m.z,
+        }
+    }
+
+    /// Inertial flight-path angle against the plane normal to the geocentric radius (flat model:
+    /// against the horizontal plane), rad.
+    pub fn flight_path_angle_rad(&self, r_m: &Vector3<f64>, v_mps: &Vector3<f64>) -> f64 {
+        let up = match self.earth {
+            EarthModel::Wgs84 { .. } => r_m / r_m.norm().max(1e-9),
+            EarthModel::Flat { .. } => Vector3::z(),
+        };
+        (up.dot(v_mps) / v_mps.norm().max(1e-9))
+            .clamp(-1.0, 1.0)
+            .asin()
+    }
+
     /// Air at altitude `altitude_m`.
     pub fn air(&self, altitude_m: f64) -> AtmosphereState {
         match self.atmosphere {

@@ -73,10 +73,22 @@ pub struct Target {
 }
 
 impl Target {
-    /// Specific orbital energy of the target orbit, J/kg: −μ/(2a).
-    pub fn energy_j_kg(&self) -> f64 {
-        let a = WGS84_A_M + 0.5 * (self.perigee_alt_m + self.apogee_alt_m);
-        -WGS84_GM_M3_S2 / (2.0 * a)
+    /// Specific orbital energy of the target orbit, J/kg: −μ/(2a) (two-body, WGS-84 GM), or
+    /// for an insertion state on the flat check model `v²/2 + g h`.
+    pub fn energy_j_kg(&self, env: &crate::physics::environment::Environment) -> f64 {
+        use crate::physics::environment::EarthModel;
+        match (env.earth, self.insertion) {
+            (
+                EarthModel::Flat { gravity_mps2 },
+                Insertion::State {
+                    alt_m, speed_mps, ..
+                },
+            ) => 0.5 * speed_mps * speed_mps + gravity_mps2 * alt_m,
+            _ => {
+                let a = WGS84_A_M + 0.5 * (self.perigee_alt_m + self.apogee_alt_m);
+                -WGS84_GM_M3_S2 / (2.0 * a)
+            }
+        }
     }
 }
 

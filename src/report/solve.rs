@@ -112,6 +112,7 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         free: a.free.clone(),
         fix: a.fix.clone(),
         scan: !a.no_scan,
+        perturb_seed: None,
     };
     let sol = match solve(&p, &opts) {
         Ok(s) => s,

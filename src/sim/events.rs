@@ -126,8 +126,8 @@ pub fn value_at(p: &Problem, mode: &Mode, ev: &StateEvent, t: f64, y: &State, lo
         StateEvent::HeatingArm(_, q) => heating_w_m2(loc.air.density_kg_m3, vrel) / q - 1.0,
         StateEvent::HeatingFall(_, q) => 1.0 - heating_w_m2(loc.air.density_kg_m3, vrel) / q,
         StateEvent::Energy(e) => {
-            let en = 0.5 * v.norm_squared() - WGS84_GM_M3_S2 / r.norm();
-            (en - e) / e.abs()
+            let en = p.environment.specific_energy_j_kg(&r, &v);
+            (en - e) / e.abs().max(1.0)
         }
         StateEvent::ApogeeRadius(ra) => {
             let el = Elements::from_state(&r, &v, WGS84_GM_M3_S2);

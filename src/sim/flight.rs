@@ -529,7 +529,7 @@ impl<'a> Flyer<'a> {
             Arc::Burn { cutoff, .. } => match *cutoff {
                 Cutoff::TargetOrbit => {
                     if let Some(t) = p.target {
-                        evs.push(StateEvent::Energy(t.energy_j_kg()));
+                        evs.push(StateEvent::Energy(t.energy_j_kg(&p.environment)));
                     }
                 }
                 Cutoff::ApogeeAlt(h) => evs.push(StateEvent::ApogeeRadius(WGS84_A_M + h)),
