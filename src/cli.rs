@@ -63,6 +63,9 @@ pub struct SolveArgs {
     /// Start from the file's program instead of the automatic guess and kick scan.
     #[arg(long)]
     pub no_scan: bool,
+    /// Perturb the automatic start with this seed (robustness checks).
+    #[arg(long, value_name = "SEED")]
+    pub perturb_seed: Option<u64>,
 }
 
 /// Arguments of `fly`.

@@ -323,7 +323,7 @@ pub fn solve(p: &Problem, o: &SolveOptions) -> Result<Solution, SolveError> {
             ctx.flights.load(Ordering::Relaxed)
         );
     }
-    let best = outer::search(&ctx, start);
+    let best = outer::search_all(&ctx, start);
     Ok(finish(&ctx, best))
 }
 

@@ -126,8 +126,9 @@ impl Jitter {
     }
 }
 
-/// The automatic starting program, then the kick scan when enabled.
-pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Point {
+/// The automatic starting program, then the kick scan when enabled: the starting points of the
+/// outer search.
+pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
     let mut p = ctx.base.clone();
     if o.scan {
         auto_laws(ctx, &mut p);
@@ -156,15 +157,29 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Point {
     let outer0 = ctx.normalized(&ctx.outer, &p);
     let inner0 = ctx.normalized(&ctx.inner, &p);
     let kick = ctx.outer.iter().position(|v| *v == Var::Kick);
+    // With an outer law, its initial pitch is scanned too (three levels): the feasible kick
+    // band of a low thrust-to-weight vehicle moves with the upper-stage pitch.
+    let law = ctx.outer.iter().position(|v| matches!(v, Var::Pitch0(_)));
+    let levels: &[f64] = if law.is_some() {
+        &[0.6, 1.0, 1.4]
+    } else {
+        &[1.0]
+    };
     let starts: Vec<Vec<f64>> = match (o.scan, kick) {
         (true, Some(k)) => {
             let shift = jitter.as_mut().map_or(1.0, |j| j.factor(0.3));
-            KICK_GRID_DEG
+            levels
                 .iter()
-                .map(|deg| {
-                    let mut x = outer0.clone();
-                    x[k] = shift * deg.to_radians() / Var::Kick.scale();
-                    x
+                .flat_map(|lev| {
+                    let base = outer0.clone();
+                    KICK_GRID_DEG.iter().map(move |deg| {
+                        let mut x = base.clone();
+                        x[k] = shift * deg.to_radians() / Var::Kick.scale();
+                        if let Some(q) = law {
+                            x[q] *= lev;
+                        }
+                        x
+                    })
                 })
                 .collect()
         }
@@ -187,26 +202,19 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Point {
             }
         })
         .collect();
-    let mut best: Option<(usize, Point)> = None;
-    for (i, pt) in points.iter().enumerate() {
-        if best.as_ref().is_none_or(|(_, b)| pt.cost() < b.cost()) {
-            best = Some((i, pt.clone()));
-        }
-    }
-    let best = best.map(|(i, mut b)| {
-        if let (Some(k), true) = (kick, points.len() > 1) {
-            let at = |j: usize| points[j].outer[k];
-            b.kick_bracket = Some(match i {
-                0 => (0.25 * at(0), at(1)),
-                i if i + 1 == points.len() => (at(i - 1), 2.0 * at(i)),
-                i => (at(i - 1), at(i + 1)),
-            });
-        }
-        b
-    });
-    best.unwrap_or_else(|| {
+    let mut starts: Vec<Point> = points
+        .chunks(if o.scan && kick.is_some() {
+            KICK_GRID_DEG.len()
+        } else {
+            points.len().max(1)
+        })
+        .flat_map(|row| scan_minima(row, kick))
+        .collect();
+    starts.sort_by(|a, b| a.cost().total_cmp(&b.cost()));
+    starts.truncate(2);
+    if starts.is_empty() {
         let e = ctx.eval(&[], &inner0);
-        Point {
+        starts.push(Point {
             outer: Vec::new(),
             inner: inner0,
             eval: e,
@@ -214,8 +222,37 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Point {
             budget_hit: true,
             reason: String::new(),
             kick_bracket: None,
-        }
-    })
+        });
+    }
+    starts
+}
+
+/// Local minima of the scan (cost no higher than both neighbours), best first, at most two:
+/// the kick can have a lofted and a depressed optimum (multistart keeps both in play). Each
+/// carries its grid neighbours as the kick bracket.
+fn scan_minima(points: &[Point], kick: Option<usize>) -> Vec<Point> {
+    let n = points.len();
+    let cost = |i: usize| points[i].cost();
+    let mut minima: Vec<usize> = (0..n)
+        .filter(|&i| (i == 0 || cost(i) <= cost(i - 1)) && (i + 1 == n || cost(i) <= cost(i + 1)))
+        .collect();
+    minima.sort_by(|a, b| cost(*a).total_cmp(&cost(*b)).then(a.cmp(b)));
+    minima.truncate(2);
+    minima
+        .into_iter()
+        .map(|i| {
+            let mut b = points[i].clone();
+            if let (Some(k), true) = (kick, n > 1) {
+                let at = |j: usize| points[j].outer[k];
+                b.kick_bracket = Some(match i {
+                    0 => (0.25 * at(0), at(1)),
+                    i if i + 1 == n => (at(i - 1), 2.0 * at(i)),
+                    i => (at(i - 1), at(i + 1)),
+                });
+            }
+            b
+        })
+        .collect()
 }
 
 /// The outer objective with the inner solve nested, warm-started from the last solution.
@@ -291,8 +328,46 @@ impl CostFunction for OuterN<'_> {
     }
 }
 
+/// Minimizes propellant over the outer variables from each start; keeps the best.
+pub fn search_all(ctx: &Ctx, starts: Vec<Point>) -> Point {
+    let mut best: Option<Point> = None;
+    let mut iterations = 0;
+    for (k, s) in starts.into_iter().enumerate() {
+        // A second start is worth its cost only when its scan value is close to the first's.
+        if let Some(b) = &best {
+            if k > 0 && s.cost() > b.cost() + 0.01 * b.eval.propellant_used_kg.abs().max(1.0) {
+                continue;
+            }
+        }
+        let r = search(ctx, s);
+        iterations += r.iterations;
+        if best.as_ref().is_none_or(|b| r.cost() < b.cost()) {
+            best = Some(r);
+        }
+        if ctx.out_of_budget() {
+            break;
+        }
+    }
+    let mut b = best.unwrap_or_else(|| unreachable_point(ctx));
+    b.iterations = iterations;
+    b
+}
+
+fn unreachable_point(ctx: &Ctx) -> Point {
+    let e = ctx.eval(&[], &[]);
+    Point {
+        outer: Vec::new(),
+        inner: Vec::new(),
+        eval: e,
+        iterations: 0,
+        budget_hit: true,
+        reason: "no start".into(),
+        kick_bracket: None,
+    }
+}
+
 /// Minimizes propellant over the outer variables from `start`.
-pub fn search(ctx: &Ctx, start: Point) -> Point {
+fn search(ctx: &Ctx, start: Point) -> Point {
     let n = start.outer.len();
     if n == 0 {
         return Point {

@@ -54,6 +54,19 @@ pub struct SolveReport {
     pub margin_mps: f64,
     /// Path limits that are active on the solved ascent.
     pub active_constraints: Vec<String>,
+    /// When the target energy was not reached: the speed still missing at the end of the best
+    /// program found, √(v² + 2ΔE) − v, m/s (null when reached).
+    pub shortfall_mps: Option<f64>,
+}
+
+/// Speed missing at the end state to reach the target energy, m/s.
+fn shortfall_mps(p: &Problem, y: &crate::sim::dynamics::State) -> Option<f64> {
+    let t = p.target?;
+    let r = nalgebra::Vector3::new(y[0], y[1], y[2]);
+    let v = nalgebra::Vector3::new(y[3], y[4], y[5]);
+    let de = t.energy_j_kg(&p.environment) - p.environment.specific_energy_j_kg(&r, &v);
+    (de > 1e-6 * t.energy_j_kg(&p.environment).abs())
+        .then(|| (v.norm_squared() + 2.0 * de).sqrt() - v.norm())
 }
 
 fn active_constraints(p: &Problem, r: &FlightReport, accel_limited: bool) -> Vec<String> {
@@ -112,7 +125,7 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         free: a.free.clone(),
         fix: a.fix.clone(),
         scan: !a.no_scan,
-        perturb_seed: None,
+        perturb_seed: a.perturb_seed,
     };
     let sol = match solve(&p, &opts) {
         Ok(s) => s,
@@ -166,6 +179,7 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         margin_kg: margin,
         margin_mps,
         active_constraints: active_constraints(&sol.problem, &report, accel_limited),
+        shortfall_mps: shortfall_mps(&sol.problem, &flight.y1),
         convergence: sol.convergence.clone(),
         flight: report,
     };
@@ -208,7 +222,7 @@ fn status_line(c: &Convergence) -> &'static str {
     match c.status {
         SolveStatus::Converged => "SOLVED",
         SolveStatus::BudgetExhausted => "SOLVED (budget ended the search early)",
-        SolveStatus::Infeasible => "NOT SOLVED: the target cannot be reached",
+        SolveStatus::Infeasible => "NOT SOLVED: no program found reaches the target",
     }
 }
 
@@ -230,6 +244,18 @@ pub fn render(r: &SolveReport) -> String {
         "search: {} outer iterations, {} trajectories, {:.2} s; {}",
         c.iterations, c.trajectories, c.wall_s, c.reason
     );
+    if let Some(short) = r.shortfall_mps {
+        let apo = r
+            .flight
+            .orbit
+            .apogee_alt_km
+            .map_or("unbound".into(), |a| format!("{a:.1} km"));
+        let _ = writeln!(
+            s,
+            "best program found: {short:.1} m/s short of the target energy; apogee {apo}, perigee {:.1} km",
+            r.flight.orbit.perigee_alt_km
+        );
+    }
     let res: Vec<String> = c
         .terminal_residuals
         .iter()

@@ -1,0 +1,337 @@
+//! Verification of the optimizer (`solve`): a closed-form optimal-steering check, convergence from
+//! perturbed starts, a kick scan around the optimum, the written program reproducing the orbit,
+//! and infeasible targets.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+use kickturn::optimize::{objective, solve, SolveOptions, SolveStatus, Var};
+use kickturn::physics::environment::{AtmosphereModel, EarthModel, Environment};
+use kickturn::problem::{Insertion, Problem, Target};
+use kickturn::report::FlightReport;
+use kickturn::sim::{fly, FlyOptions};
+
+fn root() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+}
+
+fn demo(name: &str) -> Problem {
+    match Problem::from_path(&root().join("problems").join(name)) {
+        Ok(p) => p,
+        Err(e) => panic!("{name}: {e}"),
+    }
+}
+
+const DEMOS: [&str; 3] = [
+    "small-3stage-sso500.json",
+    "medium-2stage-leo200.json",
+    "heavy-boosters-iss51.json",
+];
+
+/// Linear tangent closed form (flat Earth, uniform g, vacuum, constant thrust acceleration a),
+/// ../shared/domain.md §3(b): with L = ln[(secθ0 + tanθ0)/(secθ + tanθ)], tanθ = tanθ0 − c t,
+/// returns (vx, vy, y) at time t from rest.
+fn lt_closed_form(tan0: f64, c: f64, t: f64, a: f64, g: f64) -> (f64, f64, f64) {
+    let tan = tan0 - c * t;
+    let (sec0, sec) = ((1.0 + tan0 * tan0).sqrt(), (1.0 + tan * tan).sqrt());
+    let l = ((sec0 + tan0) / (sec + tan)).ln();
+    let vx = a / c * l;
+    let vy = a / c * (sec0 - sec) - g * t;
+    let y = a / (2.0 * c * c) * (tan0 * sec0 - 2.0 * tan * sec0 + tan * sec - l) - 0.5 * g * t * t;
+    (vx, vy, y)
+}
+
+/// Solves the closed-form conditions vx = 1627, vy = 0, y = 185 km for (tanθ0, c, tf) by Newton.
+fn lt_optimum(a: f64, g: f64) -> [f64; 3] {
+    let mut x = [2.7, 0.008, 480.0];
+    let f = |x: &[f64; 3]| {
+        let (vx, vy, y) = lt_closed_form(x[0], x[1], x[2], a, g);
+        [vx - 1627.0, vy, (y - 185e3) / 100.0]
+    };
+    for _ in 0..50 {
+        let f0 = f(&x);
+        let mut j = nalgebra::Matrix3::zeros();
+        for k in 0..3 {
+            let mut xk = x;
+            let h = 1e-7 * x[k].abs();
+            xk[k] += h;
+            let fk = f(&xk);
+            for i in 0..3 {
+                j[(i, k)] = (fk[i] - f0[i]) / h;
+            }
+        }
+        let dx = j
+            .lu()
+            .solve(&nalgebra::Vector3::from(f0))
+            .unwrap_or_default();
+        for k in 0..3 {
+            x[k] -= dx[k];
+        }
+    }
+    x
+}
+
+#[test]
+fn linear_tangent_optimum_matches_the_closed_form() {
+    // Source: Bryson & Ho, Applied Optimal Control (1975) §2.4 (from memory), worked example of
+    // ../shared/domain.md §3(b): g = 1.61544, a = 3g, from rest to y = 185 km, vx = 1627 m/s,
+    // vy = 0: tanθ0 = 2.74497, c = 0.0082687 s⁻¹, tf = 481.948 s, xf = 338.171 km [der].
+    let g = 1.61544;
+    let a = 3.0 * g;
+    let [tan0, c, tf] = lt_optimum(a, g);
+    assert!((tan0 - 2.74497).abs() < 5e-6, "closed form tanθ0 {tan0}");
+    assert!((c - 0.0082687).abs() < 5e-8, "closed form c {c}");
+    assert!((tf - 481.948).abs() < 5e-4, "closed form tf {tf}");
+
+    let json = r#"{
+      "name": "flat linear tangent check",
+      "site": { "name": "Flat test range", "latitude_deg": 0.0, "longitude_deg": 0.0 },
+      "launch": { "azimuth_deg": 90.0 },
+      "vehicle": { "name": "Test lander", "payload_kg": 0.0, "stages": [ {
+        "name": "ascent stage", "dry_mass_kg": 1000.0, "propellant_kg": 10.0,
+        "thrust_vac_n": 1.0e5, "isp_vac_s": 300.0, "exit_area_m2": 0.0,
+        "aero": { "ref_area_m2": 1.0, "cd_mach": [[0.0, 0.0]] } } ] },
+      "ascent": { "arcs": [ { "burn": { "steering": { "linear_tangent":
+        { "pitch0_deg": 60.0, "tan_rate_per_s": 0.005, "heading_deg": 90.0 } } } } ] }
+    }"#;
+    let mut p = match Problem::from_json(json) {
+        Ok(p) => p,
+        Err(e) => panic!("{e}"),
+    };
+    p.environment = Environment {
+        earth: EarthModel::Flat { gravity_mps2: g },
+        atmosphere: AtmosphereModel::Vacuum,
+    };
+    // Constant thrust acceleration: negligible mass flow, thrust a·m.
+    let m0 = p.vehicle.liftoff_mass_kg();
+    let s = &mut p.vehicle.stages[0];
+    s.engine.isp_vac_s = 1e15;
+    s.engine.thrust_vac_n = a * m0;
+    p.target = Some(Target {
+        insertion: Insertion::State {
+            alt_m: 185e3,
+            speed_mps: 1627.0,
+            flight_path_rad: 0.0,
+        },
+        perigee_alt_m: 185e3,
+        apogee_alt_m: 185e3,
+        inclination_rad: None,
+    });
+    let sol = match solve(
+        &p,
+        &SolveOptions {
+            scan: false,
+            ..SolveOptions::default()
+        },
+    ) {
+        Ok(s) => s,
+        Err(e) => panic!("{e}"),
+    };
+    assert_eq!(sol.convergence.status, SolveStatus::Converged);
+    let value = |v: Var| {
+        sol.variables
+            .iter()
+            .find(|(w, _)| *w == v)
+            .map_or(f64::NAN, |(_, x)| *x)
+    };
+    let theta0 = value(Var::Pitch0(0));
+    let rate = value(Var::TanRate(0));
+    let flight = fly(&sol.problem, &FlyOptions::default());
+    let rel = |got: f64, want: f64| ((got - want) / want).abs();
+    assert!(
+        rel(theta0, tan0.atan()) < 1e-6,
+        "θ0 {} vs {}",
+        theta0.to_degrees(),
+        tan0.atan().to_degrees()
+    );
+    assert!(rel(rate, c) < 1e-6, "c {rate} vs {c}");
+    assert!(rel(flight.t1_s, tf) < 1e-6, "tf {} vs {tf}", flight.t1_s);
+    // Downrange at cutoff: x = (a/c²)[secθ0 − secθ − tanθ·L] (domain.md §3(b)); 338.171 km.
+    assert!(
+        (flight.y1[0] - 338_171.0).abs() < 1.0,
+        "xf {}",
+        flight.y1[0]
+    );
+}
+
+fn solved(name: &str, o: &SolveOptions) -> kickturn::optimize::Solution {
+    match solve(&demo(name), o) {
+        Ok(s) => s,
+        Err(e) => panic!("{name}: {e}"),
+    }
+}
+
+#[test]
+fn demos_converge_to_the_target_within_tolerance_and_the_budget_closes() {
+    for name in DEMOS {
+        let sol = solved(name, &SolveOptions::default());
+        assert_eq!(
+            sol.convergence.status,
+            SolveStatus::Converged,
+            "{name}: {:?}",
+            sol.convergence
+        );
+        let f = fly(&sol.problem, &FlyOptions::default());
+        let r = FlightReport::new(&sol.problem, &f);
+        let d = r
+            .target_deviation
+            .unwrap_or_else(|| panic!("{name}: no target"));
+        // Tolerances of the optimizer issue: apsides ±0.1 km, inclination ±0.001°.
+        assert!(d.met, "{name}: {d:?}");
+        assert!(
+            d.perigee_km.abs() < 0.01 && d.apogee_km.unwrap_or(1.0).abs() < 0.01,
+            "{name}: {d:?}"
+        );
+        assert!(r.budget.closure_error_mps.abs() < 1e-3);
+        assert!(r.budget_inertial.closure_error_mps.abs() < 1e-3);
+        assert!(
+            sol.convergence.trajectories < 5000,
+            "{name}: {} trajectories",
+            sol.convergence.trajectories
+        );
+    }
+}
+
+#[test]
+fn perturbed_starts_reach_the_same_optimum() {
+    for name in DEMOS {
+        let base = solved(name, &SolveOptions::default());
+        let m0 = base.eval.propellant_used_kg;
+        let final_mass = demo(name).vehicle.liftoff_mass_kg() - m0;
+        let tol = 0.5f64.max(1e-4 * final_mass);
+        for seed in 1..=5u64 {
+            let s = solved(
+                name,
+                &SolveOptions {
+                    perturb_seed: Some(seed),
+                    ..SolveOptions::default()
+                },
+            );
+            assert_eq!(
+                s.convergence.status,
+                SolveStatus::Converged,
+                "{name} seed {seed}"
+            );
+            let d = s.eval.propellant_used_kg - m0;
+            assert!(
+                d.abs() <= tol,
+                "{name} seed {seed}: final mass differs by {d:.3} kg"
+            );
+        }
+    }
+}
+
+#[test]
+fn the_optimum_is_a_minimum_along_the_kick() {
+    // Re-solve the terminal conditions with the kick held a little either side of the optimum:
+    // the propellant burned must not fall.
+    let name = "medium-2stage-leo200.json";
+    let sol = solved(name, &SolveOptions::default());
+    let k = sol
+        .variables
+        .iter()
+        .find(|(v, _)| *v == Var::Kick)
+        .map_or(f64::NAN, |(_, x)| *x);
+    let best = objective(&sol.eval);
+    for dk_deg in [-0.2, -0.05, 0.05, 0.2] {
+        let mut p = sol.problem.clone();
+        Var::Kick.set(&mut p, k + f64::to_radians(dk_deg));
+        let s = match solve(
+            &p,
+            &SolveOptions {
+                scan: false,
+                fix: vec!["kick".into()],
+                ..SolveOptions::default()
+            },
+        ) {
+            Ok(s) => s,
+            Err(e) => panic!("{e}"),
+        };
+        assert_eq!(s.convergence.status, SolveStatus::Converged);
+        let j = objective(&s.eval);
+        assert!(
+            j >= best - 0.01,
+            "kick {dk_deg:+}°: {j:.3} kg < optimum {best:.3} kg"
+        );
+    }
+}
+
+fn kickturn(args: &[&str]) -> std::process::Output {
+    match Command::new(env!("CARGO_BIN_EXE_kickturn"))
+        .args(args)
+        .current_dir(root())
+        .output()
+    {
+        Ok(o) => o,
+        Err(e) => panic!("{e}"),
+    }
+}
+
+fn json(out: &std::process::Output) -> serde_json::Value {
+    serde_json::from_slice(&out.stdout)
+        .unwrap_or_else(|e| panic!("{e}: {}", String::from_utf8_lossy(&out.stdout)))
+}
+
+#[test]
+fn the_written_program_flies_to_the_same_orbit() {
+    let dir = std::env::temp_dir().join(format!("kickturn-solve-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let out_path = dir.join("tuned.json");
+    let o = out_path.to_string_lossy().to_string();
+    let solved = kickturn(&[
+        "solve",
+        "problems/heavy-boosters-iss51.json",
+        "--json",
+        "--write-program",
+        &o,
+    ]);
+    assert_eq!(
+        solved.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&solved.stderr)
+    );
+    let s = json(&solved);
+    for k in [
+        "program",
+        "convergence",
+        "propellant_used_kg",
+        "payload_kg",
+        "margin_kg",
+        "margin_mps",
+        "active_constraints",
+    ] {
+        assert!(!s[k].is_null(), "missing {k}");
+    }
+    assert_eq!(s["convergence"]["status"], "converged");
+    let flown = kickturn(&["fly", &o, "--json"]);
+    assert_eq!(flown.status.code(), Some(0));
+    let f = json(&flown);
+    for k in ["perigee_alt_km", "apogee_alt_km", "inclination_deg"] {
+        let a = s["orbit"][k].as_f64().unwrap_or(f64::NAN);
+        let b = f["orbit"][k].as_f64().unwrap_or(0.0);
+        assert!((a - b).abs() < 1e-9, "{k}: solve {a} vs fly {b}");
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+    assert!(Path::new(&root()).exists());
+}
+
+#[test]
+fn an_infeasible_target_is_reported_with_exit_1() {
+    // Ten times the payload: the medium vehicle cannot reach orbit.
+    let dir = std::env::temp_dir().join(format!("kickturn-infeasible-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let path = dir.join("heavy-payload.json");
+    let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
+        .unwrap_or_default();
+    let text = text.replace("\"payload_kg\": 8000.0", "\"payload_kg\": 40000.0");
+    let _ = std::fs::write(&path, text);
+    let p = path.to_string_lossy().to_string();
+    let out = kickturn(&["solve", &p, "--json", "--max-wall-s", "20"]);
+    assert_eq!(out.status.code(), Some(1));
+    let r = json(&out);
+    assert_eq!(r["convergence"]["status"], "infeasible");
+    let short = r["shortfall_mps"].as_f64().unwrap_or(0.0);
+    assert!(short > 100.0, "ΔV shortfall {short}");
+    let _ = std::fs::remove_dir_all(&dir);
+}
