@@ -137,7 +137,7 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
         );
     }
     let p = load(&a.problem)?;
-    if let Some(u) = p.unreachable_inclination() {
+    if let Some(u) = p.unreachable_inclination().filter(|_| !p.allow_dog_leg) {
         eprintln!("{}: {u}", a.problem.display());
         return Ok(EXIT_NOT_REACHED);
     }

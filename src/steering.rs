@@ -7,7 +7,9 @@
 //! Linear tangent law (Bryson & Ho, *Applied Optimal Control*, 1975, §2.4, from memory): in a flat,
 //! uniform-gravity vacuum the optimal pitch obeys `tan θ = tan θ0 − c t`. It is flown in vector form
 //! `û ∝ ĥ0 + (tan θ0 − c τ) Û0` with the horizontal ĥ0 and vertical Û0 frozen (inertially) at the
-//! arc's start, which never passes through the ±90° singularity of the angle form.
+//! arc's start, which never passes through the ±90° singularity of the angle form. An optional
+//! out-of-plane term `wτ n̂0` completes the vacuum-optimal vector form `û ∝ λ + λ̇τ` (Jaggers,
+//! Powered Explicit Guidance, 1977, from memory) and flies a dog-leg.
 
 /// End of the vertical rise.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -47,6 +49,8 @@ pub struct LinearTangent {
     pub pitch0_rad: f64,
     /// Rate c of the tangent, 1/s.
     pub tan_rate_per_s: f64,
+    /// Out-of-plane rate w (yaw), 1/s: `û ∝ ĥ0 + (tan θ0 − cτ)Û0 + wτ n̂0`, n̂0 = ĥ0 × Û0.
+    pub yaw_rate_per_s: f64,
     /// Heading of the thrust plane, rad from north; `None`: the launch azimuth on the first arc,
     /// the inertial velocity heading at the arc's start on later arcs.
     pub heading_rad: Option<f64>,

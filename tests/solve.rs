@@ -335,3 +335,39 @@ fn an_infeasible_target_is_reported_with_exit_1() {
     assert!(short > 100.0, "ΔV shortfall {short}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn a_dog_leg_reaches_an_inclination_below_the_site_latitude_at_a_steering_cost() {
+    // Site at 28.2° N: 26° is out of direct reach. Allowed as a dog-leg, the solve yaws the upper
+    // stage; the plane change shows as steering loss (common practice: ../shared/domain.md §4).
+    let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
+        .unwrap_or_default();
+    let direct = text.replace("\"inclination_deg\": 51.6", "\"inclination_deg\": 30.0");
+    let dogleg = text
+        .replace(
+            "\"inclination_deg\": 51.6, \"branch\": \"northerly\"",
+            "\"inclination_deg\": 26.0, \"allow_dog_leg\": true",
+        )
+        .replace("\"inclination_deg\": 51.6", "\"inclination_deg\": 26.0");
+    let run = |t: &str| {
+        let p = Problem::from_json(t).unwrap_or_else(|e| panic!("{e}"));
+        let s = solve(&p, &SolveOptions::default()).unwrap_or_else(|e| panic!("{e}"));
+        let f = fly(&s.problem, &FlyOptions::default());
+        (s, FlightReport::new(&p, &f))
+    };
+    let (sd, rd) = run(&dogleg);
+    assert_eq!(
+        sd.convergence.status,
+        SolveStatus::Converged,
+        "{:?}",
+        sd.convergence
+    );
+    assert!(rd.target_deviation.is_some_and(|d| d.met));
+    let (_, r30) = run(&direct);
+    assert!(
+        rd.budget.steering_loss_mps > r30.budget.steering_loss_mps + 100.0,
+        "dog-leg steering {} vs direct {}",
+        rd.budget.steering_loss_mps,
+        r30.budget.steering_loss_mps
+    );
+}

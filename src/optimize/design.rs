@@ -24,6 +24,8 @@ pub enum Var {
     TanRate(usize),
     /// Heading of the law of arc `usize`, rad.
     Heading(usize),
+    /// Out-of-plane (yaw) rate of the law of arc `usize`, 1/s.
+    YawRate(usize),
     /// Apogee-altitude cutoff value of arc `usize`, m.
     ApogeeCutoff(usize),
     /// Duration of coast arc `usize`, s.
@@ -58,7 +60,7 @@ impl Var {
             Var::PitchRate => 0.1f64.to_radians(),
             Var::RiseTime => 1.0,
             Var::Pitch0(_) => 10f64.to_radians(),
-            Var::TanRate(_) => 1e-3,
+            Var::TanRate(_) | Var::YawRate(_) => 1e-3,
             Var::ApogeeCutoff(_) => 10e3,
             Var::Coast(_) => 10.0,
         }
@@ -73,7 +75,7 @@ impl Var {
             Var::RiseTime => (1.0, 60.0),
             Var::Azimuth => (d(-720.0), d(720.0)),
             Var::Pitch0(_) => (d(-60.0), d(80.0)),
-            Var::TanRate(_) => (-0.05, 0.05),
+            Var::TanRate(_) | Var::YawRate(_) => (-0.05, 0.05),
             Var::Heading(_) => (d(-720.0), d(720.0)),
             Var::ApogeeCutoff(_) => (80e3, 1e8),
             Var::Coast(_) => (0.5, 1e5),
@@ -94,6 +96,7 @@ impl Var {
             Var::Pitch0(a) => lt(p, a).map(|l| l.pitch0_rad),
             Var::TanRate(a) => lt(p, a).map(|l| l.tan_rate_per_s),
             Var::Heading(a) => lt(p, a).and_then(|l| l.heading_rad),
+            Var::YawRate(a) => lt(p, a).map(|l| l.yaw_rate_per_s),
             Var::ApogeeCutoff(a) => match p.program.arcs.get(a) {
                 Some(Arc::Burn {
                     cutoff: Cutoff::ApogeeAlt(h),
@@ -144,6 +147,11 @@ impl Var {
                     l.heading_rad = Some(v);
                 }
             }
+            Var::YawRate(a) => {
+                if let Some(l) = lt_mut(p, a) {
+                    l.yaw_rate_per_s = v;
+                }
+            }
             Var::ApogeeCutoff(a) => {
                 if let Some(Arc::Burn { cutoff, .. }) = p.program.arcs.get_mut(a) {
                     *cutoff = Cutoff::ApogeeAlt(v);
@@ -169,6 +177,9 @@ impl Var {
                 format!("ascent.arcs[{a}].burn.steering.linear_tangent.tan_rate_per_s")
             }
             Var::Heading(a) => format!("ascent.arcs[{a}].burn.steering.linear_tangent.heading_deg"),
+            Var::YawRate(a) => {
+                format!("ascent.arcs[{a}].burn.steering.linear_tangent.yaw_rate_per_s")
+            }
             Var::ApogeeCutoff(a) => format!("ascent.arcs[{a}].burn.cutoff.apogee_alt_km"),
             Var::Coast(a) => format!("ascent.arcs[{a}].coast.duration_s"),
         }
@@ -181,7 +192,7 @@ impl Var {
                 v.to_degrees()
             }
             Var::ApogeeCutoff(_) => v / 1e3,
-            Var::RiseTime | Var::TanRate(_) | Var::Coast(_) => v,
+            Var::RiseTime | Var::TanRate(_) | Var::YawRate(_) | Var::Coast(_) => v,
         }
     }
 
@@ -209,12 +220,13 @@ impl Var {
                 f.launch.inclination_deg = None;
                 f.launch.branch = None;
             }
-            Var::Pitch0(a) | Var::TanRate(a) | Var::Heading(a) => {
+            Var::Pitch0(a) | Var::TanRate(a) | Var::Heading(a) | Var::YawRate(a) => {
                 if let Some(ArcFile::Burn(b)) = f.ascent.arcs.get_mut(a) {
                     if let SteeringFile::LinearTangent(l) = &mut b.steering {
                         match *self {
                             Var::Pitch0(_) => l.pitch0_deg = u,
                             Var::TanRate(_) => l.tan_rate_per_s = u,
+                            Var::YawRate(_) => l.yaw_rate_per_s = Some(u),
                             _ => l.heading_deg = Some(u),
                         }
                     }

@@ -257,7 +257,16 @@ fn choose_vars(
         }
     }
     if t.inclination_rad.is_some() {
-        inner.push(Var::Heading(first_law));
+        if p.allow_dog_leg && p.unreachable_inclination().is_some() {
+            // Dog-leg: the yaw rate makes the plane change; the heading is tuned outside.
+            inner.push(Var::YawRate(first_law));
+            outer.push(Var::Heading(first_law));
+            if !has("azimuth") {
+                outer.push(Var::Azimuth);
+            }
+        } else {
+            inner.push(Var::Heading(first_law));
+        }
     }
     if p.program.liftoff.is_some() && !fixed("kick") {
         outer.push(Var::Kick);

@@ -146,7 +146,7 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
             }
         }
     }
-    for v in &ctx.inner {
+    for v in ctx.inner.iter().chain(&ctx.outer) {
         if let Var::Heading(arc) = v {
             if v.get(&p).is_none() || o.scan {
                 let h = heading_guess(ctx, &p, *arc);

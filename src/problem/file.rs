@@ -32,6 +32,27 @@ pub struct ProblemFile {
     /// Earth, atmosphere and integrator settings.
     #[serde(default)]
     pub model: ModelFile,
+    /// Propellant reserves deducted from the margin.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reserves: Option<ReservesFile>,
+}
+
+/// Propellant reserves of the last stage (all optional, default 0).
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ReservesFile {
+    /// Flight performance reserve as a percentage of the ideal ΔV, %.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub fpr_percent_dv: Option<f64>,
+    /// Flight performance reserve as a mass, kg (added to the percentage form if both).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub fpr_kg: Option<f64>,
+    /// Unusable residual propellant, kg.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub residuals_kg: Option<f64>,
+    /// Propellant kept for disposal (deorbit), kg.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub disposal_kg: Option<f64>,
 }
 
 /// Launch site, geodetic coordinates on the WGS-84 ellipsoid.
@@ -62,6 +83,10 @@ pub struct LaunchFile {
     /// Which of the two azimuths reaching `inclination_deg`: `"northerly"` (default) or `"southerly"`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub branch: Option<BranchFile>,
+    /// Allow an inclination a direct ascent cannot reach: launch due east (or west) and yaw the
+    /// upper stage (a dog-leg), paying the plane change in flight (default false).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub allow_dog_leg: Option<bool>,
 }
 
 /// Azimuth branch for an inclination.
@@ -314,6 +339,10 @@ pub struct LinearTangentFile {
     pub pitch0_deg: f64,
     /// Rate c of the tangent, 1/s.
     pub tan_rate_per_s: f64,
+    /// Out-of-plane rate w: the thrust direction is ∝ ĥ0 + (tan θ0 − c τ) Û0 + w τ n̂0 with
+    /// n̂0 = ĥ0 × Û0 (to the left of the heading), 1/s (default 0: no yaw).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub yaw_rate_per_s: Option<f64>,
     /// Heading of the thrust plane, degrees from north (default: the launch azimuth on the first
     /// arc, the inertial velocity heading at the arc's start on later arcs).
     #[serde(default, skip_serializing_if = "Option::is_none")]

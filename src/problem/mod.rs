@@ -103,6 +103,19 @@ pub struct Limits {
     pub min_orbit_perigee_alt_m: f64,
 }
 
+/// Propellant reserves of the last stage.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Reserves {
+    /// Flight performance reserve, fraction of the ideal ΔV.
+    pub fpr_fraction_dv: f64,
+    /// Flight performance reserve as a mass, kg.
+    pub fpr_kg: f64,
+    /// Unusable residuals, kg.
+    pub residuals_kg: f64,
+    /// Disposal propellant, kg.
+    pub disposal_kg: f64,
+}
+
 /// Integrator settings.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct IntegratorSettings {
@@ -136,6 +149,9 @@ pub struct Problem {
     pub azimuth_rad: f64,
     /// How the azimuth was obtained.
     pub azimuth_source: AzimuthSource,
+    /// An inclination out of direct reach is flown as a dog-leg (yaw in flight) instead of
+    /// being refused.
+    pub allow_dog_leg: bool,
     /// Target orbit.
     pub target: Option<Target>,
     /// Vehicle.
@@ -148,6 +164,8 @@ pub struct Problem {
     pub environment: Environment,
     /// Integrator settings.
     pub integrator: IntegratorSettings,
+    /// Propellant reserves.
+    pub reserves: Reserves,
     /// SHA-256 of the input text (hex), or empty when built in code.
     pub input_sha256: String,
 }

@@ -72,12 +72,14 @@ pub fn validate(f: &ProblemFile) -> R<Problem> {
         site,
         azimuth_rad,
         azimuth_source,
+        allow_dog_leg: f.launch.allow_dog_leg.unwrap_or(false),
         target,
         vehicle,
         program,
         limits,
         environment,
         integrator,
+        reserves: reserves(f.reserves.as_ref())?,
         input_sha256: String::new(),
     })
 }
@@ -367,9 +369,17 @@ fn steering(path: &str, s: &SteeringFile) -> R<Steering> {
                 .heading_deg
                 .map(|h| range(&format!("{path}.heading_deg"), h, -360.0, 360.0, true))
                 .transpose()?;
+            let w = range(
+                &format!("{path}.yaw_rate_per_s"),
+                l.yaw_rate_per_s.unwrap_or(0.0),
+                -1.0,
+                1.0,
+                true,
+            )?;
             Steering::LinearTangent(LinearTangent {
                 pitch0_rad: p0.to_radians(),
                 tan_rate_per_s: c,
+                yaw_rate_per_s: w,
                 heading_rad: h.map(f64::to_radians),
             })
         }
@@ -571,6 +581,25 @@ fn integrator(m: &ModelFile) -> R<IntegratorSettings> {
             1e6,
             false,
         )?,
+    })
+}
+
+fn reserves(r: Option<&ReservesFile>) -> R<super::Reserves> {
+    let Some(r) = r else {
+        return Ok(super::Reserves::default());
+    };
+    let mass = |field: &str, x: Option<f64>| {
+        x.map_or(Ok(0.0), |v| {
+            range(&format!("reserves.{field}"), v, 0.0, 1e8, true)
+        })
+    };
+    Ok(super::Reserves {
+        fpr_fraction_dv: r.fpr_percent_dv.map_or(Ok(0.0), |v| {
+            range("reserves.fpr_percent_dv", v, 0.0, 20.0, true)
+        })? / 100.0,
+        fpr_kg: mass("fpr_kg", r.fpr_kg)?,
+        residuals_kg: mass("residuals_kg", r.residuals_kg)?,
+        disposal_kg: mass("disposal_kg", r.disposal_kg)?,
     })
 }
 

@@ -48,15 +48,49 @@ pub struct SolveReport {
     pub propellant_used_kg: f64,
     /// Payload, kg.
     pub payload_kg: f64,
-    /// Propellant left after cutoff (no reserves deducted), kg.
+    /// Propellant left after cutoff, kg.
+    pub propellant_remaining_kg: f64,
+    /// Reserves deducted from it, kg.
+    pub reserves: ReservesReport,
+    /// Margin after reserves, kg (negative: the reserves are not covered).
     pub margin_kg: f64,
-    /// The margin as ΔV of the last stage: g0 Isp ln(m_f / (m_f − margin)), m/s.
+    /// The margin as ΔV of the last stage at cutoff: c·ln(m_f / (m_f − margin)), m/s.
     pub margin_mps: f64,
     /// Path limits that are active on the solved ascent.
     pub active_constraints: Vec<String>,
     /// When the target energy was not reached: the speed still missing at the end of the best
     /// program found, √(v² + 2ΔE) − v, m/s (null when reached).
     pub shortfall_mps: Option<f64>,
+}
+
+/// Reserves deducted from the propellant left, kg.
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct ReservesReport {
+    /// Flight performance reserve (percentage of ideal ΔV converted at the last stage's Isp, plus
+    /// the mass form), kg.
+    pub fpr_kg: f64,
+    /// Unusable residuals, kg.
+    pub residuals_kg: f64,
+    /// Disposal propellant, kg.
+    pub disposal_kg: f64,
+}
+
+impl ReservesReport {
+    fn total_kg(&self) -> f64 {
+        self.fpr_kg + self.residuals_kg + self.disposal_kg
+    }
+}
+
+/// Reserves of `p` for a flight with ideal ΔV `ideal_mps` ending at mass `m_f` with exhaust
+/// velocity `c` on the last stage: the ΔV reserve costs `m_f (1 − e^(−Δv/c))` (Tsiolkovsky).
+fn reserves(p: &Problem, ideal_mps: f64, m_f: f64, c: f64) -> ReservesReport {
+    let r = &p.reserves;
+    let dv = r.fpr_fraction_dv * ideal_mps;
+    ReservesReport {
+        fpr_kg: m_f * (1.0 - (-dv / c).exp()) + r.fpr_kg,
+        residuals_kg: r.residuals_kg,
+        disposal_kg: r.disposal_kg,
+    }
 }
 
 /// Speed missing at the end state to reach the target energy, m/s.
@@ -105,7 +139,7 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
     let file = parse(&text_in).with_context(|| format!("{}", a.problem.display()))?;
     let mut p = validate::validate(&file).with_context(|| format!("{}", a.problem.display()))?;
     p.input_sha256 = crate::problem::sha256_hex(text_in.as_bytes());
-    if let Some(u) = p.unreachable_inclination() {
+    if let Some(u) = p.unreachable_inclination().filter(|_| !p.allow_dog_leg) {
         eprintln!("{}: {u}", a.problem.display());
         return Ok(EXIT_NOT_REACHED);
     }
@@ -155,9 +189,11 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
     let last = sol.problem.vehicle.stages.len() - 1;
     let stage = &sol.problem.vehicle.stages[flight.final_mode.stage.min(last)];
     let m_f = report.final_mass_kg;
-    let margin = report.propellant_remaining_kg;
-    let margin_mps = if m_f > margin {
-        stage.engine.exhaust_velocity_mps() * (m_f / (m_f - margin)).ln()
+    let c = stage.engine.exhaust_velocity_mps();
+    let res = reserves(&sol.problem, report.budget.ideal_mps, m_f, c);
+    let margin = report.propellant_remaining_kg - res.total_kg();
+    let margin_mps = if m_f > margin.max(0.0) {
+        margin.signum() * c * (m_f / (m_f - margin.abs())).ln()
     } else {
         f64::NAN
     };
@@ -176,6 +212,8 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
             .collect(),
         propellant_used_kg: sol.eval.propellant_used_kg,
         payload_kg: sol.problem.vehicle.payload_kg,
+        propellant_remaining_kg: report.propellant_remaining_kg,
+        reserves: res,
         margin_kg: margin,
         margin_mps,
         active_constraints: active_constraints(&sol.problem, &report, accel_limited),
@@ -232,9 +270,12 @@ pub fn render(r: &SolveReport) -> String {
     let c = &r.convergence;
     let _ = writeln!(
         s,
-        "{}: propellant used {:.1} kg, margin {:.1} kg ({:.1} m/s), payload {:.1} kg",
+        "{}: propellant used {:.1} kg, left {:.1} kg, reserves {:.1} kg, margin {:.1} kg \
+         ({:.1} m/s), payload {:.1} kg",
         status_line(c),
         r.propellant_used_kg,
+        r.propellant_remaining_kg,
+        r.reserves.total_kg(),
         r.margin_kg,
         r.margin_mps,
         r.payload_kg

@@ -76,6 +76,8 @@ pub enum Attitude {
         tan0: f64,
         /// Rate of the tangent, 1/s.
         rate_per_s: f64,
+        /// Out-of-plane rate times the frozen normal n̂0 = ĥ0 × Û0, 1/s.
+        yaw_rate: Vector3<f64>,
         /// Arc start, s.
         start_s: f64,
     },
@@ -173,8 +175,15 @@ pub fn attitude_dir(p: &Problem, mode: &Mode, t_s: f64, loc: &Local) -> Vector3<
             hor0,
             tan0,
             rate_per_s,
+            yaw_rate,
             start_s,
-        } => unit_or(&(hor0 + up0 * (tan0 - rate_per_s * (t_s - start_s))), &hor0),
+        } => {
+            let tau = t_s - start_s;
+            unit_or(
+                &(hor0 + up0 * (tan0 - rate_per_s * tau) + yaw_rate * tau),
+                &hor0,
+            )
+        }
         Attitude::Table => {
             let pitch = match p.program.arcs.get(mode.arc) {
                 Some(crate::steering::Arc::Burn {

@@ -461,11 +461,13 @@ impl<'a> Flyer<'a> {
                     }
                 });
                 let (sh, ch) = heading.sin_cos();
+                let hor0 = loc.east * sh + loc.north * ch;
                 Attitude::LinearTangent {
                     up0: loc.up,
-                    hor0: loc.east * sh + loc.north * ch,
+                    hor0,
                     tan0: lt.pitch0_rad.tan(),
                     rate_per_s: lt.tan_rate_per_s,
+                    yaw_rate: hor0.cross(&loc.up) * lt.yaw_rate_per_s,
                     start_s: self.t,
                 }
             }
