@@ -157,51 +157,34 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
     let outer0 = ctx.normalized(&ctx.outer, &p);
     let inner0 = ctx.normalized(&ctx.inner, &p);
     let kick = ctx.outer.iter().position(|v| *v == Var::Kick);
-    // With an outer law, its initial pitch is scanned too (three levels): the feasible kick
-    // band of a low thrust-to-weight vehicle moves with the upper-stage pitch.
+    // With an outer law, its initial pitch is scanned too when the plain kick scan finds no
+    // start that meets the conditions: the feasible kick band of a low thrust-to-weight vehicle
+    // moves with the upper-stage pitch.
     let law = ctx.outer.iter().position(|v| matches!(v, Var::Pitch0(_)));
-    let levels: &[f64] = if law.is_some() {
-        &[0.6, 1.0, 1.4]
-    } else {
-        &[1.0]
-    };
-    let starts: Vec<Vec<f64>> = match (o.scan, kick) {
-        (true, Some(k)) => {
-            let shift = jitter.as_mut().map_or(1.0, |j| j.factor(0.3));
-            levels
+    let shift = jitter.as_mut().map_or(1.0, |j| j.factor(0.3));
+    let scan_row = |level: f64| -> Vec<Vec<f64>> {
+        match (o.scan, kick) {
+            (true, Some(k)) => KICK_GRID_DEG
                 .iter()
-                .flat_map(|lev| {
-                    let base = outer0.clone();
-                    KICK_GRID_DEG.iter().map(move |deg| {
-                        let mut x = base.clone();
-                        x[k] = shift * deg.to_radians() / Var::Kick.scale();
-                        if let Some(q) = law {
-                            x[q] *= lev;
-                        }
-                        x
-                    })
+                .map(|deg| {
+                    let mut x = outer0.clone();
+                    x[k] = shift * deg.to_radians() / Var::Kick.scale();
+                    if let Some(q) = law {
+                        x[q] *= level;
+                    }
+                    x
                 })
-                .collect()
+                .collect(),
+            _ => vec![outer0.clone()],
         }
-        _ => vec![outer0],
     };
-    // The scan points are independent: solve them in parallel, keep the first best in grid
-    // order (deterministic whatever the thread count).
-    let points: Vec<Point> = starts
-        .into_par_iter()
-        .map(|x| {
-            let r = inner::solve(ctx, &x, &inner0, None);
-            Point {
-                outer: x,
-                inner: r.x,
-                eval: r.eval,
-                iterations: 0,
-                budget_hit: false,
-                reason: String::new(),
-                kick_bracket: None,
-            }
-        })
-        .collect();
+    let mut points = solve_points(ctx, &inner0, scan_row(1.0));
+    let met = |pts: &[Point]| pts.iter().filter(|p| p.eval.max_abs() < inner::INNER_TOL).count();
+    if o.scan && kick.is_some() && law.is_some() && met(&points) < 2 {
+        for level in [0.6, 1.4] {
+            points.extend(solve_points(ctx, &inner0, scan_row(level)));
+        }
+    }
     let mut starts: Vec<Point> = points
         .chunks(if o.scan && kick.is_some() {
             KICK_GRID_DEG.len()
@@ -225,6 +208,26 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
         });
     }
     starts
+}
+
+/// Inner solves of independent scan points, in parallel; results in input order (deterministic
+/// whatever the thread count).
+fn solve_points(ctx: &Ctx, inner0: &[f64], starts: Vec<Vec<f64>>) -> Vec<Point> {
+    starts
+        .into_par_iter()
+        .map(|x| {
+            let r = inner::solve(ctx, &x, inner0, None);
+            Point {
+                outer: x,
+                inner: r.x,
+                eval: r.eval,
+                iterations: 0,
+                budget_hit: false,
+                reason: String::new(),
+                kick_bracket: None,
+            }
+        })
+        .collect()
 }
 
 /// Local minima of the scan (cost no higher than both neighbours), best first, at most two:

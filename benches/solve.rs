@@ -1,0 +1,37 @@
+//! Criterion benchmark: `solve` of each bundled demo problem from the automatic guess.
+//! Run with `cargo bench --bench solve` (about a minute).
+
+use std::hint::black_box;
+use std::path::Path;
+use std::time::Duration;
+
+use criterion::{criterion_group, criterion_main, Criterion};
+use kickturn::optimize::{solve, SolveOptions};
+use kickturn::problem::Problem;
+
+const DEMOS: [&str; 3] = [
+    "small-3stage-sso500",
+    "medium-2stage-leo200",
+    "heavy-boosters-iss51",
+];
+
+fn bench_solve(c: &mut Criterion) {
+    let mut group = c.benchmark_group("solve");
+    group.sample_size(10);
+    group.measurement_time(Duration::from_secs(15));
+    for name in DEMOS {
+        let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("problems")
+            .join(format!("{name}.json"));
+        let problem = match Problem::from_path(&path) {
+            Ok(p) => p,
+            Err(e) => panic!("demo problem {name} does not load: {e}"),
+        };
+        let opts = SolveOptions::default();
+        group.bench_function(name, |b| b.iter(|| solve(black_box(&problem), &opts)));
+    }
+    group.finish();
+}
+
+criterion_group!(benches, bench_solve);
+criterion_main!(benches);
