@@ -371,3 +371,32 @@ fn a_dog_leg_reaches_an_inclination_below_the_site_latitude_at_a_steering_cost()
         r30.budget.steering_loss_mps
     );
 }
+
+#[test]
+fn a_dynamic_pressure_limit_is_held_by_a_throttle_bucket_and_costed() {
+    // The medium demo's unconstrained optimum peaks near 38.8 kPa; limit it to 32 kPa.
+    let mut p = demo("medium-2stage-leo200.json");
+    p.limits.max_dynamic_pressure_pa = Some(32_000.0);
+    let free = solved("medium-2stage-leo200.json", &SolveOptions::default());
+    let s = solve(&p, &SolveOptions::default()).unwrap_or_else(|e| panic!("{e}"));
+    assert_eq!(
+        s.convergence.status,
+        SolveStatus::Converged,
+        "{:?}",
+        s.convergence
+    );
+    let f = fly(&s.problem, &FlyOptions::default());
+    let q = f.max_q.map_or(f64::NAN, |m| m.value);
+    assert!((q - 32_000.0).abs() < 1.0, "max-Q {q} Pa");
+    assert!(s.problem.program.bucket.is_some_and(|b| b.throttle < 1.0));
+    let a = s
+        .active
+        .first()
+        .unwrap_or_else(|| panic!("no active constraint reported"));
+    assert!(
+        a.cost_kg > 0.0 && a.cost_kg < 2000.0,
+        "cost {} kg",
+        a.cost_kg
+    );
+    assert!((a.cost_kg - (s.eval.propellant_used_kg - free.eval.propellant_used_kg)).abs() < 1e-6);
+}

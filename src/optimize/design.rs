@@ -2,7 +2,7 @@
 //! which bounds, and how each maps back onto the problem file.
 
 use crate::problem::file::{
-    ArcFile, CoastFile, CutoffFile, ProblemFile, RiseEndFile, SteeringFile,
+    ArcFile, BucketFile, CoastFile, CutoffFile, ProblemFile, RiseEndFile, SteeringFile,
 };
 use crate::problem::Problem;
 use crate::steering::{Arc, CoastEnd, Cutoff, RiseEnd, Steering};
@@ -30,6 +30,12 @@ pub enum Var {
     ApogeeCutoff(usize),
     /// Duration of coast arc `usize`, s.
     Coast(usize),
+    /// Throttle bucket start, s after liftoff.
+    BucketStart,
+    /// Throttle bucket duration, s.
+    BucketDuration,
+    /// Throttle inside the bucket (fraction of full thrust).
+    BucketThrottle,
 }
 
 fn lt_mut(p: &mut Problem, arc: usize) -> Option<&mut crate::steering::LinearTangent> {
@@ -62,7 +68,8 @@ impl Var {
             Var::Pitch0(_) => 10f64.to_radians(),
             Var::TanRate(_) | Var::YawRate(_) => 1e-3,
             Var::ApogeeCutoff(_) => 10e3,
-            Var::Coast(_) => 10.0,
+            Var::Coast(_) | Var::BucketStart | Var::BucketDuration => 10.0,
+            Var::BucketThrottle => 0.1,
         }
     }
 
@@ -79,6 +86,9 @@ impl Var {
             Var::Heading(_) => (d(-720.0), d(720.0)),
             Var::ApogeeCutoff(_) => (80e3, 1e8),
             Var::Coast(_) => (0.5, 1e5),
+            Var::BucketStart => (0.0, 1e4),
+            Var::BucketDuration => (1.0, 1e3),
+            Var::BucketThrottle => (0.05, 1.0),
         }
     }
 
@@ -108,6 +118,9 @@ impl Var {
                 Some(Arc::Coast(CoastEnd::Duration(d))) => Some(*d),
                 _ => None,
             },
+            Var::BucketStart => p.program.bucket.map(|b| b.start_s),
+            Var::BucketDuration => p.program.bucket.map(|b| b.duration_s),
+            Var::BucketThrottle => p.program.bucket.map(|b| b.throttle),
         }
     }
 
@@ -162,6 +175,16 @@ impl Var {
                     *c = CoastEnd::Duration(v);
                 }
             }
+            Var::BucketStart | Var::BucketDuration | Var::BucketThrottle => {
+                let min = p.vehicle.stages[0].min_throttle;
+                if let Some(b) = p.program.bucket.as_mut() {
+                    match *self {
+                        Var::BucketStart => b.start_s = v,
+                        Var::BucketDuration => b.duration_s = v,
+                        _ => b.throttle = v.max(min),
+                    }
+                }
+            }
         }
     }
 
@@ -182,6 +205,9 @@ impl Var {
             }
             Var::ApogeeCutoff(a) => format!("ascent.arcs[{a}].burn.cutoff.apogee_alt_km"),
             Var::Coast(a) => format!("ascent.arcs[{a}].coast.duration_s"),
+            Var::BucketStart => "ascent.throttle_bucket.start_s".into(),
+            Var::BucketDuration => "ascent.throttle_bucket.duration_s".into(),
+            Var::BucketThrottle => "ascent.throttle_bucket.throttle".into(),
         }
     }
 
@@ -193,6 +219,7 @@ impl Var {
             }
             Var::ApogeeCutoff(_) => v / 1e3,
             Var::RiseTime | Var::TanRate(_) | Var::YawRate(_) | Var::Coast(_) => v,
+            Var::BucketStart | Var::BucketDuration | Var::BucketThrottle => v,
         }
     }
 
@@ -240,6 +267,18 @@ impl Var {
             Var::Coast(a) => {
                 if let Some(ArcFile::Coast(c)) = f.ascent.arcs.get_mut(a) {
                     *c = CoastFile::DurationS(u);
+                }
+            }
+            Var::BucketStart | Var::BucketDuration | Var::BucketThrottle => {
+                let b = f.ascent.throttle_bucket.get_or_insert(BucketFile {
+                    start_s: 0.0,
+                    duration_s: 1.0,
+                    throttle: 1.0,
+                });
+                match *self {
+                    Var::BucketStart => b.start_s = u,
+                    Var::BucketDuration => b.duration_s = u,
+                    _ => b.throttle = u,
                 }
             }
         }

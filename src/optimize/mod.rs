@@ -104,6 +104,25 @@ pub struct Solution {
     pub eval: Eval,
     /// Convergence report.
     pub convergence: Convergence,
+    /// Path constraints held at their limit, with their cost.
+    pub active: Vec<ActiveConstraint>,
+}
+
+/// A path constraint that is active at the optimum.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct ActiveConstraint {
+    /// Which limit (`limits.max_dynamic_pressure_pa`).
+    pub limit: String,
+    /// The limit, in its unit.
+    pub value: f64,
+    /// Value the unconstrained optimum reached.
+    pub unconstrained: f64,
+    /// Extra propellant the limit costs, kg (constrained − unconstrained optimum).
+    pub cost_kg: f64,
+    /// Cost per unit of the limit (kg per kPa), from the two solves.
+    pub cost_kg_per_unit: f64,
+    /// How it is held.
+    pub how: String,
 }
 
 /// Why the problem cannot be solved as posed.
@@ -129,6 +148,7 @@ pub struct Ctx<'a> {
     target: Target,
     inner: Vec<Var>,
     outer: Vec<Var>,
+    q_limit: Option<f64>,
     flights: AtomicUsize,
     start: Instant,
     deadline: Duration,
@@ -153,7 +173,7 @@ impl Ctx<'_> {
     /// Flies and evaluates one program.
     pub fn eval(&self, outer: &[f64], inner: &[f64]) -> Eval {
         self.flights.fetch_add(1, Ordering::Relaxed);
-        targeting::evaluate(&self.problem_with(outer, inner), &self.target)
+        targeting::evaluate(&self.problem_with(outer, inner), &self.target, self.q_limit)
     }
 
     /// True once the wall-time or trajectory budget is spent.
@@ -315,14 +335,89 @@ pub fn solve(p: &Problem, o: &SolveOptions) -> Result<Solution, SolveError> {
     let target = p.target.ok_or(SolveError::NoTarget)?;
     let base = prepare(p);
     let (inner, outer) = choose_vars(&base, &target, o)?;
+    let t0 = Instant::now();
+    let free = run_stage(&base, target, inner.clone(), outer.clone(), None, o, t0);
+    let Some(q_lim) = p.limits.max_dynamic_pressure_pa else {
+        return Ok(free);
+    };
+    if free.eval.max_q_pa <= q_lim || free.convergence.status == SolveStatus::Infeasible {
+        return Ok(free);
+    }
+    // Max-Q above the limit: hold it with a first-stage throttle bucket whose depth is one more
+    // inner variable (condition: max-Q = limit), started from the unconstrained optimum.
+    let mut b = free.problem.clone();
+    if b.program.bucket.is_none() {
+        b.program.bucket = Some(bucket_guess(&free.problem, q_lim));
+    }
+    let mut inner_q = inner;
+    inner_q.push(Var::BucketThrottle);
+    let held = SolveOptions {
+        scan: false,
+        ..o.clone()
+    };
+    let mut sol = run_stage(&b, target, inner_q, outer, Some(q_lim), &held, t0);
+    sol.convergence.trajectories += free.convergence.trajectories;
+    sol.convergence.iterations += free.convergence.iterations;
+    let cost = sol.eval.propellant_used_kg - free.eval.propellant_used_kg;
+    sol.active.push(ActiveConstraint {
+        limit: "limits.max_dynamic_pressure_pa".into(),
+        value: q_lim,
+        unconstrained: free.eval.max_q_pa,
+        cost_kg: cost,
+        cost_kg_per_unit: cost / ((free.eval.max_q_pa - q_lim) / 1e3),
+        how: "first-stage throttle bucket (depth solved, start and duration from the \
+              unconstrained q history)"
+            .into(),
+    });
+    Ok(sol)
+}
+
+/// A throttle bucket spanning the time the unconstrained ascent spends above 70 % of the limit.
+fn bucket_guess(p: &Problem, q_lim: f64) -> crate::steering::Bucket {
+    let f = crate::sim::fly(
+        p,
+        &crate::sim::FlyOptions {
+            record_step_s: Some(0.5),
+            initial: None,
+        },
+    );
+    let above: Vec<f64> = f
+        .history
+        .iter()
+        .filter(|s| s.dynamic_pressure_pa >= 0.7 * q_lim)
+        .map(|s| s.t_s)
+        .collect();
+    let (t0, t1) = match (above.first(), above.last()) {
+        (Some(a), Some(b)) => (*a, *b),
+        _ => (30.0, 60.0),
+    };
+    crate::steering::Bucket {
+        start_s: t0,
+        duration_s: (t1 - t0).max(5.0),
+        throttle: 0.8f64.max(p.vehicle.stages[0].min_throttle),
+    }
+}
+
+/// One solve of `base` with the given variables and optional held q limit.
+fn run_stage(
+    base: &Problem,
+    target: Target,
+    inner: Vec<Var>,
+    outer: Vec<Var>,
+    q_limit: Option<f64>,
+    o: &SolveOptions,
+    t0: Instant,
+) -> Solution {
+    let left = (o.max_wall_s - t0.elapsed().as_secs_f64()).max(0.0);
     let ctx = Ctx {
-        base: &base,
+        base,
         target,
         inner,
         outer,
+        q_limit,
         flights: AtomicUsize::new(0),
         start: Instant::now(),
-        deadline: Duration::from_secs_f64(o.max_wall_s.max(0.0)),
+        deadline: Duration::from_secs_f64(left),
         max_flights: o.max_trajectories,
     };
     let start = outer::initial_guess(&ctx, o);
@@ -333,7 +428,7 @@ pub fn solve(p: &Problem, o: &SolveOptions) -> Result<Solution, SolveError> {
         );
     }
     let best = outer::search_all(&ctx, start);
-    Ok(finish(&ctx, best))
+    finish(&ctx, best)
 }
 
 fn finish(ctx: &Ctx, best: outer::Point) -> Solution {
@@ -364,6 +459,7 @@ fn finish(ctx: &Ctx, best: outer::Point) -> Solution {
         variables,
         eval: best.eval,
         convergence,
+        active: Vec::new(),
     }
 }
 
@@ -385,6 +481,9 @@ fn residual_names(t: &Target, e: &Eval) -> Vec<(String, f64)> {
     };
     if t.inclination_rad.is_some() {
         names.push(("inclination_error_deg", deg));
+    }
+    if e.residuals.len() == targeting::residual_count(t, Some(0.0)) {
+        names.push(("max_q_minus_limit_kpa", targeting::Q_SCALE_PA / 1e3));
     }
     names.push((
         "energy_shortfall_fraction",

@@ -179,7 +179,11 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
         }
     };
     let mut points = solve_points(ctx, &inner0, scan_row(1.0));
-    let met = |pts: &[Point]| pts.iter().filter(|p| p.eval.max_abs() < inner::INNER_TOL).count();
+    let met = |pts: &[Point]| {
+        pts.iter()
+            .filter(|p| p.eval.max_abs() < inner::INNER_TOL)
+            .count()
+    };
     if o.scan && kick.is_some() && law.is_some() && met(&points) < 2 {
         for level in [0.6, 1.4] {
             points.extend(solve_points(ctx, &inner0, scan_row(level)));

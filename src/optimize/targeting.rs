@@ -19,6 +19,8 @@ use crate::sim::{fly, EndReason, Flight, FlyOptions};
 pub const R_SCALE_M: f64 = 100e3;
 /// Angle residual scale, rad.
 pub const ANGLE_SCALE_RAD: f64 = 0.017_453_292_519_943_295;
+/// Dynamic-pressure residual scale, Pa (a residual of 1e-3 is 1 Pa).
+pub const Q_SCALE_PA: f64 = 1000.0;
 /// Weight of the energy shortfall (fraction of the target energy) in the residuals.
 pub const SHORTFALL_WEIGHT: f64 = 10.0;
 
@@ -35,6 +37,8 @@ pub struct Eval {
     pub apogee_alt_m: f64,
     /// Energy shortfall at the end, fraction of |target energy| (0 when reached).
     pub shortfall: f64,
+    /// Maximum dynamic pressure, Pa.
+    pub max_q_pa: f64,
 }
 
 impl Eval {
@@ -44,13 +48,13 @@ impl Eval {
     }
 }
 
-/// Number of residuals for a target.
-pub fn residual_count(t: &Target) -> usize {
+/// Number of residuals for a target (with a held dynamic-pressure limit or not).
+pub fn residual_count(t: &Target, q_limit: Option<f64>) -> usize {
     let n = match t.insertion {
         Insertion::Free => 1,
         Insertion::Perigee | Insertion::State { .. } => 2,
     };
-    n + usize::from(t.inclination_rad.is_some()) + 1
+    n + usize::from(t.inclination_rad.is_some()) + usize::from(q_limit.is_some()) + 1
 }
 
 /// Residuals of a flight of `p` against `t`, and the energy shortfall.
@@ -88,10 +92,16 @@ pub fn residuals(p: &Problem, t: &Target, f: &Flight) -> (Vec<f64>, f64) {
     (res, shortfall)
 }
 
-/// Flies `p` and evaluates it against its target.
-pub fn evaluate(p: &Problem, t: &Target) -> Eval {
+/// Flies `p` and evaluates it against its target; with `q_limit` (Pa) the maximum dynamic
+/// pressure is held at the limit as one more condition.
+pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>) -> Eval {
     let f = fly(p, &FlyOptions::default());
-    let (residuals, shortfall) = residuals(p, t, &f);
+    let (mut residuals, shortfall) = residuals(p, t, &f);
+    let max_q_pa = f.max_q.map_or(0.0, |m| m.value);
+    if let Some(q) = q_limit {
+        let at = residuals.len() - 1;
+        residuals.insert(at, (max_q_pa - q) / Q_SCALE_PA);
+    }
     let y = &f.y1;
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);
@@ -101,7 +111,7 @@ pub fn evaluate(p: &Problem, t: &Target) -> Eval {
         residuals: if finite {
             residuals
         } else {
-            vec![1e6; residual_count(t)]
+            vec![1e6; residual_count(t, q_limit)]
         },
         propellant_used_kg: p.vehicle.propellant_loaded_kg() - f.propellant_remaining_kg,
         reached: shortfall == 0.0 && matches!(f.end, EndReason::Completed),
@@ -111,5 +121,6 @@ pub fn evaluate(p: &Problem, t: &Target) -> Eval {
             f64::INFINITY
         },
         shortfall,
+        max_q_pa,
     }
 }

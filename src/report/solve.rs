@@ -58,6 +58,8 @@ pub struct SolveReport {
     pub margin_mps: f64,
     /// Path limits that are active on the solved ascent.
     pub active_constraints: Vec<String>,
+    /// Limits held by the optimizer, with their cost.
+    pub constraint_costs: Vec<crate::optimize::ActiveConstraint>,
     /// When the target energy was not reached: the speed still missing at the end of the best
     /// program found, √(v² + 2ΔE) − v, m/s (null when reached).
     pub shortfall_mps: Option<f64>,
@@ -103,15 +105,32 @@ fn shortfall_mps(p: &Problem, y: &crate::sim::dynamics::State) -> Option<f64> {
         .then(|| (v.norm_squared() + 2.0 * de).sqrt() - v.norm())
 }
 
-fn active_constraints(p: &Problem, r: &FlightReport, accel_limited: bool) -> Vec<String> {
+fn active_constraints(
+    p: &Problem,
+    r: &FlightReport,
+    accel_limited: bool,
+    held: &[crate::optimize::ActiveConstraint],
+) -> Vec<String> {
     let mut v = Vec::new();
     if accel_limited {
-        v.push("max_axial_accel_g: throttle holds the limit".to_string());
+        v.push("max_axial_accel_g: the throttle holds the limit".to_string());
+    }
+    for c in held {
+        v.push(format!(
+            "{}: held at {:.1} kPa by a {}; the unconstrained optimum reached {:.1} kPa; cost \
+             {:.1} kg ({:.1} kg per kPa)",
+            c.limit,
+            c.value / 1e3,
+            c.how,
+            c.unconstrained / 1e3,
+            c.cost_kg,
+            c.cost_kg_per_unit
+        ));
     }
     if let Some(q) = p.limits.max_dynamic_pressure_pa {
-        if r.max_dynamic_pressure_pa > q {
+        if r.max_dynamic_pressure_pa > q * (1.0 + 1e-6) {
             v.push(format!(
-                "max_dynamic_pressure_pa: EXCEEDED ({:.1} kPa > {:.1} kPa; not enforced yet)",
+                "max_dynamic_pressure_pa: EXCEEDED ({:.2} kPa > {:.2} kPa)",
                 r.max_dynamic_pressure_pa / 1e3,
                 q / 1e3
             ));
@@ -216,7 +235,8 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         reserves: res,
         margin_kg: margin,
         margin_mps,
-        active_constraints: active_constraints(&sol.problem, &report, accel_limited),
+        active_constraints: active_constraints(&sol.problem, &report, accel_limited, &sol.active),
+        constraint_costs: sol.active.clone(),
         shortfall_mps: shortfall_mps(&sol.problem, &flight.y1),
         convergence: sol.convergence.clone(),
         flight: report,

@@ -141,7 +141,11 @@ fn phase_table(r: &FlightReport, s: &mut String) {
 fn extremes(r: &FlightReport, s: &mut String) {
     if let Some(m) = &r.max_q {
         let lim = r.max_dynamic_pressure_limit_pa.map_or(String::new(), |l| {
-            let word = if m.value > l { "EXCEEDS" } else { "within" };
+            let word = if m.value > l * (1.0 + 1e-6) {
+                "EXCEEDS"
+            } else {
+                "within"
+            };
             format!(" ({word} limit {:.1} kPa)", l / 1e3)
         });
         let _ = writeln!(
