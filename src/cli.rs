@@ -63,6 +63,10 @@ pub struct SolveArgs {
     /// Start from the file's program instead of the automatic guess and kick scan.
     #[arg(long)]
     pub no_scan: bool,
+    /// Find the largest payload with every stage burned to depletion (reserves set aside)
+    /// instead of the least propellant for the file's payload.
+    #[arg(long)]
+    pub max_payload: bool,
     /// Perturb the automatic start with this seed (robustness checks).
     #[arg(long, value_name = "SEED")]
     pub perturb_seed: Option<u64>,

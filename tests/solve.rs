@@ -400,3 +400,37 @@ fn a_dynamic_pressure_limit_is_held_by_a_throttle_bucket_and_costed() {
     );
     assert!((a.cost_kg - (s.eval.propellant_used_kg - free.eval.propellant_used_kg)).abs() < 1e-6);
 }
+
+#[test]
+fn the_payload_mode_fills_the_margin_with_payload() {
+    // Largest payload with every stage burned to depletion: flown as written (cutoff on the target
+    // energy) it leaves just the reserves, and it carries more than the file's payload, whose
+    // least-propellant solve left a positive margin.
+    let dir = std::env::temp_dir().join(format!("kickturn-payload-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let path = dir.join("p.json");
+    let o = path.to_string_lossy().to_string();
+    let out = kickturn(&[
+        "solve",
+        "problems/medium-2stage-leo200.json",
+        "--max-payload",
+        "--json",
+        "--write-program",
+        &o,
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let r = json(&out);
+    let payload = r["payload_kg"].as_f64().unwrap_or(0.0);
+    assert!(payload > 9000.0, "payload {payload}");
+    let margin = r["margin_kg"].as_f64().unwrap_or(f64::NAN);
+    assert!(margin.abs() < 30.0, "margin after reserves {margin} kg");
+    let flown = json(&kickturn(&["fly", &o, "--json"]));
+    let d = &flown["target_deviation"];
+    assert_eq!(d["met"], true, "{d}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

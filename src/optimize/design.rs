@@ -36,6 +36,8 @@ pub enum Var {
     BucketDuration,
     /// Throttle inside the bucket (fraction of full thrust).
     BucketThrottle,
+    /// Payload mass, kg.
+    Payload,
 }
 
 fn lt_mut(p: &mut Problem, arc: usize) -> Option<&mut crate::steering::LinearTangent> {
@@ -70,6 +72,7 @@ impl Var {
             Var::ApogeeCutoff(_) => 10e3,
             Var::Coast(_) | Var::BucketStart | Var::BucketDuration => 10.0,
             Var::BucketThrottle => 0.1,
+            Var::Payload => 100.0,
         }
     }
 
@@ -89,6 +92,7 @@ impl Var {
             Var::BucketStart => (0.0, 1e4),
             Var::BucketDuration => (1.0, 1e3),
             Var::BucketThrottle => (0.05, 1.0),
+            Var::Payload => (0.0, 1e8),
         }
     }
 
@@ -121,6 +125,7 @@ impl Var {
             Var::BucketStart => p.program.bucket.map(|b| b.start_s),
             Var::BucketDuration => p.program.bucket.map(|b| b.duration_s),
             Var::BucketThrottle => p.program.bucket.map(|b| b.throttle),
+            Var::Payload => Some(p.vehicle.payload_kg),
         }
     }
 
@@ -175,6 +180,7 @@ impl Var {
                     *c = CoastEnd::Duration(v);
                 }
             }
+            Var::Payload => p.vehicle.payload_kg = v,
             Var::BucketStart | Var::BucketDuration | Var::BucketThrottle => {
                 let min = p.vehicle.stages[0].min_throttle;
                 if let Some(b) = p.program.bucket.as_mut() {
@@ -208,6 +214,7 @@ impl Var {
             Var::BucketStart => "ascent.throttle_bucket.start_s".into(),
             Var::BucketDuration => "ascent.throttle_bucket.duration_s".into(),
             Var::BucketThrottle => "ascent.throttle_bucket.throttle".into(),
+            Var::Payload => "vehicle.payload_kg".into(),
         }
     }
 
@@ -219,7 +226,7 @@ impl Var {
             }
             Var::ApogeeCutoff(_) => v / 1e3,
             Var::RiseTime | Var::TanRate(_) | Var::YawRate(_) | Var::Coast(_) => v,
-            Var::BucketStart | Var::BucketDuration | Var::BucketThrottle => v,
+            Var::BucketStart | Var::BucketDuration | Var::BucketThrottle | Var::Payload => v,
         }
     }
 
@@ -269,6 +276,7 @@ impl Var {
                     *c = CoastFile::DurationS(u);
                 }
             }
+            Var::Payload => f.vehicle.payload_kg = u,
             Var::BucketStart | Var::BucketDuration | Var::BucketThrottle => {
                 let b = f.ascent.throttle_bucket.get_or_insert(BucketFile {
                     start_s: 0.0,

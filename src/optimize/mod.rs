@@ -46,6 +46,8 @@ pub struct SolveOptions {
     pub fix: Vec<String>,
     /// Scan the kick angle for a start (default true); off: start from the file's program.
     pub scan: bool,
+    /// What to optimize.
+    pub objective: Objective,
     /// Perturb the automatic start (law parameters ±30 %, kick grid ×0.7–1.3) with this seed:
     /// for robustness checks. `None`: the plain automatic start.
     pub perturb_seed: Option<u64>,
@@ -60,8 +62,20 @@ impl Default for SolveOptions {
             fix: Vec::new(),
             scan: true,
             perturb_seed: None,
+            objective: Objective::LeastPropellant,
         }
     }
+}
+
+/// The optimization objective.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum Objective {
+    /// Least propellant burned for the given payload (last burn cut on the target energy).
+    #[default]
+    LeastPropellant,
+    /// Largest payload with every stage burned to depletion (reserves set aside first).
+    MaxPayload,
 }
 
 /// How the solve ended.
@@ -149,6 +163,7 @@ pub struct Ctx<'a> {
     inner: Vec<Var>,
     outer: Vec<Var>,
     q_limit: Option<f64>,
+    max_payload: bool,
     flights: AtomicUsize,
     start: Instant,
     deadline: Duration,
@@ -173,7 +188,12 @@ impl Ctx<'_> {
     /// Flies and evaluates one program.
     pub fn eval(&self, outer: &[f64], inner: &[f64]) -> Eval {
         self.flights.fetch_add(1, Ordering::Relaxed);
-        targeting::evaluate(&self.problem_with(outer, inner), &self.target, self.q_limit)
+        targeting::evaluate(
+            &self.problem_with(outer, inner),
+            &self.target,
+            self.q_limit,
+            self.max_payload,
+        )
     }
 
     /// True once the wall-time or trajectory budget is spent.
@@ -190,8 +210,14 @@ impl Ctx<'_> {
 }
 
 /// Objective of an evaluated program: propellant burned plus a penalty on unmet conditions, kg.
+/// In the payload mode: minus the payload plus the penalty, kg.
 pub fn objective(e: &Eval) -> f64 {
-    e.propellant_used_kg + PENALTY_KG * (e.max_abs() - inner::INNER_TOL).max(0.0)
+    let base = if e.payload_mode {
+        -e.payload_kg
+    } else {
+        e.propellant_used_kg
+    };
+    base + PENALTY_KG * (e.max_abs() - inner::INNER_TOL).max(0.0)
 }
 
 fn struct_err(field: &str, reason: &str) -> SolveError {
@@ -317,26 +343,71 @@ fn choose_vars(
 }
 
 /// Prepares the base problem: the last burn cuts off on the target energy.
-fn prepare(p: &Problem) -> Problem {
+fn prepare(p: &Problem, objective: Objective) -> Problem {
     let mut q = p.clone();
     if let Some(i) = (0..q.program.arcs.len())
         .rev()
         .find(|i| matches!(q.program.arcs[*i], Arc::Burn { .. }))
     {
         if let Arc::Burn { cutoff, .. } = &mut q.program.arcs[i] {
-            *cutoff = Cutoff::TargetOrbit;
+            *cutoff = match objective {
+                Objective::LeastPropellant => Cutoff::TargetOrbit,
+                Objective::MaxPayload => Cutoff::Depletion,
+            };
         }
+    }
+    if objective == Objective::MaxPayload {
+        set_aside_reserves(&mut q, None);
     }
     q
 }
 
+/// Payload mode: the reserves stay in the last stage's tanks, so its usable load is reduced by
+/// them. The ΔV-percentage reserve x = f·ΔV_ideal/c costs `FPR = (m_payload + m_dry + other
+/// reserves)(eˣ − 1)` at the last stage's exhaust velocity c (Tsiolkovsky), with ΔV_ideal from
+/// a flight (`ideal_mps`) or, before one exists, from the rocket equation stage by stage.
+fn set_aside_reserves(p: &mut Problem, ideal_mps: Option<f64>) {
+    let r = p.reserves;
+    let mut m = p.vehicle.liftoff_mass_kg();
+    let mut estimate = 0.0;
+    for s in &p.vehicle.stages {
+        estimate += s.engine.exhaust_velocity_mps() * (m / (m - s.propellant_kg)).ln();
+        m -= s.propellant_kg + s.dry_mass_kg;
+    }
+    let ideal = ideal_mps.unwrap_or(estimate);
+    let payload = p.vehicle.payload_kg;
+    let Some(last) = p.vehicle.stages.last_mut() else {
+        return;
+    };
+    let c = last.engine.exhaust_velocity_mps();
+    let others = r.fpr_kg + r.residuals_kg + r.disposal_kg;
+    let m_end = payload + last.dry_mass_kg + others;
+    let keep = m_end * ((r.fpr_fraction_dv * ideal / c).exp() - 1.0) + others;
+    let usable = (last.propellant_kg - keep).max(1.0);
+    // The reserves fly to orbit in the tanks: mass on board, not burned.
+    last.dry_mass_kg += last.propellant_kg - usable;
+    last.propellant_kg = usable;
+}
+
 /// Finds the least-propellant program of `p` that reaches its target.
 pub fn solve(p: &Problem, o: &SolveOptions) -> Result<Solution, SolveError> {
-    let target = p.target.ok_or(SolveError::NoTarget)?;
-    let base = prepare(p);
-    let (inner, outer) = choose_vars(&base, &target, o)?;
     let t0 = Instant::now();
-    let free = run_stage(&base, target, inner.clone(), outer.clone(), None, o, t0);
+    let mut s = solve_timed(p, o, t0)?;
+    s.convergence.wall_s = t0.elapsed().as_secs_f64();
+    Ok(s)
+}
+
+fn solve_timed(p: &Problem, o: &SolveOptions, t0: Instant) -> Result<Solution, SolveError> {
+    let target = p.target.ok_or(SolveError::NoTarget)?;
+    let base = prepare(p, o.objective);
+    let (mut inner, outer) = choose_vars(&base, &target, o)?;
+    if o.objective == Objective::MaxPayload {
+        inner.push(Var::Payload);
+    }
+    let mut free = run_stage(&base, target, inner.clone(), outer.clone(), None, o, t0);
+    if o.objective == Objective::MaxPayload && p.reserves.fpr_fraction_dv > 0.0 {
+        free = reserve_pass(p, free, target, &inner, &outer, o, t0);
+    }
     let Some(q_lim) = p.limits.max_dynamic_pressure_pa else {
         return Ok(free);
     };
@@ -370,6 +441,45 @@ pub fn solve(p: &Problem, o: &SolveOptions) -> Result<Solution, SolveError> {
             .into(),
     });
     Ok(sol)
+}
+
+/// Payload mode, second pass: the ΔV reserve recomputed with the ideal ΔV of the first pass's
+/// flight, and the terminal conditions (payload included) re-solved with the outer variables
+/// held at the first pass's optimum (the small reserve change moves that optimum negligibly).
+fn reserve_pass(
+    p: &Problem,
+    first: Solution,
+    target: Target,
+    inner: &[Var],
+    outer: &[Var],
+    o: &SolveOptions,
+    t0: Instant,
+) -> Solution {
+    let f = crate::sim::fly(&first.problem, &crate::sim::FlyOptions::default());
+    let ideal = f.y1[crate::sim::dynamics::ix::IDEAL] - f.y0[crate::sim::dynamics::ix::IDEAL];
+    let mut base = first.problem.clone();
+    base.vehicle.stages.clone_from(&p.vehicle.stages);
+    set_aside_reserves(&mut base, Some(ideal));
+    let again = SolveOptions {
+        scan: false,
+        ..o.clone()
+    };
+    let _ = outer;
+    let mut second = run_stage(&base, target, inner.to_vec(), Vec::new(), None, &again, t0);
+    second.convergence.trajectories += first.convergence.trajectories;
+    second.convergence.iterations += first.convergence.iterations;
+    second.convergence.reason = first.convergence.reason.clone();
+    // Report every tuned variable: the held outer ones keep the first pass's values.
+    for (v, x) in &first.variables {
+        if !second.variables.iter().any(|(w, _)| w == v) {
+            second.variables.push((*v, *x));
+        }
+    }
+    if second.convergence.status == SolveStatus::Infeasible {
+        first
+    } else {
+        second
+    }
 }
 
 /// A throttle bucket spanning the time the unconstrained ascent spends above 70 % of the limit.
@@ -415,6 +525,7 @@ fn run_stage(
         inner,
         outer,
         q_limit,
+        max_payload: o.objective == Objective::MaxPayload,
         flights: AtomicUsize::new(0),
         start: Instant::now(),
         deadline: Duration::from_secs_f64(left),

@@ -39,6 +39,10 @@ pub struct Eval {
     pub shortfall: f64,
     /// Maximum dynamic pressure, Pa.
     pub max_q_pa: f64,
+    /// Payload, kg.
+    pub payload_kg: f64,
+    /// Evaluated in the payload mode (objective: largest payload).
+    pub payload_mode: bool,
 }
 
 impl Eval {
@@ -94,9 +98,22 @@ pub fn residuals(p: &Problem, t: &Target, f: &Flight) -> (Vec<f64>, f64) {
 
 /// Flies `p` and evaluates it against its target; with `q_limit` (Pa) the maximum dynamic
 /// pressure is held at the limit as one more condition.
-pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>) -> Eval {
+pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>, energy_equality: bool) -> Eval {
     let f = fly(p, &FlyOptions::default());
-    let (mut residuals, shortfall) = residuals(p, t, &f);
+    let (mut residuals, mut shortfall) = residuals(p, t, &f);
+    if energy_equality && matches!(f.end, EndReason::Completed) {
+        // Payload mode: the last burn runs to depletion and the payload is solved so that the
+        // energy at depletion equals the target's (two-sided condition).
+        let y = &f.y1;
+        let r = Vector3::new(y[0], y[1], y[2]);
+        let v = Vector3::new(y[3], y[4], y[5]);
+        let e_t = t.energy_j_kg(&p.environment);
+        let de = (p.environment.specific_energy_j_kg(&r, &v) - e_t) / e_t.abs().max(1.0);
+        if let Some(last) = residuals.last_mut() {
+            *last = SHORTFALL_WEIGHT * de;
+        }
+        shortfall = (-de).max(0.0);
+    }
     let max_q_pa = f.max_q.map_or(0.0, |m| m.value);
     if let Some(q) = q_limit {
         let at = residuals.len() - 1;
@@ -114,7 +131,7 @@ pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>) -> Eval {
             vec![1e6; residual_count(t, q_limit)]
         },
         propellant_used_kg: p.vehicle.propellant_loaded_kg() - f.propellant_remaining_kg,
-        reached: shortfall == 0.0 && matches!(f.end, EndReason::Completed),
+        reached: (shortfall == 0.0 || energy_equality) && matches!(f.end, EndReason::Completed),
         apogee_alt_m: if el.apogee_radius_m.is_finite() {
             el.apogee_radius_m - WGS84_A_M
         } else {
@@ -122,5 +139,7 @@ pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>) -> Eval {
         },
         shortfall,
         max_q_pa,
+        payload_kg: p.vehicle.payload_kg,
+        payload_mode: energy_equality,
     }
 }

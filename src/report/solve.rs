@@ -179,6 +179,11 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         fix: a.fix.clone(),
         scan: !a.no_scan,
         perturb_seed: a.perturb_seed,
+        objective: if a.max_payload {
+            crate::optimize::Objective::MaxPayload
+        } else {
+            crate::optimize::Objective::LeastPropellant
+        },
     };
     let sol = match solve(&p, &opts) {
         Ok(s) => s,
@@ -192,24 +197,28 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         v.write(&mut tuned_file, *x);
     }
     set_final_cutoff(&mut tuned_file);
+    // Report the program as written: the file's vehicle with the tuned values (in the payload
+    // mode the reserves are then back in the last stage's tanks, left over at cutoff).
+    let mut flown = validate::validate(&tuned_file).unwrap_or_else(|_| sol.problem.clone());
+    flown.input_sha256 = p.input_sha256.clone();
     let record = a.csv.as_ref().map(|_| a.csv_step_s);
     let flight = fly(
-        &sol.problem,
+        &flown,
         &FlyOptions {
             record_step_s: record,
             initial: None,
         },
     );
-    let report = FlightReport::new(&sol.problem, &flight);
+    let report = FlightReport::new(&flown, &flight);
     let accel_limited = flight
         .events
         .iter()
         .any(|e| e.kind == EventKind::AccelLimitOnset);
-    let last = sol.problem.vehicle.stages.len() - 1;
-    let stage = &sol.problem.vehicle.stages[flight.final_mode.stage.min(last)];
+    let last = flown.vehicle.stages.len() - 1;
+    let stage = &flown.vehicle.stages[flight.final_mode.stage.min(last)];
     let m_f = report.final_mass_kg;
     let c = stage.engine.exhaust_velocity_mps();
-    let res = reserves(&sol.problem, report.budget.ideal_mps, m_f, c);
+    let res = reserves(&flown, report.budget.ideal_mps, m_f, c);
     let margin = report.propellant_remaining_kg - res.total_kg();
     let margin_mps = if m_f > margin.max(0.0) {
         margin.signum() * c * (m_f / (m_f - margin.abs())).ln()
@@ -229,15 +238,15 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
                 value: v.to_file_unit(*x),
             })
             .collect(),
-        propellant_used_kg: sol.eval.propellant_used_kg,
-        payload_kg: sol.problem.vehicle.payload_kg,
+        propellant_used_kg: flown.vehicle.propellant_loaded_kg() - report.propellant_remaining_kg,
+        payload_kg: flown.vehicle.payload_kg,
         propellant_remaining_kg: report.propellant_remaining_kg,
         reserves: res,
         margin_kg: margin,
         margin_mps,
-        active_constraints: active_constraints(&sol.problem, &report, accel_limited, &sol.active),
+        active_constraints: active_constraints(&flown, &report, accel_limited, &sol.active),
         constraint_costs: sol.active.clone(),
-        shortfall_mps: shortfall_mps(&sol.problem, &flight.y1),
+        shortfall_mps: shortfall_mps(&flown, &flight.y1),
         convergence: sol.convergence.clone(),
         flight: report,
     };
