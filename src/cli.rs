@@ -54,15 +54,20 @@ pub struct SolveArgs {
     /// Trajectory budget.
     #[arg(long, default_value_t = 50_000, value_name = "N")]
     pub max_trajectories: usize,
-    /// Also tune these variable groups: pitch_rate, rise_time, azimuth, coasts.
+    /// Also tune these variable groups: pitch_rate, rise_time (azimuth with an inclination
+    /// target and timed coasts are free by default).
     #[arg(long, value_name = "GROUP", value_delimiter = ',')]
     pub free: Vec<String>,
-    /// Hold these variable groups at the file's values: kick, steering.
+    /// Hold these variable groups at the file's values: kick, steering, azimuth, coasts.
     #[arg(long, value_name = "GROUP", value_delimiter = ',')]
     pub fix: Vec<String>,
     /// Start from the file's program instead of the automatic guess and kick scan.
     #[arg(long)]
     pub no_scan: bool,
+    /// Also solve richer programs (free pitch-over rate and vertical rise; separate laws for
+    /// continued upper burns) and report what each would save.
+    #[arg(long)]
+    pub explore: bool,
     /// Find the largest payload with every stage burned to depletion (reserves set aside)
     /// instead of the least propellant for the file's payload.
     #[arg(long)]

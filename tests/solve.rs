@@ -434,3 +434,39 @@ fn the_payload_mode_fills_the_margin_with_payload() {
     assert_eq!(d["met"], true, "{d}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn a_written_program_with_a_throttle_bucket_reproduces_the_held_max_q() {
+    let dir = std::env::temp_dir().join(format!("kickturn-bucket-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let input = dir.join("q32.json");
+    let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
+        .unwrap_or_default();
+    let _ = std::fs::write(
+        &input,
+        text.replace(
+            "\"max_dynamic_pressure_pa\": 45000.0",
+            "\"max_dynamic_pressure_pa\": 32000.0",
+        ),
+    );
+    let out = dir.join("tuned.json");
+    let (i, o) = (
+        input.to_string_lossy().to_string(),
+        out.to_string_lossy().to_string(),
+    );
+    let s = kickturn(&["solve", &i, "--write-program", &o, "--json"]);
+    assert_eq!(
+        s.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&s.stderr)
+    );
+    let f = json(&kickturn(&["fly", &o, "--json"]));
+    let q = f["max_dynamic_pressure_pa"].as_f64().unwrap_or(f64::NAN);
+    assert!(
+        (q - 32_000.0).abs() < 1.0,
+        "max-Q of the written program {q} Pa"
+    );
+    assert_eq!(f["target_deviation"]["met"], true);
+    let _ = std::fs::remove_dir_all(&dir);
+}

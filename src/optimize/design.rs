@@ -221,9 +221,8 @@ impl Var {
     /// Value (SI) in the problem file's unit.
     pub fn to_file_unit(&self, v: f64) -> f64 {
         match self {
-            Var::Kick | Var::PitchRate | Var::Azimuth | Var::Pitch0(_) | Var::Heading(_) => {
-                v.to_degrees()
-            }
+            Var::Heading(_) => (v.to_degrees() + 180.0).rem_euclid(360.0) - 180.0,
+            Var::Kick | Var::PitchRate | Var::Azimuth | Var::Pitch0(_) => v.to_degrees(),
             Var::ApogeeCutoff(_) => v / 1e3,
             Var::RiseTime | Var::TanRate(_) | Var::YawRate(_) | Var::Coast(_) => v,
             Var::BucketStart | Var::BucketDuration | Var::BucketThrottle | Var::Payload => v,

@@ -39,10 +39,11 @@ pub struct SolveOptions {
     pub max_wall_s: f64,
     /// Trajectory budget (default 50 000).
     pub max_trajectories: usize,
-    /// Variable groups to free in addition to the defaults (`pitch_rate`, `rise_time`,
-    /// `azimuth`, `coasts`).
+    /// Variable groups to free in addition to the defaults (`pitch_rate`, `rise_time`;
+    /// `azimuth` with an inclination target and timed `coasts` are free by default).
     pub free: Vec<String>,
-    /// Variable groups to hold at the problem file's values (`kick`, `steering`, `apogee_cutoffs`).
+    /// Variable groups to hold at the problem file's values (`kick`, `steering`, `azimuth`,
+    /// `coasts`).
     pub fix: Vec<String>,
     /// Scan the kick angle for a start (default true); off: start from the file's program.
     pub scan: bool,
@@ -84,8 +85,11 @@ pub enum Objective {
 pub enum SolveStatus {
     /// Terminal conditions met and the outer search converged.
     Converged,
-    /// Terminal conditions met, but the wall-time or trajectory budget ended the outer search.
+    /// The wall-time or trajectory budget ended the search (the target may or may not be met:
+    /// see the residuals).
     BudgetExhausted,
+    /// Terminal conditions met, but the outer search stopped at its iteration limit.
+    IterationLimit,
     /// No program met the terminal conditions.
     Infeasible,
 }
@@ -181,6 +185,15 @@ impl Ctx<'_> {
             .chain(self.inner.iter().zip(inner))
         {
             v.set(&mut p, x * v.scale());
+        }
+        // A coast written in the file is the shortest allowed (separation, ignition sequence):
+        // the optimizer may only lengthen it.
+        for v in self.outer.iter().filter(|v| matches!(v, Var::Coast(_))) {
+            if let (Some(now), Some(min)) = (v.get(&p), v.get(self.base)) {
+                if now < min {
+                    v.set(&mut p, min);
+                }
+            }
         }
         p
     }
@@ -323,16 +336,20 @@ fn choose_vars(
             outer.push(Var::TanRate(i));
         }
     }
-    for (g, v) in [
-        ("pitch_rate", Var::PitchRate),
-        ("rise_time", Var::RiseTime),
-        ("azimuth", Var::Azimuth),
-    ] {
+    for (g, v) in [("pitch_rate", Var::PitchRate), ("rise_time", Var::RiseTime)] {
         if has(g) && v.get(p).is_some() {
             outer.push(v);
         }
     }
-    if has("coasts") {
+    // The launch azimuth is free by default when the inclination is the target: the formula's
+    // azimuth plus upper-stage yaw is not the cheapest split (105 kg on the heavy demo).
+    let az_default = t.inclination_rad.is_some() && !fixed("azimuth");
+    if (has("azimuth") || az_default) && !outer.contains(&Var::Azimuth) {
+        outer.push(Var::Azimuth);
+    }
+    // Timed coasts are free by default (a staging coast can pay to lengthen: 1.1 t of
+    // propellant on the heavy demo), never shorter than written.
+    if has("coasts") || !fixed("coasts") {
         outer.extend(
             (0..arcs.len())
                 .map(Var::Coast)
@@ -417,8 +434,10 @@ fn solve_timed(p: &Problem, o: &SolveOptions, t0: Instant) -> Result<Solution, S
     // Max-Q above the limit: hold it with a first-stage throttle bucket whose depth is one more
     // inner variable (condition: max-Q = limit), started from the unconstrained optimum.
     let mut b = free.problem.clone();
-    if b.program.bucket.is_none() {
-        b.program.bucket = Some(bucket_guess(&free.problem, q_lim));
+    match b.program.bucket.as_mut() {
+        None => b.program.bucket = Some(bucket_guess(&free.problem, q_lim)),
+        // Start below full throttle: at the bound the forward difference sees no slope.
+        Some(k) => k.throttle = k.throttle.min(0.9).max(b.vehicle.stages[0].min_throttle),
     }
     let mut inner_q = inner;
     inner_q.push(Var::BucketThrottle);
@@ -550,10 +569,13 @@ fn finish(ctx: &Ctx, best: outer::Point) -> Solution {
         .chain(&ctx.outer)
         .map(|v| (*v, v.get(&problem).unwrap_or(f64::NAN)))
         .collect();
-    let status = if !best.eval.reached || best.eval.max_abs() >= 1e-3 {
-        SolveStatus::Infeasible
-    } else if best.budget_hit {
+    let met = best.eval.reached && best.eval.max_abs() < 1e-3;
+    let status = if best.budget_hit {
         SolveStatus::BudgetExhausted
+    } else if !met {
+        SolveStatus::Infeasible
+    } else if best.reason.contains("Maximum number of iterations") {
+        SolveStatus::IterationLimit
     } else {
         SolveStatus::Converged
     };

@@ -340,7 +340,7 @@ pub struct LinearTangentFile {
     /// Rate c of the tangent, 1/s.
     pub tan_rate_per_s: f64,
     /// Out-of-plane rate w: the thrust direction is ∝ ĥ0 + (tan θ0 − c τ) Û0 + w τ n̂0 with
-    /// n̂0 = ĥ0 × Û0 (to the left of the heading), 1/s (default 0: no yaw).
+    /// n̂0 = ĥ0 × Û0 (to the right of the heading: a positive rate turns the plane clockwise seen from above), 1/s (default 0: no yaw).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub yaw_rate_per_s: Option<f64>,
     /// Heading of the thrust plane, degrees from north (default: the launch azimuth on the first

@@ -657,6 +657,10 @@ pub fn geocentric_latitude_rad(geodetic_lat_rad: f64) -> f64 {
 
 fn azimuth(l: &LaunchFile, site: &Site, target: Option<&Target>) -> R<(f64, AzimuthSource)> {
     match (l.azimuth_deg, l.inclination_deg) {
+        (Some(_), None) if l.allow_dog_leg.is_some() => bad(
+            "launch.allow_dog_leg",
+            "applies only with inclination_deg; with azimuth_deg the direction is already given",
+        ),
         (Some(_), None) if l.branch.is_some() => bad(
             "launch.branch",
             "applies only with inclination_deg; with azimuth_deg the direction is already given",

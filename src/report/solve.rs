@@ -54,15 +54,89 @@ pub struct SolveReport {
     pub reserves: ReservesReport,
     /// Margin after reserves, kg (negative: the reserves are not covered).
     pub margin_kg: f64,
-    /// The margin as ΔV of the last stage at cutoff: c·ln(m_f / (m_f − margin)), m/s.
+    /// The margin as ΔV of the last stage at cutoff: c·ln(m_f / (m_f − |margin|)), with the
+    /// margin's sign, m/s.
     pub margin_mps: f64,
     /// Path limits that are active on the solved ascent.
     pub active_constraints: Vec<String>,
     /// Limits held by the optimizer, with their cost.
     pub constraint_costs: Vec<crate::optimize::ActiveConstraint>,
+    /// Richer programs tried with `--explore` and what they save.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub richer_programs: Vec<Richer>,
     /// When the target energy was not reached: the speed still missing at the end of the best
     /// program found, √(v² + 2ΔE) − v, m/s (null when reached).
     pub shortfall_mps: Option<f64>,
+}
+
+/// A richer program and its saving over the default one.
+#[derive(Debug, Clone, Serialize)]
+pub struct Richer {
+    /// What is added.
+    pub variant: String,
+    /// How to ask for it.
+    pub how: String,
+    /// Propellant saved (payload mode: payload gained), kg.
+    pub saves_kg: f64,
+    /// The saving as last-stage ΔV at cutoff, m/s.
+    pub saves_mps: f64,
+    /// Outcome of that solve.
+    pub status: SolveStatus,
+}
+
+/// Solves the richer variants of `p` and compares them with `base` (objective value, kg).
+fn explore(p: &Problem, opts: &SolveOptions, base: f64, m_f: f64, c: f64) -> Vec<Richer> {
+    use crate::steering::{Arc, LinearTangent, Steering};
+    let mut variants: Vec<(String, String, Problem, SolveOptions)> = Vec::new();
+    let mut free = opts.clone();
+    free.free
+        .extend(["pitch_rate".to_string(), "rise_time".to_string()]);
+    variants.push((
+        "free pitch-over rate and vertical rise".into(),
+        "--free pitch_rate,rise_time".into(),
+        p.clone(),
+        free,
+    ));
+    let mut per_arc = p.clone();
+    let mut changed = false;
+    for a in per_arc.program.arcs.iter_mut() {
+        if let Arc::Burn { steering, .. } = a {
+            if *steering == Steering::LinearTangentContinued {
+                *steering = Steering::LinearTangent(LinearTangent {
+                    pitch0_rad: 10f64.to_radians(),
+                    tan_rate_per_s: 0.002,
+                    heading_rad: None,
+                    yaw_rate_per_s: 0.0,
+                });
+                changed = true;
+            }
+        }
+    }
+    if changed {
+        variants.push((
+            "a separate linear tangent law on each upper burn".into(),
+            "write \"linear_tangent\" instead of \"linear_tangent_continued\"".into(),
+            per_arc,
+            opts.clone(),
+        ));
+    }
+    variants
+        .into_iter()
+        .map(|(variant, how, q, o)| {
+            let s = solve(&q, &o);
+            let (value, status) = s.as_ref().map_or((base, SolveStatus::Infeasible), |s| {
+                (crate::optimize::objective(&s.eval), s.convergence.status)
+            });
+            let saves = base - value;
+            Richer {
+                variant,
+                how,
+                saves_kg: saves,
+                saves_mps: c * ((m_f + saves.max(-0.9 * m_f)) / m_f).ln(),
+                status,
+            }
+        })
+        .collect()
 }
 
 /// Reserves deducted from the propellant left, kg.
@@ -168,8 +242,8 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         }
     }
     for g in &a.fix {
-        if !["kick", "steering"].contains(&g.as_str()) {
-            bail!("--fix: unknown group `{g}` (kick, steering)");
+        if !["kick", "steering", "azimuth", "coasts"].contains(&g.as_str()) {
+            bail!("--fix: unknown group `{g}` (kick, steering, azimuth, coasts)");
         }
     }
     let opts = SolveOptions {
@@ -197,6 +271,13 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         v.write(&mut tuned_file, *x);
     }
     set_final_cutoff(&mut tuned_file);
+    if let Some(b) = sol.problem.program.bucket {
+        tuned_file.ascent.throttle_bucket = Some(crate::problem::file::BucketFile {
+            start_s: b.start_s,
+            duration_s: b.duration_s,
+            throttle: b.throttle,
+        });
+    }
     // Report the program as written: the file's vehicle with the tuned values (in the payload
     // mode the reserves are then back in the last stage's tanks, left over at cutoff).
     let mut flown = validate::validate(&tuned_file).unwrap_or_else(|_| sol.problem.clone());
@@ -247,6 +328,11 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         active_constraints: active_constraints(&flown, &report, accel_limited, &sol.active),
         constraint_costs: sol.active.clone(),
         shortfall_mps: shortfall_mps(&flown, &flight.y1),
+        richer_programs: if a.explore {
+            explore(&p, &opts, crate::optimize::objective(&sol.eval), m_f, c)
+        } else {
+            Vec::new()
+        },
         convergence: sol.convergence.clone(),
         flight: report,
     };
@@ -267,7 +353,12 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
     } else {
         emit(&render(&out))?;
     }
-    let ok = out.convergence.status != SolveStatus::Infeasible && out.flight.reached_orbit();
+    let met = out.flight.target_deviation.is_some_and(|d| d.met);
+    let ok = matches!(
+        out.convergence.status,
+        SolveStatus::Converged | SolveStatus::IterationLimit
+    ) && out.flight.reached_orbit()
+        && met;
     Ok(if ok { EXIT_OK } else { EXIT_NOT_REACHED })
 }
 
@@ -288,7 +379,10 @@ fn set_final_cutoff(f: &mut ProblemFile) {
 fn status_line(c: &Convergence) -> &'static str {
     match c.status {
         SolveStatus::Converged => "SOLVED",
-        SolveStatus::BudgetExhausted => "SOLVED (budget ended the search early)",
+        SolveStatus::BudgetExhausted => {
+            "STOPPED: the wall-time or trajectory budget ended the search"
+        }
+        SolveStatus::IterationLimit => "SOLVED (the outer search stopped at its iteration limit)",
         SolveStatus::Infeasible => "NOT SOLVED: no program found reaches the target",
     }
 }
@@ -338,6 +432,13 @@ pub fn render(r: &SolveReport) -> String {
     }
     for a in &r.active_constraints {
         let _ = writeln!(s, "active: {a}");
+    }
+    for x in &r.richer_programs {
+        let _ = writeln!(
+            s,
+            "richer program: {} would save {:.1} kg ({:.1} m/s of last-stage ΔV) [{}]",
+            x.variant, x.saves_kg, x.saves_mps, x.how
+        );
     }
     let _ = writeln!(s);
     s.push_str(&text::render(&r.flight));
