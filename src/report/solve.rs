@@ -259,13 +259,51 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
             crate::optimize::Objective::LeastPropellant
         },
     };
-    let sol = match solve(&p, &opts) {
-        Ok(s) => s,
-        Err(e) => {
-            eprintln!("error: {}: {e}", a.problem.display());
-            return Ok(EXIT_BAD_INPUT);
-        }
-    };
+    let (out, tuned_file, flight) =
+        match solve_and_report(&file, &p, &opts, a.explore, record_of(a)) {
+            Ok(x) => x,
+            Err(e) => {
+                eprintln!("error: {}: {e}", a.problem.display());
+                return Ok(EXIT_BAD_INPUT);
+            }
+        };
+    if let Some(path) = &a.csv {
+        write_atomic(path, &a.problem, |w| {
+            super::csv_out::write_history(w, &flight.history).map_err(Into::into)
+        })?;
+    }
+    if let Some(path) = &a.write_program {
+        let json = serde_json::to_string_pretty(&tuned_file)? + "\n";
+        write_atomic(path, &a.problem, |w| {
+            use std::io::Write;
+            w.write_all(json.as_bytes()).map_err(Into::into)
+        })?;
+    }
+    if a.json {
+        emit(&format!("{}\n", serde_json::to_string_pretty(&out)?))?;
+    } else {
+        emit(&render(&out))?;
+    }
+    let met = out.flight.target_deviation.is_some_and(|d| d.met);
+    let ok = matches!(
+        out.convergence.status,
+        SolveStatus::Converged | SolveStatus::IterationLimit
+    ) && out.flight.reached_orbit()
+        && met;
+    Ok(if ok { EXIT_OK } else { EXIT_NOT_REACHED })
+}
+
+/// Solves `p` (validated from `file`), flies the program as written and builds the report.
+/// Returns the report, the tuned problem file and the flight (history recorded every `record`
+/// seconds when given).
+pub fn solve_and_report(
+    file: &ProblemFile,
+    p: &Problem,
+    opts: &SolveOptions,
+    explore_richer: bool,
+    record: Option<f64>,
+) -> Result<(SolveReport, ProblemFile, crate::sim::Flight), crate::optimize::SolveError> {
+    let sol = solve(p, opts)?;
     let mut tuned_file = file.clone();
     for (v, x) in &sol.variables {
         v.write(&mut tuned_file, *x);
@@ -282,7 +320,6 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
     // mode the reserves are then back in the last stage's tanks, left over at cutoff).
     let mut flown = validate::validate(&tuned_file).unwrap_or_else(|_| sol.problem.clone());
     flown.input_sha256 = p.input_sha256.clone();
-    let record = a.csv.as_ref().map(|_| a.csv_step_s);
     let flight = fly(
         &flown,
         &FlyOptions {
@@ -328,38 +365,19 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         active_constraints: active_constraints(&flown, &report, accel_limited, &sol.active),
         constraint_costs: sol.active.clone(),
         shortfall_mps: shortfall_mps(&flown, &flight.y1),
-        richer_programs: if a.explore {
-            explore(&p, &opts, crate::optimize::objective(&sol.eval), m_f, c)
+        richer_programs: if explore_richer {
+            explore(p, opts, crate::optimize::objective(&sol.eval), m_f, c)
         } else {
             Vec::new()
         },
         convergence: sol.convergence.clone(),
         flight: report,
     };
-    if let Some(path) = &a.csv {
-        write_atomic(path, &a.problem, |w| {
-            super::csv_out::write_history(w, &flight.history).map_err(Into::into)
-        })?;
-    }
-    if let Some(path) = &a.write_program {
-        let json = serde_json::to_string_pretty(&tuned_file)? + "\n";
-        write_atomic(path, &a.problem, |w| {
-            use std::io::Write;
-            w.write_all(json.as_bytes()).map_err(Into::into)
-        })?;
-    }
-    if a.json {
-        emit(&format!("{}\n", serde_json::to_string_pretty(&out)?))?;
-    } else {
-        emit(&render(&out))?;
-    }
-    let met = out.flight.target_deviation.is_some_and(|d| d.met);
-    let ok = matches!(
-        out.convergence.status,
-        SolveStatus::Converged | SolveStatus::IterationLimit
-    ) && out.flight.reached_orbit()
-        && met;
-    Ok(if ok { EXIT_OK } else { EXIT_NOT_REACHED })
+    Ok((out, tuned_file, flight))
+}
+
+fn record_of(a: &SolveArgs) -> Option<f64> {
+    a.csv.as_ref().map(|_| a.csv_step_s)
 }
 
 /// The optimizer cuts the last burn on the target energy; the written program says so.
