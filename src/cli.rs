@@ -29,6 +29,96 @@ pub enum Command {
     Fly(FlyArgs),
     /// Tune the ascent program for the least propellant to the target orbit, then report.
     Solve(SolveArgs),
+    /// Re-solve over a range of launch azimuth, inclination, circular altitude or payload.
+    Sweep(SweepArgs),
+    /// Solve several problems and show their budgets side by side.
+    Compare(CompareArgs),
+    /// Payload (or margin) change per unit change of each stage's dry mass, propellant, Isp and
+    /// thrust, and of the drag coefficient.
+    Trade(TradeArgs),
+}
+
+/// Options shared by the study commands.
+#[derive(Debug, clap::Args)]
+pub struct StudyArgs {
+    /// Print one JSON object instead of the table.
+    #[arg(long)]
+    pub json: bool,
+    /// Write the table as CSV to this file.
+    #[arg(long, value_name = "FILE")]
+    pub csv: Option<PathBuf>,
+    /// Maximize payload at full propellant loads (default: least propellant for the file's
+    /// payload).
+    #[arg(long)]
+    pub max_payload: bool,
+    /// Wall-time budget per solve, s.
+    #[arg(long, default_value_t = 60.0, value_name = "S")]
+    pub max_wall_s: f64,
+}
+
+impl StudyArgs {
+    /// Solve options of every point.
+    pub fn options(&self) -> anyhow::Result<crate::optimize::SolveOptions> {
+        if !(self.max_wall_s.is_finite() && self.max_wall_s > 0.0) {
+            bail!(
+                "--max-wall-s: must be a finite number > 0, got {}",
+                self.max_wall_s
+            );
+        }
+        Ok(crate::optimize::SolveOptions {
+            max_wall_s: self.max_wall_s,
+            objective: if self.max_payload {
+                crate::optimize::Objective::MaxPayload
+            } else {
+                crate::optimize::Objective::LeastPropellant
+            },
+            ..crate::optimize::SolveOptions::default()
+        })
+    }
+}
+
+/// Arguments of `sweep`: exactly one range.
+#[derive(Debug, clap::Args)]
+#[command(group(clap::ArgGroup::new("range").required(true).args(["azimuth", "inclination", "altitude", "payload"])))]
+pub struct SweepArgs {
+    /// Problem file (JSON) with a `target`.
+    pub problem: PathBuf,
+    /// Launch azimuth range FROM:TO:STEP, deg (the target inclination is then free).
+    #[arg(long, value_name = "FROM:TO:STEP")]
+    pub azimuth: Option<String>,
+    /// Target inclination range FROM:TO:STEP, deg.
+    #[arg(long, value_name = "FROM:TO:STEP")]
+    pub inclination: Option<String>,
+    /// Circular target altitude range FROM:TO:STEP, km.
+    #[arg(long, value_name = "FROM:TO:STEP")]
+    pub altitude: Option<String>,
+    /// Payload range FROM:TO:STEP, kg.
+    #[arg(long, value_name = "FROM:TO:STEP")]
+    pub payload: Option<String>,
+    /// Shared options.
+    #[command(flatten)]
+    pub study: StudyArgs,
+}
+
+/// Arguments of `compare`.
+#[derive(Debug, clap::Args)]
+pub struct CompareArgs {
+    /// Two or more problem files.
+    #[arg(required = true, num_args = 2..)]
+    pub problems: Vec<PathBuf>,
+    /// Shared options.
+    #[command(flatten)]
+    pub study: StudyArgs,
+}
+
+/// Arguments of `trade`.
+#[derive(Debug, clap::Args)]
+pub struct TradeArgs {
+    /// Problem file (JSON) with a `target`.
+    pub problem: PathBuf,
+    /// Shared options.
+    #[command(flatten)]
+    pub study: StudyArgs,
 }
 
 /// Arguments of `solve`.
@@ -127,6 +217,36 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
     match cli.command {
         Command::Fly(a) => run_fly(&a),
         Command::Solve(a) => crate::report::solve::run(&a),
+        Command::Sweep(a) => {
+            use crate::study::Axis;
+            let (axis, range) = match (&a.azimuth, &a.inclination, &a.altitude, &a.payload) {
+                (Some(r), _, _, _) => (Axis::Azimuth, r),
+                (_, Some(r), _, _) => (Axis::Inclination, r),
+                (_, _, Some(r), _) => (Axis::Altitude, r),
+                (_, _, _, Some(r)) => (Axis::Payload, r),
+                _ => bail!("sweep: give one of --azimuth, --inclination, --altitude, --payload"),
+            };
+            crate::report::study::run_sweep(
+                &a.problem,
+                axis,
+                range,
+                &a.study.options()?,
+                a.study.json,
+                a.study.csv.as_ref(),
+            )
+        }
+        Command::Compare(a) => crate::report::study::run_compare(
+            &a.problems,
+            &a.study.options()?,
+            a.study.json,
+            a.study.csv.as_ref(),
+        ),
+        Command::Trade(a) => crate::report::study::run_trade(
+            &a.problem,
+            &a.study.options()?,
+            a.study.json,
+            a.study.csv.as_ref(),
+        ),
     }
 }
 

@@ -21,4 +21,5 @@ pub mod problem;
 pub mod report;
 pub mod sim;
 pub mod steering;
+pub mod study;
 pub mod vehicle;

@@ -4,6 +4,7 @@
 
 pub mod csv_out;
 pub mod solve;
+pub mod study;
 pub mod text;
 
 use nalgebra::Vector3;
