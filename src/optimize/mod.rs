@@ -105,7 +105,9 @@ pub struct Convergence {
     pub iterations: usize,
     /// Trajectories flown.
     pub trajectories: usize,
-    /// Wall time, s.
+    /// Wall time, s (text report only: kept out of JSON so that the same input gives the same
+    /// bytes).
+    #[serde(skip)]
     pub wall_s: f64,
     /// Terminal residuals at the solution (names with units).
     pub terminal_residuals: Vec<(String, f64)>,
