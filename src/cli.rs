@@ -95,6 +95,9 @@ pub struct SweepArgs {
     /// Payload range FROM:TO:STEP, kg.
     #[arg(long, value_name = "FROM:TO:STEP")]
     pub payload: Option<String>,
+    /// Write the sweep curves (PNG and SVG) into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub plot: Option<PathBuf>,
     /// Shared options.
     #[command(flatten)]
     pub study: StudyArgs,
@@ -135,6 +138,12 @@ pub struct SolveArgs {
     /// Time-history spacing for --csv, s.
     #[arg(long, default_value_t = 1.0, value_name = "S")]
     pub csv_step_s: f64,
+    /// Write the figures (PNG and SVG) into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub plot: Option<PathBuf>,
+    /// Write a self-contained HTML report to this file.
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
     /// Write the problem with the tuned program to this file (atomic; never over the input).
     #[arg(long, value_name = "OUT.json")]
     pub write_program: Option<PathBuf>,
@@ -144,8 +153,8 @@ pub struct SolveArgs {
     /// Trajectory budget.
     #[arg(long, default_value_t = 50_000, value_name = "N")]
     pub max_trajectories: usize,
-    /// Also tune these variable groups: pitch_rate, rise_time (azimuth with an inclination
-    /// target and timed coasts are free by default).
+    /// Also tune these variable groups: pitch_rate, rise_time, azimuth, coasts (azimuth with an
+    /// inclination target and timed coasts are free by default).
     #[arg(long, value_name = "GROUP", value_delimiter = ',')]
     pub free: Vec<String>,
     /// Hold these variable groups at the file's values: kick, steering, azimuth, coasts.
@@ -181,6 +190,12 @@ pub struct FlyArgs {
     /// Time-history spacing for --csv, s.
     #[arg(long, default_value_t = 1.0, value_name = "S")]
     pub csv_step_s: f64,
+    /// Write the figures (PNG and SVG) into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub plot: Option<PathBuf>,
+    /// Write a self-contained HTML report to this file.
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
 }
 
 /// Exit code for success.
@@ -233,6 +248,7 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
                 &a.study.options()?,
                 a.study.json,
                 a.study.csv.as_ref(),
+                a.plot.as_ref(),
             )
         }
         Command::Compare(a) => crate::report::study::run_compare(
@@ -270,8 +286,9 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
         eprintln!("{}: {u}", a.problem.display());
         return Ok(EXIT_NOT_REACHED);
     }
+    let wants_history = a.csv.is_some() || a.plot.is_some() || a.report.is_some();
     let opts = FlyOptions {
-        record_step_s: a.csv.as_ref().map(|_| a.csv_step_s),
+        record_step_s: wants_history.then_some(a.csv_step_s),
         initial: None,
     };
     let flight = fly(&p, &opts);
@@ -280,6 +297,12 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
         write_atomic(path, &a.problem, |w| {
             crate::report::csv_out::write_history(w, &flight.history).map_err(Into::into)
         })?;
+    }
+    if let Some(dir) = &a.plot {
+        crate::report::figures::flight_figures(dir, &report, &flight)?;
+    }
+    if let Some(path) = &a.report {
+        crate::report::html::write(path, &a.problem, &report, &flight, "")?;
     }
     if a.json {
         emit(&format!("{}\n", serde_json::to_string_pretty(&report)?))?;

@@ -221,7 +221,15 @@ impl Var {
     /// Value (SI) in the problem file's unit.
     pub fn to_file_unit(&self, v: f64) -> f64 {
         match self {
-            Var::Heading(_) => (v.to_degrees() + 180.0).rem_euclid(360.0) - 180.0,
+            Var::Heading(_) => {
+                // (−180°, 180°]
+                let w = (v.to_degrees() + 180.0).rem_euclid(360.0) - 180.0;
+                if w <= -180.0 {
+                    180.0
+                } else {
+                    w
+                }
+            }
             Var::Kick | Var::PitchRate | Var::Azimuth | Var::Pitch0(_) => v.to_degrees(),
             Var::ApogeeCutoff(_) => v / 1e3,
             Var::RiseTime | Var::TanRate(_) | Var::YawRate(_) | Var::Coast(_) => v,
@@ -252,6 +260,7 @@ impl Var {
                 f.launch.azimuth_deg = Some(u.rem_euclid(360.0));
                 f.launch.inclination_deg = None;
                 f.launch.branch = None;
+                f.launch.allow_dog_leg = None;
             }
             Var::Pitch0(a) | Var::TanRate(a) | Var::Heading(a) | Var::YawRate(a) => {
                 if let Some(ArcFile::Burn(b)) = f.ascent.arcs.get_mut(a) {

@@ -165,6 +165,8 @@ pub enum SolveError {
 /// Evaluation context shared by the inner and outer searches.
 pub struct Ctx<'a> {
     base: &'a Problem,
+    /// Problem whose coasts are the shortest allowed (the file's, prepared).
+    floor: &'a Problem,
     target: Target,
     inner: Vec<Var>,
     outer: Vec<Var>,
@@ -191,7 +193,7 @@ impl Ctx<'_> {
         // A coast written in the file is the shortest allowed (separation, ignition sequence):
         // the optimizer may only lengthen it.
         for v in self.outer.iter().filter(|v| matches!(v, Var::Coast(_))) {
-            if let (Some(now), Some(min)) = (v.get(&p), v.get(self.base)) {
+            if let (Some(now), Some(min)) = (v.get(&p), v.get(self.floor)) {
                 if now < min {
                     v.set(&mut p, min);
                 }
@@ -322,7 +324,7 @@ fn choose_vars(
             // Dog-leg: the yaw rate makes the plane change; the heading is tuned outside.
             inner.push(Var::YawRate(first_law));
             outer.push(Var::Heading(first_law));
-            if !has("azimuth") {
+            if !fixed("azimuth") && !outer.contains(&Var::Azimuth) {
                 outer.push(Var::Azimuth);
             }
         } else {
@@ -423,7 +425,15 @@ fn solve_timed(p: &Problem, o: &SolveOptions, t0: Instant) -> Result<Solution, S
     if o.objective == Objective::MaxPayload {
         inner.push(Var::Payload);
     }
-    let mut free = run_stage(&base, target, inner.clone(), outer.clone(), None, o, t0);
+    let spec = StageSpec {
+        base: &base,
+        floor: &base,
+        target,
+        inner: inner.clone(),
+        outer: outer.clone(),
+        q_limit: None,
+    };
+    let mut free = run_stage(spec, o, t0);
     if o.objective == Objective::MaxPayload && p.reserves.fpr_fraction_dv > 0.0 {
         free = reserve_pass(p, free, target, &inner, &outer, o, t0);
     }
@@ -447,7 +457,18 @@ fn solve_timed(p: &Problem, o: &SolveOptions, t0: Instant) -> Result<Solution, S
         scan: false,
         ..o.clone()
     };
-    let mut sol = run_stage(&b, target, inner_q, outer, Some(q_lim), &held, t0);
+    let mut sol = run_stage(
+        StageSpec {
+            base: &b,
+            floor: &base,
+            target,
+            inner: inner_q,
+            outer,
+            q_limit: Some(q_lim),
+        },
+        &held,
+        t0,
+    );
     sol.convergence.trajectories += free.convergence.trajectories;
     sol.convergence.iterations += free.convergence.iterations;
     let cost = sol.eval.propellant_used_kg - free.eval.propellant_used_kg;
@@ -486,7 +507,15 @@ fn reserve_pass(
         ..o.clone()
     };
     let _ = outer;
-    let mut second = run_stage(&base, target, inner.to_vec(), Vec::new(), None, &again, t0);
+    let spec = StageSpec {
+        base: &base,
+        floor: &base,
+        target,
+        inner: inner.to_vec(),
+        outer: Vec::new(),
+        q_limit: None,
+    };
+    let mut second = run_stage(spec, &again, t0);
     second.convergence.trajectories += first.convergence.trajectories;
     second.convergence.iterations += first.convergence.iterations;
     second.convergence.reason = first.convergence.reason.clone();
@@ -530,18 +559,29 @@ fn bucket_guess(p: &Problem, q_lim: f64) -> crate::steering::Bucket {
 }
 
 /// One solve of `base` with the given variables and optional held q limit.
-fn run_stage(
-    base: &Problem,
+/// What one stage of a solve works on: the problem, the coast floor, target and variables.
+struct StageSpec<'a> {
+    base: &'a Problem,
+    floor: &'a Problem,
     target: Target,
     inner: Vec<Var>,
     outer: Vec<Var>,
     q_limit: Option<f64>,
-    o: &SolveOptions,
-    t0: Instant,
-) -> Solution {
+}
+
+fn run_stage(spec: StageSpec, o: &SolveOptions, t0: Instant) -> Solution {
+    let StageSpec {
+        base,
+        floor,
+        target,
+        inner,
+        outer,
+        q_limit,
+    } = spec;
     let left = (o.max_wall_s - t0.elapsed().as_secs_f64()).max(0.0);
     let ctx = Ctx {
         base,
+        floor,
         target,
         inner,
         outer,
@@ -576,7 +616,12 @@ fn finish(ctx: &Ctx, best: outer::Point) -> Solution {
         SolveStatus::BudgetExhausted
     } else if !met {
         SolveStatus::Infeasible
-    } else if best.reason.contains("Maximum number of iterations") {
+    } else if best
+        .reason
+        .rsplit("restart:")
+        .next()
+        .is_some_and(|last| last.contains("Maximum number of iterations"))
+    {
         SolveStatus::IterationLimit
     } else {
         SolveStatus::Converged

@@ -18,6 +18,9 @@ use crate::problem::Problem;
 use crate::sim::{fly, FlyOptions};
 use crate::steering::{Arc, Steering};
 
+/// Objective returned once the budget is spent, kg.
+const BUDGET_SPENT_COST: f64 = 1e30;
+
 /// Kick angles tried by the initial scan, deg.
 const KICK_GRID_DEG: [f64; 12] = [
     0.25, 0.5, 1.0, 1.5, 2.0, 3.0, 4.0, 5.0, 6.5, 8.0, 10.0, 13.0,
@@ -273,8 +276,10 @@ struct Outer<'a> {
 
 impl Outer<'_> {
     fn run(&self, x: &[f64]) -> Result<f64, Error> {
+        // Out of budget: a large finite value, never an error (argmin's Nelder–Mead panics on an
+        // error while it builds its simplex); the search then ends on its own limits, quickly.
         if self.ctx.out_of_budget() {
-            return Err(Error::msg("wall-time or trajectory budget spent"));
+            return Ok(BUDGET_SPENT_COST);
         }
         let warm = self.warm.lock().map(|w| w.clone()).unwrap_or_default();
         let jac = self.jac.lock().ok().and_then(|j| j.clone());
@@ -355,8 +360,10 @@ pub fn search_all(ctx: &Ctx, starts: Vec<Point>) -> Point {
             break;
         }
     }
+    let skipped_for_budget = ctx.out_of_budget();
     let mut b = best.unwrap_or_else(|| unreachable_point(ctx));
     b.iterations = iterations;
+    b.budget_hit |= skipped_for_budget;
     b
 }
 
@@ -418,6 +425,7 @@ fn search(ctx: &Ctx, start: Point) -> Point {
     best.iterations = outer.count.into_inner().unwrap_or(0);
     best.budget_hit = ctx.out_of_budget();
     best.reason = match result {
+        Ok(r) if best.budget_hit => format!("the wall-time or trajectory budget ran out ({r})"),
         Ok(r) => r,
         Err(e) => e.to_string(),
     };
@@ -481,11 +489,15 @@ fn nelder_mead(
     let mut simplex = vec![x0.to_vec()];
     // Steps of `step` × each variable (at least half that in normalized units): the feasible
     // region in the kick can be a fraction of a degree wide for a low thrust-to-weight vehicle.
-    // Coasts get a long first step (50 s in the first pass): a staging coast can have a second,
-    // much longer optimum (the heavy demo: 4 s → 81 s saves 1.1 t).
+    // Coasts get a long first step (20 s in the first pass): a staging coast can have a second,
+    // much longer optimum (the heavy demo: 4 s → 81 s saves 1.1 t). Azimuth and heading steps
+    // are absolute (2°), not a share of the angle's value.
     for i in 0..n {
         let mut x = x0.to_vec();
-        x[i] += if matches!(outer.ctx.outer[i], Var::Coast(_)) {
+        x[i] += if matches!(
+            outer.ctx.outer[i],
+            Var::Coast(_) | Var::Azimuth | Var::Heading(_)
+        ) {
             20.0 * step
         } else {
             (step * x0[i].abs()).max(0.5 * step)

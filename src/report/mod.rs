@@ -3,6 +3,9 @@
 //! user reads is formatted here.
 
 pub mod csv_out;
+pub mod figures;
+pub mod html;
+pub mod plots;
 pub mod solve;
 pub mod study;
 pub mod text;

@@ -189,7 +189,9 @@ fn active_constraints(
     if accel_limited {
         v.push("max_axial_accel_g: the throttle holds the limit".to_string());
     }
-    for c in held {
+    let solved =
+        matches!(r.status, super::Status::Orbit) && r.target_deviation.is_some_and(|d| d.met);
+    for c in held.iter().filter(|_| solved) {
         v.push(format!(
             "{}: held at {:.1} kPa by a {}; the unconstrained optimum reached {:.1} kPa; cost \
              {:.1} kg ({:.1} kg per kPa)",
@@ -278,6 +280,14 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
             use std::io::Write;
             w.write_all(json.as_bytes()).map_err(Into::into)
         })?;
+    }
+    if let Some(dir) = &a.plot {
+        super::figures::flight_figures(dir, &out.flight, &flight)?;
+    }
+    if let Some(path) = &a.report {
+        let text = render(&out);
+        let summary: String = text.split("\n\n").next().unwrap_or("").to_string();
+        super::html::write(path, &a.problem, &out.flight, &flight, &summary)?;
     }
     if a.json {
         emit(&format!("{}\n", serde_json::to_string_pretty(&out)?))?;
@@ -377,7 +387,7 @@ pub fn solve_and_report(
 }
 
 fn record_of(a: &SolveArgs) -> Option<f64> {
-    a.csv.as_ref().map(|_| a.csv_step_s)
+    (a.csv.is_some() || a.plot.is_some() || a.report.is_some()).then_some(a.csv_step_s)
 }
 
 /// The optimizer cuts the last burn on the target energy; the written program says so.
@@ -454,7 +464,7 @@ pub fn render(r: &SolveReport) -> String {
     for x in &r.richer_programs {
         let _ = writeln!(
             s,
-            "richer program: {} would save {:.1} kg ({:.1} m/s of last-stage ΔV) [{}]",
+            "richer program: {} would gain {:.1} kg (propellant saved, or payload in the payload mode; {:.1} m/s of last-stage ΔV) [{}]",
             x.variant, x.saves_kg, x.saves_mps, x.how
         );
     }

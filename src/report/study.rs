@@ -169,6 +169,7 @@ pub fn run_sweep(
     opts: &SolveOptions,
     json: bool,
     csv_path: Option<&PathBuf>,
+    plot: Option<&PathBuf>,
 ) -> anyhow::Result<u8> {
     let values =
         study::parse_range(range).map_err(|e| anyhow::anyhow!("--{}: {e}", axis_flag(axis)))?;
@@ -179,6 +180,9 @@ pub fn run_sweep(
     pb.finish_and_clear();
     if let Some(path) = csv_path {
         write_atomic(path, problem, |w| write_points_csv(w, axis.label(), &pts))?;
+    }
+    if let Some(dir) = plot {
+        crate::report::figures::sweep_figures(dir, &file.name, axis, &pts)?;
     }
     let all_ok = pts
         .iter()
