@@ -254,3 +254,96 @@ fn usage_errors_exit_2() {
     assert!(String::from_utf8_lossy(&missing.stderr).contains("no/such/file.json"));
     assert!(Path::new(env!("CARGO_BIN_EXE_kickturn")).exists());
 }
+
+#[test]
+fn fly_writes_figures_and_a_self_contained_html_report() {
+    let dir = std::env::temp_dir().join(format!("kickturn-figs-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    let figs = dir.join("figs");
+    let html = dir.join("report.html");
+    let _ = std::fs::create_dir_all(&dir);
+    let (f, h) = (
+        figs.to_string_lossy().to_string(),
+        html.to_string_lossy().to_string(),
+    );
+    let out = kickturn(&[
+        "fly",
+        "problems/heavy-boosters-iss51.json",
+        "--plot",
+        &f,
+        "--report",
+        &h,
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    for stem in [
+        "altitude_speed",
+        "angles",
+        "loads",
+        "profile",
+        "budget",
+        "losses",
+    ] {
+        let png = std::fs::metadata(figs.join(format!("{stem}.png")))
+            .map(|m| m.len())
+            .unwrap_or(0);
+        assert!(png > 10_000, "{stem}.png is {png} bytes");
+        let svg = std::fs::read_to_string(figs.join(format!("{stem}.svg"))).unwrap_or_default();
+        assert!(
+            svg.contains("<svg") && svg.contains("Corvane Heavy"),
+            "{stem}.svg"
+        );
+    }
+    let page = std::fs::read_to_string(&html).unwrap_or_default();
+    assert!(page.starts_with("<!DOCTYPE html>"));
+    assert_eq!(page.matches("<svg").count(), 6, "six inline figures");
+    assert!(page.contains("Preliminary design only"));
+    assert!(
+        !page.contains("http://") || page.contains("http://www.w3.org"),
+        "no network resources"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn sweep_keeps_every_point_in_json_and_csv() {
+    let dir = std::env::temp_dir().join(format!("kickturn-sweep-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let csv = dir.join("s.csv");
+    let c = csv.to_string_lossy().to_string();
+    let out = kickturn(&[
+        "sweep",
+        "problems/heavy-boosters-iss51.json",
+        "--altitude",
+        "250:350:50",
+        "--json",
+        "--csv",
+        &c,
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let r = json_of(&out);
+    let pts = r["points"].as_array().cloned().unwrap_or_default();
+    assert_eq!(pts.len(), 3);
+    let used: Vec<f64> = pts
+        .iter()
+        .map(|p| {
+            p["report"]["propellant_used_kg"]
+                .as_f64()
+                .unwrap_or(f64::NAN)
+        })
+        .collect();
+    // A higher circular orbit costs more propellant (common practice).
+    assert!(used[0] < used[1] && used[1] < used[2], "{used:?}");
+    let text = std::fs::read_to_string(&csv).unwrap_or_default();
+    assert_eq!(text.lines().count(), 4, "header and three rows");
+    let _ = std::fs::remove_dir_all(&dir);
+}
