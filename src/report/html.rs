@@ -70,7 +70,7 @@ fn tables(r: &FlightReport, s: &mut String) {
         let a = &e.at;
         let _ = writeln!(
             s,
-            "<tr><td>{:.3}</td><td>{}</td><td>{:.3}</td><td>{:.3}</td><td>{:.1}</td><td>{:.1}</td><td>{:.2}</td><td>{:.3}</td><td>{:.3}</td><td>{:.1}</td></tr>",
+            "<tr><td>{:.3}</td><td class=\"l\">{}</td><td>{:.3}</td><td>{:.3}</td><td>{:.1}</td><td>{:.1}</td><td>{:.2}</td><td>{:.3}</td><td>{:.3}</td><td>{:.1}</td></tr>",
             a.t_s, esc(&e.label), a.altitude_m / 1e3, a.downrange_m / 1e3, a.speed_rel_mps,
             a.speed_inertial_mps, a.mach, a.dynamic_pressure_pa / 1e3, a.flight_path_rel_deg, a.mass_kg
         );
@@ -93,7 +93,7 @@ pub fn page(r: &FlightReport, f: &Flight, extra: &str) -> anyhow::Result<String>
         "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title>",
         esc(&r.problem)
     );
-    let _ = writeln!(s, "<style>body{{font-family:sans-serif;max-width:1250px;margin:auto;padding:1em}}table{{border-collapse:collapse;margin:0.5em 0}}td,th{{border:1px solid #bbb;padding:2px 6px;text-align:right}}td:first-child,th:first-child{{text-align:left}}.caution{{border:2px solid #b00;padding:0.5em;background:#fee}}pre{{background:#f6f6f6;padding:0.5em}}</style></head><body>");
+    let _ = writeln!(s, "<style>body{{font-family:sans-serif;max-width:1250px;margin:auto;padding:1em}}table{{border-collapse:collapse;margin:0.5em 0}}td,th{{border:1px solid #bbb;padding:2px 6px;text-align:right}}td:first-child,th:first-child{{text-align:left}}.caution{{border:2px solid #b00;padding:0.5em;background:#fee}}pre{{background:#f6f6f6;padding:0.5em;white-space:pre-wrap}}td.l{{text-align:left}}</style></head><body>");
     let _ = writeln!(s, "<h1>{}</h1>", esc(&r.problem));
     let _ = writeln!(
         s,
