@@ -225,9 +225,44 @@ pub fn parse(text: &str) -> Result<ProblemFile, ProblemError> {
             } else {
                 path
             },
-            message: e.into_inner().to_string(),
+            message: with_hint(&e.into_inner().to_string()),
         }
     })
+}
+
+/// Adds "did you mean `x`?" to serde's unknown-field and unknown-variant messages, choosing the
+/// expected name nearest in edit distance (Levenshtein 1966) when it is close enough.
+fn with_hint(msg: &str) -> String {
+    let (Some(got), Some(list)) = (msg.split('`').nth(1), msg.split("expected one of ").nth(1))
+    else {
+        return msg.to_string();
+    };
+    let best = list
+        .split('`')
+        .skip(1)
+        .step_by(2)
+        .map(|c| (levenshtein(got, c), c))
+        .min();
+    match best {
+        Some((d, c)) if d <= got.len().max(3) / 2 => format!("{msg} (did you mean `{c}`?)"),
+        _ => msg.to_string(),
+    }
+}
+
+/// Edit distance between two strings (insertions, deletions, substitutions).
+fn levenshtein(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut row: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut prev = row[0];
+        row[0] = i + 1;
+        for (j, cb) in b.iter().enumerate() {
+            let cur = row[j + 1];
+            row[j + 1] = (prev + usize::from(ca != *cb)).min(row[j] + 1).min(cur + 1);
+            prev = cur;
+        }
+    }
+    row[b.len()]
 }
 
 /// Hex SHA-256 of bytes.
@@ -236,4 +271,19 @@ pub fn sha256_hex(bytes: &[u8]) -> String {
         .iter()
         .map(|b| format!("{b:02x}"))
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn unknown_fields_get_the_nearest_name() {
+        let e = parse(r#"{"name": "x", "sitte": {}}"#)
+            .err()
+            .map(|e| e.to_string());
+        assert!(e.is_some_and(|m| m.contains("did you mean `site`?")));
+        assert_eq!(levenshtein("isp_s", "isp_vac_s"), 4);
+        assert_eq!(levenshtein("", "abc"), 3);
+    }
 }

@@ -80,8 +80,39 @@ fn as_markers(m: &[(f64, String)]) -> Vec<Marker<'_>> {
     m.iter().map(|(x, l)| Marker { x: *x, label: l }).collect()
 }
 
-/// Writes every flight figure into `dir`; returns the files (PNG and SVG of each).
+/// Draws into a fresh temporary folder inside `dir`, then renames every file into `dir`: a failed
+/// run leaves no partial figure behind.
+fn atomically(
+    dir: &Path,
+    draw: impl FnOnce(&Path) -> Result<Vec<PathBuf>, PlotError>,
+) -> Result<Vec<PathBuf>, PlotError> {
+    let tmp = dir.join(format!(".kickturn-tmp-{}", std::process::id()));
+    let io = |path: &Path, source| PlotError::Io {
+        path: path.to_path_buf(),
+        source,
+    };
+    std::fs::create_dir_all(&tmp).map_err(|e| io(&tmp, e))?;
+    let result = draw(&tmp).and_then(|files| {
+        files
+            .iter()
+            .map(|f| {
+                let to = dir.join(f.file_name().unwrap_or_default());
+                std::fs::rename(f, &to)
+                    .map(|()| to.clone())
+                    .map_err(|e| io(&to, e))
+            })
+            .collect()
+    });
+    let _ = std::fs::remove_dir_all(&tmp);
+    result
+}
+
+/// Writes every flight figure into `dir` (atomically); returns the files (PNG and SVG of each).
 pub fn flight_figures(dir: &Path, r: &FlightReport, f: &Flight) -> Result<Vec<PathBuf>, PlotError> {
+    atomically(dir, |tmp| draw_flight(tmp, r, f))
+}
+
+fn draw_flight(dir: &Path, r: &FlightReport, f: &Flight) -> Result<Vec<PathBuf>, PlotError> {
     let h = &f.history;
     let t = col(h, |s| s.t_s);
     let title = |what: &str| format!("{}: {what}, {}", r.vehicle, run_date());
@@ -270,8 +301,17 @@ fn budget_waterfall(dir: &Path, r: &FlightReport, title: &str) -> Result<Vec<Pat
     )
 }
 
-/// Sweep curves: payload or margin, and each loss, against the swept value.
+/// Sweep curves: payload or margin, and each loss, against the swept value (written atomically).
 pub fn sweep_figures(
+    dir: &Path,
+    name: &str,
+    axis: Axis,
+    pts: &[Point],
+) -> Result<Vec<PathBuf>, PlotError> {
+    atomically(dir, |tmp| draw_sweep(tmp, name, axis, pts))
+}
+
+fn draw_sweep(
     dir: &Path,
     name: &str,
     axis: Axis,

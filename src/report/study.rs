@@ -27,10 +27,11 @@ pub fn progress(n: usize, what: &str) -> ProgressBar {
     pb
 }
 
-/// Reads and parses a problem file.
-pub fn read_file(path: &Path) -> anyhow::Result<ProblemFile> {
+/// Reads and parses a problem file; returns it with the SHA-256 of its text.
+pub fn read_file(path: &Path) -> anyhow::Result<(ProblemFile, String)> {
     let text = std::fs::read_to_string(path).with_context(|| format!("{}", path.display()))?;
-    parse(&text).with_context(|| format!("{}", path.display()))
+    let f = parse(&text).with_context(|| format!("{}", path.display()))?;
+    Ok((f, crate::problem::sha256_hex(text.as_bytes())))
 }
 
 /// Columns of a point row: (header, value).
@@ -151,6 +152,8 @@ fn text_points(title: &str, label: &str, pts: &[Point]) -> String {
 pub struct SweepReport {
     /// Tool and version.
     pub tool: String,
+    /// SHA-256 of the problem file.
+    pub input_sha256: String,
     /// What was swept.
     pub axis: Axis,
     /// Objective of every solve.
@@ -173,7 +176,7 @@ pub fn run_sweep(
 ) -> anyhow::Result<u8> {
     let values =
         study::parse_range(range).map_err(|e| anyhow::anyhow!("--{}: {e}", axis_flag(axis)))?;
-    let file = read_file(problem)?;
+    let (file, sha) = read_file(problem)?;
     crate::problem::validate::validate(&file).with_context(|| format!("{}", problem.display()))?;
     let pb = progress(values.len(), "sweep");
     let pts = study::sweep(&file, axis, &values, opts, &pb);
@@ -189,6 +192,7 @@ pub fn run_sweep(
         .all(|p| p.status == "converged" || p.status == "iteration_limit");
     let report = SweepReport {
         tool: format!("kickturn {}", env!("CARGO_PKG_VERSION")),
+        input_sha256: sha,
         axis,
         objective: opts.objective,
         points: pts,
@@ -221,6 +225,8 @@ fn axis_flag(a: Axis) -> &'static str {
 pub struct CompareReport {
     /// Tool and version.
     pub tool: String,
+    /// SHA-256 of each problem file, in argument order.
+    pub input_sha256: Vec<String>,
     /// One entry per problem file, in argument order.
     pub problems: Vec<(String, Point)>,
     /// Safety caution.
@@ -237,10 +243,11 @@ pub fn run_compare(
     if files.len() < 2 {
         bail!("compare: give at least two problem files");
     }
-    let parsed: Vec<ProblemFile> = files
+    let read: Vec<(ProblemFile, String)> = files
         .iter()
         .map(|p| read_file(p))
         .collect::<anyhow::Result<_>>()?;
+    let (parsed, shas): (Vec<ProblemFile>, Vec<String>) = read.into_iter().unzip();
     let pb = progress(files.len(), "compare");
     use rayon::prelude::*;
     let pts: Vec<Point> = parsed
@@ -262,6 +269,7 @@ pub fn run_compare(
         .all(|p| p.status == "converged" || p.status == "iteration_limit");
     let report = CompareReport {
         tool: format!("kickturn {}", env!("CARGO_PKG_VERSION")),
+        input_sha256: shas,
         problems: names.into_iter().zip(pts).collect(),
         caution: crate::report::CAUTION,
     };
@@ -340,6 +348,8 @@ pub struct TradeReport {
     pub tool: String,
     /// Problem name.
     pub problem: String,
+    /// SHA-256 of the problem file.
+    pub input_sha256: String,
     /// Objective of the re-solves (payload: factors are ∂payload; propellant: ∂margin).
     pub objective: Objective,
     /// Trade factors.
@@ -357,7 +367,7 @@ pub fn run_trade(
     json: bool,
     csv_path: Option<&PathBuf>,
 ) -> anyhow::Result<u8> {
-    let file = read_file(problem)?;
+    let (file, sha) = read_file(problem)?;
     crate::problem::validate::validate(&file).with_context(|| format!("{}", problem.display()))?;
     let pb = progress(2 * study::params(&file).len(), "trade");
     let factors = study::trade(&file, opts, &pb);
@@ -365,6 +375,7 @@ pub fn run_trade(
     let report = TradeReport {
         tool: format!("kickturn {}", env!("CARGO_PKG_VERSION")),
         problem: file.name.clone(),
+        input_sha256: sha,
         objective: opts.objective,
         ideal_isp_factors: (0..file.vehicle.stages.len())
             .map(|k| study::ideal_isp_factor(&file, k))
