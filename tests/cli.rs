@@ -300,7 +300,7 @@ fn fly_writes_figures_and_a_self_contained_html_report() {
     }
     let page = std::fs::read_to_string(&html).unwrap_or_default();
     assert!(page.starts_with("<!DOCTYPE html>"));
-    assert_eq!(page.matches("<svg").count(), 6, "six inline figures");
+    assert_eq!(page.matches("<svg").count(), 7, "seven inline figures");
     assert!(page.contains("Preliminary design only"));
     assert!(
         !page.contains("http://") || page.contains("http://www.w3.org"),

@@ -204,6 +204,11 @@ fn draw_flight(dir: &Path, r: &FlightReport, f: &Flight) -> Result<Vec<PathBuf>,
         r,
         &title("ΔV budget (Earth-relative)"),
     )?);
+    out.extend(phase_waterfall(
+        dir,
+        r,
+        &title("speed gained per arc (Earth-relative)"),
+    )?);
     let g = col(h, |s| s.gravity_loss_rel_mps);
     let d = col(h, |s| s.drag_loss_rel_mps);
     let st = col(h, |s| s.steering_loss_rel_mps);
@@ -297,6 +302,29 @@ fn budget_waterfall(dir: &Path, r: &FlightReport, title: &str) -> Result<Vec<Pat
             ("rotating-frame gain", b.rotating_frame_mps),
             ("Earth rotation at cutoff", b.earth_rotation_mps),
         ],
+        "inertial speed at cutoff",
+    )
+}
+
+/// Waterfall of the Earth-relative speed gained arc by arc (ideal minus that arc's losses), then
+/// the Earth-rotation term, ending at the inertial speed at cutoff.
+fn phase_waterfall(dir: &Path, r: &FlightReport, title: &str) -> Result<Vec<PathBuf>, PlotError> {
+    let mut steps: Vec<(&str, f64)> = r
+        .phases
+        .iter()
+        .map(|p| (p.label.as_str(), p.speed_change_mps))
+        .collect();
+    steps.push(("Earth rotation at cutoff", r.budget.earth_rotation_mps));
+    waterfall(
+        dir,
+        "budget_arcs",
+        title,
+        "speed [m/s]",
+        (
+            "Earth-relative speed at liftoff",
+            r.budget.initial_speed_mps,
+        ),
+        &steps,
         "inertial speed at cutoff",
     )
 }
