@@ -285,6 +285,7 @@ fn fly_writes_figures_and_a_self_contained_html_report() {
         "angles",
         "loads",
         "profile",
+        "budget_arcs",
         "budget",
         "losses",
     ] {
