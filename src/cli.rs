@@ -238,6 +238,10 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
                 (Some(r), _, _, _) => (Axis::Azimuth, r),
                 (_, Some(r), _, _) => (Axis::Inclination, r),
                 (_, _, Some(r), _) => (Axis::Altitude, r),
+                (_, _, _, Some(_)) if a.study.max_payload => bail!(
+                    "sweep: --payload and --max-payload contradict each other (the payload \
+                     mode solves for the payload)"
+                ),
                 (_, _, _, Some(r)) => (Axis::Payload, r),
                 _ => bail!("sweep: give one of --azimuth, --inclination, --altitude, --payload"),
             };

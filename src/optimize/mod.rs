@@ -440,11 +440,16 @@ fn solve_timed(p: &Problem, o: &SolveOptions, t0: Instant) -> Result<Solution, S
     let Some(q_lim) = p.limits.max_dynamic_pressure_pa else {
         return Ok(free);
     };
-    if free.eval.max_q_pa <= q_lim || free.convergence.status == SolveStatus::Infeasible {
+    // The payload mode does not hold a max-Q limit yet: the report shows it as exceeded.
+    if free.eval.max_q_pa <= q_lim
+        || free.convergence.status == SolveStatus::Infeasible
+        || o.objective == Objective::MaxPayload
+    {
         return Ok(free);
     }
     // Max-Q above the limit: hold it with a first-stage throttle bucket whose depth is one more
     // inner variable (condition: max-Q = limit), started from the unconstrained optimum.
+    let from_file = free.problem.program.bucket.is_some();
     let mut b = free.problem.clone();
     match b.program.bucket.as_mut() {
         None => b.program.bucket = Some(bucket_guess(&free.problem, q_lim)),
@@ -478,9 +483,13 @@ fn solve_timed(p: &Problem, o: &SolveOptions, t0: Instant) -> Result<Solution, S
         unconstrained: free.eval.max_q_pa,
         cost_kg: cost,
         cost_kg_per_unit: cost / ((free.eval.max_q_pa - q_lim) / 1e3),
-        how: "first-stage throttle bucket (depth solved, start and duration from the \
-              unconstrained q history)"
-            .into(),
+        how: if from_file {
+            "first-stage throttle bucket (depth solved; start and duration from the file)".into()
+        } else {
+            "first-stage throttle bucket (depth solved; start and duration from the \
+             unconstrained q history)"
+                .into()
+        },
     });
     Ok(sol)
 }

@@ -86,7 +86,13 @@ pub fn page(r: &FlightReport, f: &Flight, extra: &str) -> anyhow::Result<String>
         std::process::id(),
         r.input_sha256.get(..12).unwrap_or("x")
     ));
-    let files = super::figures::flight_figures(&tmp, r, f)?;
+    let files = match super::figures::flight_figures(&tmp, r, f) {
+        Ok(f) => f,
+        Err(e) => {
+            let _ = std::fs::remove_dir_all(&tmp);
+            return Err(e.into());
+        }
+    };
     let mut s = String::new();
     let _ = writeln!(
         s,

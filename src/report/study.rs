@@ -36,8 +36,9 @@ pub fn read_file(path: &Path) -> anyhow::Result<(ProblemFile, String)> {
 
 /// Columns of a point row: (header, value).
 fn row(label: &str, p: &Point) -> Vec<(String, String)> {
+    // The swept value gets its own column name: `payload_kg` is also a result column.
     let mut v = vec![
-        (label.to_string(), format!("{}", p.value)),
+        (format!("swept_{label}"), format!("{}", p.value)),
         ("status".into(), p.status.clone()),
     ];
     let f = |x: f64| format!("{x:.3}");
