@@ -348,3 +348,20 @@ fn sweep_keeps_every_point_in_json_and_csv() {
     assert_eq!(text.lines().count(), 4, "header and three rows");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn solve_json_is_byte_identical_across_runs_and_thread_counts() {
+    let run = |threads: &str| match Command::new(env!("CARGO_BIN_EXE_kickturn"))
+        .args(["solve", "problems/heavy-boosters-iss51.json", "--json"])
+        .env("RAYON_NUM_THREADS", threads)
+        .current_dir(root())
+        .output()
+    {
+        Ok(o) => o.stdout,
+        Err(e) => panic!("{e}"),
+    };
+    let one = run("1");
+    assert!(!one.is_empty());
+    assert_eq!(one, run("2"), "1 vs 2 threads");
+    assert_eq!(one, run("2"), "second run");
+}
