@@ -129,21 +129,9 @@ pub struct TradeArgs {
 pub struct SolveArgs {
     /// Problem file (JSON) with a `target`.
     pub problem: PathBuf,
-    /// Print one JSON object instead of the text report.
-    #[arg(long)]
-    pub json: bool,
-    /// Write the time history of the tuned ascent to this CSV file.
-    #[arg(long, value_name = "FILE")]
-    pub csv: Option<PathBuf>,
-    /// Time-history spacing for --csv, s.
-    #[arg(long, default_value_t = 1.0, value_name = "S")]
-    pub csv_step_s: f64,
-    /// Write the figures (PNG and SVG) into this folder.
-    #[arg(long, value_name = "DIR")]
-    pub plot: Option<PathBuf>,
-    /// Write a self-contained HTML report to this file.
-    #[arg(long, value_name = "FILE.html")]
-    pub report: Option<PathBuf>,
+    /// Outputs.
+    #[command(flatten)]
+    pub out: FlightOutputArgs,
     /// Write the problem with the tuned program to this file (atomic; never over the input).
     #[arg(long, value_name = "OUT.json")]
     pub write_program: Option<PathBuf>,
@@ -176,11 +164,9 @@ pub struct SolveArgs {
     pub perturb_seed: Option<u64>,
 }
 
-/// Arguments of `fly`.
+/// Output options of `fly` and `solve`.
 #[derive(Debug, clap::Args)]
-pub struct FlyArgs {
-    /// Problem file (JSON).
-    pub problem: PathBuf,
+pub struct FlightOutputArgs {
     /// Print one JSON object instead of the text report.
     #[arg(long)]
     pub json: bool,
@@ -196,6 +182,24 @@ pub struct FlyArgs {
     /// Write a self-contained HTML report to this file.
     #[arg(long, value_name = "FILE.html")]
     pub report: Option<PathBuf>,
+}
+
+impl FlightOutputArgs {
+    /// History spacing to record, s, when any output needs the time history.
+    pub fn record_step_s(&self) -> Option<f64> {
+        (self.csv.is_some() || self.plot.is_some() || self.report.is_some())
+            .then_some(self.csv_step_s)
+    }
+}
+
+/// Arguments of `fly`.
+#[derive(Debug, clap::Args)]
+pub struct FlyArgs {
+    /// Problem file (JSON).
+    pub problem: PathBuf,
+    /// Outputs.
+    #[command(flatten)]
+    pub out: FlightOutputArgs,
 }
 
 /// Exit code for success.
@@ -279,10 +283,10 @@ pub fn load(path: &Path) -> anyhow::Result<Problem> {
 }
 
 fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
-    if !(a.csv_step_s.is_finite() && a.csv_step_s > 0.0) {
+    if !(a.out.csv_step_s.is_finite() && a.out.csv_step_s > 0.0) {
         bail!(
             "--csv-step-s: must be a finite number > 0, got {}",
-            a.csv_step_s
+            a.out.csv_step_s
         );
     }
     let p = load(&a.problem)?;
@@ -290,25 +294,24 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
         eprintln!("{}: {u}", a.problem.display());
         return Ok(EXIT_NOT_REACHED);
     }
-    let wants_history = a.csv.is_some() || a.plot.is_some() || a.report.is_some();
     let opts = FlyOptions {
-        record_step_s: wants_history.then_some(a.csv_step_s),
+        record_step_s: a.out.record_step_s(),
         initial: None,
     };
     let flight = fly(&p, &opts);
     let report = FlightReport::new(&p, &flight);
-    if let Some(path) = &a.csv {
+    if let Some(path) = &a.out.csv {
         write_atomic(path, &a.problem, |w| {
             crate::report::csv_out::write_history(w, &flight.history).map_err(Into::into)
         })?;
     }
-    if let Some(dir) = &a.plot {
+    if let Some(dir) = &a.out.plot {
         crate::report::figures::flight_figures(dir, &report, &flight)?;
     }
-    if let Some(path) = &a.report {
+    if let Some(path) = &a.out.report {
         crate::report::html::write(path, &a.problem, &report, &flight, "")?;
     }
-    if a.json {
+    if a.out.json {
         emit(&format!("{}\n", serde_json::to_string_pretty(&report)?))?;
     } else {
         emit(&text::render(&report))?;

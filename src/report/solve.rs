@@ -217,10 +217,10 @@ fn active_constraints(
 
 /// Runs `kickturn solve`.
 pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
-    if !(a.csv_step_s.is_finite() && a.csv_step_s > 0.0) {
+    if !(a.out.csv_step_s.is_finite() && a.out.csv_step_s > 0.0) {
         bail!(
             "--csv-step-s: must be a finite number > 0, got {}",
-            a.csv_step_s
+            a.out.csv_step_s
         );
     }
     if !(a.max_wall_s.is_finite() && a.max_wall_s > 0.0) {
@@ -269,7 +269,7 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
                 return Ok(EXIT_BAD_INPUT);
             }
         };
-    if let Some(path) = &a.csv {
+    if let Some(path) = &a.out.csv {
         write_atomic(path, &a.problem, |w| {
             super::csv_out::write_history(w, &flight.history).map_err(Into::into)
         })?;
@@ -281,15 +281,15 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
             w.write_all(json.as_bytes()).map_err(Into::into)
         })?;
     }
-    if let Some(dir) = &a.plot {
+    if let Some(dir) = &a.out.plot {
         super::figures::flight_figures(dir, &out.flight, &flight)?;
     }
-    if let Some(path) = &a.report {
+    if let Some(path) = &a.out.report {
         let text = render(&out);
         let summary: String = text.split("\n\n").next().unwrap_or("").to_string();
         super::html::write(path, &a.problem, &out.flight, &flight, &summary)?;
     }
-    if a.json {
+    if a.out.json {
         emit(&format!("{}\n", serde_json::to_string_pretty(&out)?))?;
     } else {
         emit(&render(&out))?;
@@ -387,7 +387,7 @@ pub fn solve_and_report(
 }
 
 fn record_of(a: &SolveArgs) -> Option<f64> {
-    (a.csv.is_some() || a.plot.is_some() || a.report.is_some()).then_some(a.csv_step_s)
+    a.out.record_step_s()
 }
 
 /// The optimizer cuts the last burn on the target energy; the written program says so.
