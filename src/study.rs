@@ -135,10 +135,14 @@ pub fn sweep(
     opts: &SolveOptions,
     progress: &ProgressBar,
 ) -> Vec<Point> {
+    let fast = SolveOptions {
+        polish: false,
+        ..opts.clone()
+    };
     values
         .par_iter()
         .map(|v| {
-            let pt = solve_file(&apply(file, axis, *v), *v, opts);
+            let pt = solve_file(&apply(file, axis, *v), *v, &fast);
             progress.inc(1);
             pt
         })

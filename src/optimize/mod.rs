@@ -49,6 +49,9 @@ pub struct SolveOptions {
     pub scan: bool,
     /// What to optimize.
     pub objective: Objective,
+    /// Restart the outer Nelder–Mead once from its best point (default true; sweeps turn it off:
+    /// the restart refines the optimum by about a kilogram at about a third more trajectories).
+    pub polish: bool,
     /// Perturb the automatic start (law parameters ±30 %, kick grid ×0.7–1.3) with this seed:
     /// for robustness checks. `None`: the plain automatic start.
     pub perturb_seed: Option<u64>,
@@ -64,6 +67,7 @@ impl Default for SolveOptions {
             scan: true,
             perturb_seed: None,
             objective: Objective::LeastPropellant,
+            polish: true,
         }
     }
 }
@@ -164,6 +168,8 @@ pub enum SolveError {
 
 /// Evaluation context shared by the inner and outer searches.
 pub struct Ctx<'a> {
+    /// Restart the outer Nelder–Mead from its best point with a small simplex.
+    polish: bool,
     base: &'a Problem,
     /// Problem whose coasts are the shortest allowed (the file's, prepared).
     floor: &'a Problem,
@@ -589,6 +595,7 @@ fn run_stage(spec: StageSpec, o: &SolveOptions, t0: Instant) -> Solution {
     } = spec;
     let left = (o.max_wall_s - t0.elapsed().as_secs_f64()).max(0.0);
     let ctx = Ctx {
+        polish: o.polish,
         base,
         floor,
         target,

@@ -412,7 +412,9 @@ fn search(ctx: &Ctx, start: Point) -> Point {
                 .lock()
                 .map(|b| (b.outer.clone(), b.eval.max_abs() < inner::INNER_TOL))
                 .unwrap_or_default();
-            if !met_now {
+            // No restart without a feasible point, or when the caller trades the last
+            // kilogram for speed (sweeps).
+            if !met_now || (met && !outer.ctx.polish) {
                 return Ok(r1);
             }
             // From a start that meets the conditions: a restart with a smaller simplex; from

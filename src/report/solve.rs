@@ -255,6 +255,7 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         fix: a.fix.clone(),
         scan: !a.no_scan,
         perturb_seed: a.perturb_seed,
+        polish: true,
         objective: if a.max_payload {
             crate::optimize::Objective::MaxPayload
         } else {
