@@ -147,3 +147,58 @@ fn arbitrary_bytes_are_rejected_cleanly() {
     });
     assert!(result.is_ok(), "{result:?}");
 }
+
+#[test]
+fn mutated_problems_solve_within_their_budget() {
+    // A bounded solve on mutated problems: it must end (budget respected), never panic, and
+    // report finite numbers.
+    let docs = demos();
+    let cases: u32 = std::env::var("PROPTEST_SOLVE_CASES")
+        .ok()
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(12);
+    let mut runner = TestRunner::new_with_rng(
+        Config {
+            cases,
+            failure_persistence: None,
+            ..Config::default()
+        },
+        TestRng::from_seed(RngAlgorithm::ChaCha, &[11u8; 32]),
+    );
+    let strategy = (0..docs.len(), any::<prop::sample::Index>(), 0.5..2.0f64);
+    let result = runner.run(&strategy, |(k, idx, factor)| {
+        let mut paths = Vec::new();
+        number_paths(&docs[k], String::new(), &mut paths);
+        let path = idx.get(&paths).clone();
+        let mut d = docs[k].clone();
+        if let Some(slot) = d.pointer_mut(&path) {
+            let new = slot.as_f64().unwrap_or(1.0) * factor;
+            if let Some(n) = serde_json::Number::from_f64(new) {
+                *slot = Value::Number(n);
+            }
+        }
+        if let Ok(p) = Problem::from_json(&d.to_string()) {
+            let opts = kickturn::optimize::SolveOptions {
+                max_wall_s: 3.0,
+                max_trajectories: 300,
+                scan: false,
+                ..kickturn::optimize::SolveOptions::default()
+            };
+            let start = std::time::Instant::now();
+            if let Ok(s) = kickturn::optimize::solve(&p, &opts) {
+                assert!(
+                    s.convergence.trajectories <= 300 + 64,
+                    "budget: {}",
+                    s.convergence.trajectories
+                );
+                assert!(s.eval.propellant_used_kg.is_finite());
+            }
+            assert!(
+                start.elapsed().as_secs_f64() < 10.0,
+                "solve overran its budget"
+            );
+        }
+        Ok(())
+    });
+    assert!(result.is_ok(), "{result:?}");
+}

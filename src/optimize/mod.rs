@@ -464,8 +464,12 @@ fn solve_timed(p: &Problem, o: &SolveOptions, t0: Instant) -> Result<Solution, S
     }
     let mut inner_q = inner;
     inner_q.push(Var::BucketThrottle);
+    // The trajectory budget is for the whole solve: later stages get what is left.
     let held = SolveOptions {
         scan: false,
+        max_trajectories: o
+            .max_trajectories
+            .saturating_sub(free.convergence.trajectories),
         ..o.clone()
     };
     let mut sol = run_stage(
@@ -519,6 +523,9 @@ fn reserve_pass(
     set_aside_reserves(&mut base, Some(ideal));
     let again = SolveOptions {
         scan: false,
+        max_trajectories: o
+            .max_trajectories
+            .saturating_sub(first.convergence.trajectories),
         ..o.clone()
     };
     let _ = outer;
