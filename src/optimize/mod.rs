@@ -170,13 +170,8 @@ pub enum SolveError {
 pub struct Ctx<'a> {
     /// Restart the outer Nelder–Mead from its best point with a small simplex.
     polish: bool,
-    base: &'a Problem,
-    /// Problem whose coasts are the shortest allowed (the file's, prepared).
-    floor: &'a Problem,
-    target: Target,
-    inner: Vec<Var>,
-    outer: Vec<Var>,
-    q_limit: Option<f64>,
+    /// Problem, coast floor, target and variables of this stage.
+    spec: StageSpec<'a>,
     max_payload: bool,
     flights: AtomicUsize,
     start: Instant,
@@ -187,19 +182,25 @@ pub struct Ctx<'a> {
 impl Ctx<'_> {
     /// The problem with outer and inner variables set (normalized values).
     pub fn problem_with(&self, outer: &[f64], inner: &[f64]) -> Problem {
-        let mut p = self.base.clone();
+        let mut p = self.spec.base.clone();
         for (v, x) in self
+            .spec
             .outer
             .iter()
             .zip(outer)
-            .chain(self.inner.iter().zip(inner))
+            .chain(self.spec.inner.iter().zip(inner))
         {
             v.set(&mut p, x * v.scale());
         }
         // A coast written in the file is the shortest allowed (separation, ignition sequence):
         // the optimizer may only lengthen it.
-        for v in self.outer.iter().filter(|v| matches!(v, Var::Coast(_))) {
-            if let (Some(now), Some(min)) = (v.get(&p), v.get(self.floor)) {
+        for v in self
+            .spec
+            .outer
+            .iter()
+            .filter(|v| matches!(v, Var::Coast(_)))
+        {
+            if let (Some(now), Some(min)) = (v.get(&p), v.get(self.spec.floor)) {
                 if now < min {
                     v.set(&mut p, min);
                 }
@@ -213,8 +214,8 @@ impl Ctx<'_> {
         self.flights.fetch_add(1, Ordering::Relaxed);
         targeting::evaluate(
             &self.problem_with(outer, inner),
-            &self.target,
-            self.q_limit,
+            &self.spec.target,
+            self.spec.q_limit,
             self.max_payload,
         )
     }
@@ -580,7 +581,6 @@ fn bucket_guess(p: &Problem, q_lim: f64) -> crate::steering::Bucket {
     }
 }
 
-/// One solve of `base` with the given variables and optional held q limit.
 /// What one stage of a solve works on: the problem, the coast floor, target and variables.
 struct StageSpec<'a> {
     base: &'a Problem,
@@ -591,24 +591,12 @@ struct StageSpec<'a> {
     q_limit: Option<f64>,
 }
 
+/// One solve of a stage.
 fn run_stage(spec: StageSpec, o: &SolveOptions, t0: Instant) -> Solution {
-    let StageSpec {
-        base,
-        floor,
-        target,
-        inner,
-        outer,
-        q_limit,
-    } = spec;
     let left = (o.max_wall_s - t0.elapsed().as_secs_f64()).max(0.0);
     let ctx = Ctx {
         polish: o.polish,
-        base,
-        floor,
-        target,
-        inner,
-        outer,
-        q_limit,
+        spec,
         max_payload: o.objective == Objective::MaxPayload,
         flights: AtomicUsize::new(0),
         start: Instant::now(),
@@ -629,9 +617,10 @@ fn run_stage(spec: StageSpec, o: &SolveOptions, t0: Instant) -> Solution {
 fn finish(ctx: &Ctx, best: outer::Point) -> Solution {
     let problem = ctx.problem_with(&best.outer, &best.inner);
     let variables = ctx
+        .spec
         .inner
         .iter()
-        .chain(&ctx.outer)
+        .chain(&ctx.spec.outer)
         .map(|v| (*v, v.get(&problem).unwrap_or(f64::NAN)))
         .collect();
     let met = best.eval.reached && best.eval.max_abs() < 1e-3;
@@ -655,7 +644,7 @@ fn finish(ctx: &Ctx, best: outer::Point) -> Solution {
         iterations: best.iterations,
         trajectories: ctx.flights.load(Ordering::Relaxed),
         wall_s: ctx.start.elapsed().as_secs_f64(),
-        terminal_residuals: residual_names(&ctx.target, &best.eval),
+        terminal_residuals: residual_names(&ctx.spec.target, &best.eval),
     };
     Solution {
         problem,

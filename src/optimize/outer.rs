@@ -59,8 +59,12 @@ fn auto_laws(ctx: &Ctx, p: &mut Problem) {
         .iter()
         .map(|s| s.propellant_kg / s.engine.mdot_full_kg_s())
         .sum();
-    let circ = ctx.inner.iter().any(|v| matches!(v, Var::ApogeeCutoff(_)));
-    let last_owner = ctx.inner.iter().find_map(|v| match v {
+    let circ = ctx
+        .spec
+        .inner
+        .iter()
+        .any(|v| matches!(v, Var::ApogeeCutoff(_)));
+    let last_owner = ctx.spec.inner.iter().find_map(|v| match v {
         Var::Pitch0(a) => Some(*a),
         _ => None,
     });
@@ -81,8 +85,8 @@ fn auto_laws(ctx: &Ctx, p: &mut Problem) {
             lt.heading_rad = None;
         }
     }
-    let apo = ctx.target.apogee_alt_m;
-    for v in &ctx.inner {
+    let apo = ctx.spec.target.apogee_alt_m;
+    for v in &ctx.spec.inner {
         if let Var::ApogeeCutoff(_) = v {
             v.set(p, apo);
         }
@@ -93,6 +97,7 @@ fn auto_laws(ctx: &Ctx, p: &mut Problem) {
 /// cos i = cos φ sin ψ (spherical trigonometry; Kluever, Space Flight Dynamics, Ex. 3.3).
 fn heading_guess(ctx: &Ctx, p: &Problem, arc: usize) -> f64 {
     let inc = ctx
+        .spec
         .target
         .inclination_rad
         .unwrap_or(std::f64::consts::FRAC_PI_2);
@@ -132,7 +137,7 @@ impl Jitter {
 /// The automatic starting program, then the kick scan when enabled: the starting points of the
 /// outer search.
 pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
-    let mut p = ctx.base.clone();
+    let mut p = ctx.spec.base.clone();
     if o.scan {
         auto_laws(ctx, &mut p);
     }
@@ -149,7 +154,7 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
             }
         }
     }
-    for v in ctx.inner.iter().chain(&ctx.outer) {
+    for v in ctx.spec.inner.iter().chain(&ctx.spec.outer) {
         if let Var::Heading(arc) = v {
             if v.get(&p).is_none() || o.scan {
                 let h = heading_guess(ctx, &p, *arc);
@@ -157,13 +162,17 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
             }
         }
     }
-    let outer0 = ctx.normalized(&ctx.outer, &p);
-    let inner0 = ctx.normalized(&ctx.inner, &p);
-    let kick = ctx.outer.iter().position(|v| *v == Var::Kick);
+    let outer0 = ctx.normalized(&ctx.spec.outer, &p);
+    let inner0 = ctx.normalized(&ctx.spec.inner, &p);
+    let kick = ctx.spec.outer.iter().position(|v| *v == Var::Kick);
     // With an outer law, its initial pitch is scanned too when the plain kick scan finds no
     // start that meets the conditions: the feasible kick band of a low thrust-to-weight vehicle
     // moves with the upper-stage pitch.
-    let law = ctx.outer.iter().position(|v| matches!(v, Var::Pitch0(_)));
+    let law = ctx
+        .spec
+        .outer
+        .iter()
+        .position(|v| matches!(v, Var::Pitch0(_)));
     let shift = jitter.as_mut().map_or(1.0, |j| j.factor(0.3));
     let scan_row = |level: f64| -> Vec<Vec<f64>> {
         match (o.scan, kick) {
@@ -396,7 +405,7 @@ fn search(ctx: &Ctx, start: Point) -> Point {
         best: Mutex::new(start.clone()),
         count: Mutex::new(0),
     };
-    let result = if n == 1 && ctx.outer[0] == Var::Kick {
+    let result = if n == 1 && ctx.spec.outer[0] == Var::Kick {
         brent_kick(&outer, start.outer[0], start.kick_bracket)
     } else {
         // One restart from the best point with a smaller simplex: Nelder–Mead can stall on a
@@ -497,7 +506,7 @@ fn nelder_mead(
     for i in 0..n {
         let mut x = x0.to_vec();
         x[i] += if matches!(
-            outer.ctx.outer[i],
+            outer.ctx.spec.outer[i],
             Var::Coast(_) | Var::Azimuth | Var::Heading(_)
         ) {
             20.0 * step
