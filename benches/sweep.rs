@@ -5,9 +5,9 @@ use std::hint::black_box;
 use std::time::Duration;
 
 use criterion::{criterion_group, criterion_main, Criterion};
-use indicatif::ProgressBar;
+use kickturn::app::study::{sweep, Axis};
+use kickturn::observe::Silent;
 use kickturn::optimize::SolveOptions;
-use kickturn::study::{sweep, Axis};
 
 fn bench_sweep(c: &mut Criterion) {
     let path =
@@ -23,15 +23,7 @@ fn bench_sweep(c: &mut Criterion) {
     group.sample_size(10);
     group.measurement_time(Duration::from_secs(60));
     group.bench_function("azimuth_37_points_medium", |b| {
-        b.iter(|| {
-            sweep(
-                black_box(&file),
-                Axis::Azimuth,
-                &values,
-                &opts,
-                &ProgressBar::hidden(),
-            )
-        })
+        b.iter(|| sweep(black_box(&file), Axis::Azimuth, &values, &opts, &Silent))
     });
     group.finish();
 }

@@ -1,5 +1,8 @@
-//! kickturn command-line entry point: everything lives in the library (`kickturn::cli`).
+//! kickturn command-line entry point: the command line lives in the binary's own modules
+//! ([`cli`]); everything it computes comes from the library.
+
+mod cli;
 
 fn main() -> std::process::ExitCode {
-    kickturn::cli::main_with_args(std::env::args_os())
+    cli::main_with_args(std::env::args_os())
 }

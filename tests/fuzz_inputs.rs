@@ -7,8 +7,8 @@ use proptest::prelude::*;
 use proptest::test_runner::{Config, RngAlgorithm, TestRng, TestRunner};
 use serde_json::Value;
 
+use kickturn::app::outcome::FlightReport;
 use kickturn::problem::Problem;
-use kickturn::report::FlightReport;
 use kickturn::sim::{fly, FlyOptions};
 
 fn demos() -> Vec<Value> {

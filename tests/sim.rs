@@ -1,8 +1,8 @@
 //! Simulator behaviour: event location, smoothness in the program's parameters, termination
 //! reasons, limits, and the unreachable-inclination report.
 
+use kickturn::app::outcome::{FlightReport, Status};
 use kickturn::problem::Problem;
-use kickturn::report::{FlightReport, Status};
 use kickturn::sim::{fly, EventKind, Flight, FlyOptions};
 
 fn demo(name: &str) -> Problem {

@@ -5,10 +5,10 @@
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-use kickturn::optimize::{objective, solve, SolveOptions, SolveStatus, Var};
+use kickturn::app::outcome::FlightReport;
+use kickturn::optimize::{objective, solve, Param, SolveOptions, SolveStatus};
 use kickturn::physics::environment::{AtmosphereModel, EarthModel, Environment};
 use kickturn::problem::{Insertion, Problem, Target};
-use kickturn::report::FlightReport;
 use kickturn::sim::{fly, FlyOptions};
 
 fn root() -> PathBuf {
@@ -128,14 +128,14 @@ fn linear_tangent_optimum_matches_the_closed_form() {
         Err(e) => panic!("{e}"),
     };
     assert_eq!(sol.convergence.status, SolveStatus::Converged);
-    let value = |v: Var| {
+    let value = |v: Param| {
         sol.variables
             .iter()
             .find(|(w, _)| *w == v)
             .map_or(f64::NAN, |(_, x)| *x)
     };
-    let theta0 = value(Var::Pitch0(0));
-    let rate = value(Var::TanRate(0));
+    let theta0 = value(Param::Pitch0(0));
+    let rate = value(Param::TanRate(0));
     let flight = fly(&sol.problem, &FlyOptions::default());
     let rel = |got: f64, want: f64| ((got - want) / want).abs();
     assert!(
@@ -230,12 +230,12 @@ fn the_optimum_is_a_minimum_along_the_kick() {
     let k = sol
         .variables
         .iter()
-        .find(|(v, _)| *v == Var::Kick)
+        .find(|(v, _)| *v == Param::Kick)
         .map_or(f64::NAN, |(_, x)| *x);
     let best = objective(&sol.eval);
     for dk_deg in [-0.2, -0.05, 0.05, 0.2] {
         let mut p = sol.problem.clone();
-        Var::Kick.set(&mut p, k + f64::to_radians(dk_deg));
+        Param::Kick.set(&mut p, k + f64::to_radians(dk_deg));
         let s = match solve(
             &p,
             &SolveOptions {

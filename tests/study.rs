@@ -1,10 +1,10 @@
 //! Trade-study checks: azimuth sweep physics, trade factors against the rocket equation, and
 //! sweeps over infeasible ranges.
 
-use indicatif::ProgressBar;
+use kickturn::app::study::{self, Axis, PointStatus, Traded};
+use kickturn::observe::Silent;
 use kickturn::optimize::{Objective, SolveOptions};
 use kickturn::problem::file::ProblemFile;
-use kickturn::study::{self, Axis, Param};
 
 fn file(name: &str) -> ProblemFile {
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
@@ -25,13 +25,7 @@ fn payload_opts() -> SolveOptions {
 fn azimuth_sweep_peaks_due_east_and_keeps_the_pad_speed() {
     let f = file("medium-2stage-leo200.json");
     let values = [30.0, 60.0, 90.0, 120.0, 150.0];
-    let pts = study::sweep(
-        &f,
-        Axis::Azimuth,
-        &values,
-        &payload_opts(),
-        &ProgressBar::hidden(),
-    );
+    let pts = study::sweep(&f, Axis::Azimuth, &values, &payload_opts(), &Silent);
     assert_eq!(pts.len(), values.len());
     let reports: Vec<_> = pts
         .iter()
@@ -77,15 +71,15 @@ fn azimuth_sweep_peaks_due_east_and_keeps_the_pad_speed() {
 #[test]
 fn trade_factors_agree_with_the_rocket_equation() {
     let f = file("medium-2stage-leo200.json");
-    let factors = study::trade(&f, &payload_opts(), &ProgressBar::hidden());
-    let get = |p: Param| {
+    let factors = study::trade(&f, &payload_opts(), &Silent);
+    let get = |p: Traded| {
         factors
             .iter()
             .find(|x| x.param == p)
             .map_or(f64::NAN, |x| x.factor)
     };
     // Top stage: a kilogram of dry mass is a kilogram of payload (exact for a payload objective).
-    let top_dry = get(Param::DryMass { stage: 1 });
+    let top_dry = get(Traded::DryMass { stage: 1 });
     assert!(
         (top_dry + 1.0).abs() < 0.01,
         "top-stage dry-mass factor {top_dry}"
@@ -93,19 +87,19 @@ fn trade_factors_agree_with_the_rocket_equation() {
     // Source: ../shared/domain.md §3(g), ideal exchange ratios ∂P/∂Isp_k [der]; losses change
     // the values a little, not the sign or the order of magnitude.
     for k in 0..2 {
-        let got = get(Param::Isp { stage: k });
+        let got = get(Traded::Isp { stage: k });
         let ideal = study::ideal_isp_factor(&f, k);
         assert!(
             got > 0.0 && (got / ideal - 1.0).abs() < 0.2,
             "stage {k} Isp: {got} vs {ideal}"
         );
     }
-    let low_dry = get(Param::DryMass { stage: 0 });
+    let low_dry = get(Traded::DryMass { stage: 0 });
     assert!(
         low_dry < 0.0 && low_dry > -0.5,
         "first-stage dry-mass factor {low_dry}"
     );
-    assert!(get(Param::Drag) < 0.0);
+    assert!(get(Traded::Drag) < 0.0);
 }
 
 #[test]
@@ -130,11 +124,14 @@ fn a_sweep_into_infeasible_payloads_keeps_every_point_with_its_status() {
         max_wall_s: 20.0,
         ..SolveOptions::default()
     };
-    let pts = study::sweep(&f, Axis::Payload, &values, &opts, &ProgressBar::hidden());
+    let pts = study::sweep(&f, Axis::Payload, &values, &opts, &Silent);
     assert_eq!(pts.len(), 2);
-    assert_eq!(pts[0].status, "converged");
+    assert_eq!(pts[0].status, PointStatus::Converged);
     assert!(
-        pts[1].status == "infeasible" || pts[1].status == "budget_exhausted",
+        matches!(
+            pts[1].status,
+            PointStatus::Infeasible | PointStatus::BudgetExhausted
+        ),
         "{}",
         pts[1].status
     );

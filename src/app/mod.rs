@@ -1,0 +1,114 @@
+//! The application layer: what each command computes, as library functions that take a problem
+//! ([`Case`]) and typed options and return typed outcomes.
+//!
+//! - [`fly`]: fly the program as written ([`fly::FlyRun`]);
+//! - [`solve`]: tune the program for the least propellant (or the largest payload), write it back
+//!   to the file form and fly it ([`solve::SolveRun`], reserves and margin);
+//! - [`study`]: sweeps, comparisons and trade factors built on `solve`, solved in parallel;
+//! - [`outcome`]: the rules that judge a flight (orbit status, insertion tolerance) and the
+//!   [`outcome::FlightReport`] every renderer starts from.
+//!
+//! Owns the outcome rules; owns no equation (those are in [`crate::core`]) and no formatting (in
+//! [`crate::render`]). Never prints, exits or touches a file: progress goes to an
+//! [`Observer`](crate::core::observe::Observer), results come back as values, and each outcome
+//! says whether it succeeded (the command line maps that to an exit code).
+
+pub mod fly;
+pub mod outcome;
+pub mod solve;
+pub mod study;
+
+use crate::core::error::{ProblemError, UnreachableInclination};
+use crate::core::optimize::SolveError;
+use crate::core::problem::{self, validate, Problem, ProblemFile};
+
+pub use crate::core::observe::{Observer, Silent};
+
+/// Tool name and version, as every document states it.
+pub fn tool_version() -> String {
+    format!("kickturn {}", env!("CARGO_PKG_VERSION"))
+}
+
+/// Why a command could not produce its outcome.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum Error {
+    /// The problem is malformed or invalid (the message names the field).
+    #[error(transparent)]
+    Problem(#[from] ProblemError),
+    /// The target inclination cannot be reached by a direct ascent from the site. Not bad input:
+    /// the command ran and reports that the target is out of reach.
+    #[error(transparent)]
+    Unreachable(#[from] UnreachableInclination),
+    /// The problem cannot be posed to the optimizer (no target, missing controls).
+    #[error(transparent)]
+    Solve(#[from] SolveError),
+    /// The tuned program, written back into the problem file, does not validate.
+    #[error("the tuned program does not validate when written back into the problem file: {0}")]
+    WriteBack(ProblemError),
+    /// An option is out of its range.
+    #[error("{option}: {reason}")]
+    Option {
+        /// Option name as the library spells it (the command line adds its flag).
+        option: &'static str,
+        /// What is wrong.
+        reason: String,
+    },
+}
+
+impl Error {
+    /// True for input the user must correct (everything except an unreachable target).
+    pub fn is_bad_input(&self) -> bool {
+        !matches!(self, Error::Unreachable(_))
+    }
+}
+
+/// A problem as the application layer takes it: the file form (kept for write-back and studies)
+/// and the validated problem.
+#[derive(Debug, Clone)]
+pub struct Case {
+    /// The problem file as parsed.
+    pub file: ProblemFile,
+    /// The validated problem (with the SHA-256 of the text it came from, when known).
+    pub problem: Problem,
+}
+
+impl Case {
+    /// Parses and validates problem JSON text; the problem carries the text's SHA-256.
+    pub fn from_json(text: &str) -> Result<Case, ProblemError> {
+        let file = problem::parse(text)?;
+        let mut problem = validate::validate(&file)?;
+        problem.input_sha256 = problem::sha256_hex(text.as_bytes());
+        Ok(Case { file, problem })
+    }
+
+    /// Validates a problem file mirror (no input hash).
+    pub fn from_file(file: ProblemFile) -> Result<Case, ProblemError> {
+        let problem = validate::validate(&file)?;
+        Ok(Case { file, problem })
+    }
+
+    /// The problem, or why a direct ascent cannot reach its inclination (dog legs allowed by
+    /// `launch.allow_dog_leg` pass).
+    pub fn reachable(&self) -> Result<&Problem, UnreachableInclination> {
+        match self
+            .problem
+            .unreachable_inclination()
+            .filter(|_| !self.problem.allow_dog_leg)
+        {
+            Some(u) => Err(u),
+            None => Ok(&self.problem),
+        }
+    }
+}
+
+/// Checks that an optional spacing is a finite number > 0.
+fn check_step(option: &'static str, v: Option<f64>) -> Result<(), Error> {
+    match v {
+        Some(s) if !(s.is_finite() && s > 0.0) => Err(Error::Option {
+            option,
+            reason: format!("must be a finite number > 0, got {s}"),
+        }),
+        _ => Ok(()),
+    }
+}

@@ -1,0 +1,246 @@
+//! The outcome of a flight and the rules that judge it: orbit status ([`Status`]: the perigee
+//! threshold), the target deviation against the one insertion tolerance the optimizer also uses
+//! ([`APSIS_TOL_KM`], [`INCLINATION_TOL_DEG`]), and [`FlightReport`], the typed document every
+//! renderer and the `--json` output start from. Nothing here formats text.
+
+use nalgebra::Vector3;
+use serde::Serialize;
+
+use crate::core::budget::{budget, phase_budgets, Bookkeeping, Budget, PhaseBudget};
+use crate::core::optimize::targeting;
+use crate::core::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
+use crate::core::physics::orbit::Elements;
+use crate::core::problem::Problem;
+use crate::core::sim::{EndReason, EventRecord, Extremum, Flight, SimStats};
+
+/// Caution printed with every report.
+pub const CAUTION: &str = "Preliminary design only: not for flight software, range safety or \
+licensing. Defer to local codes and licensed practice.";
+
+/// Outcome of a flight.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Status {
+    /// Perigee at or above the orbit threshold.
+    Orbit,
+    /// Program completed but perigee below the threshold.
+    Suborbital,
+    /// Hit the ground.
+    GroundImpact,
+    /// Flight-time limit reached.
+    TimeLimit,
+    /// Integrator failure or runaway events.
+    IntegrationFailure,
+    /// A burn had no stage left.
+    NoStageLeft,
+}
+
+/// Osculating two-body orbit at cutoff; apsis altitudes are radius − 6378.137 km.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct OrbitSummary {
+    /// Perigee altitude (r_p − a_WGS84), km.
+    pub perigee_alt_km: f64,
+    /// Apogee altitude (r_a − a_WGS84), km; null when unbound.
+    pub apogee_alt_km: Option<f64>,
+    /// Inclination, deg.
+    pub inclination_deg: f64,
+    /// Altitude at cutoff (r − a_WGS84), km.
+    pub insertion_alt_km: f64,
+    /// Inertial speed at cutoff, m/s.
+    pub insertion_speed_mps: f64,
+    /// Inertial flight-path angle at cutoff, deg.
+    pub flight_path_angle_deg: f64,
+    /// Eccentricity.
+    pub eccentricity: f64,
+}
+
+/// Echo of the target orbit.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct TargetSummary {
+    /// Perigee altitude, km.
+    pub perigee_alt_km: f64,
+    /// Apogee altitude, km.
+    pub apogee_alt_km: f64,
+    /// Inclination, deg.
+    pub inclination_deg: Option<f64>,
+}
+
+/// Orbit reached minus target (km, deg).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct TargetDeviation {
+    /// Perigee altitude error, km.
+    pub perigee_km: f64,
+    /// Apogee altitude error, km (null when the orbit is unbound).
+    pub apogee_km: Option<f64>,
+    /// Inclination error, deg (null without a target inclination).
+    pub inclination_deg: Option<f64>,
+    /// Within the insertion tolerances: apsides ±0.1 km, inclination ±0.001°.
+    pub met: bool,
+}
+
+/// Insertion tolerance on apsis altitudes, km (the optimizer's, [`targeting::INSERTION_TOL`]).
+pub const APSIS_TOL_KM: f64 = targeting::APSIS_TOL_KM;
+/// Insertion tolerance on inclination, deg (the optimizer's, [`targeting::INSERTION_TOL`]).
+pub const INCLINATION_TOL_DEG: f64 = targeting::ANGLE_TOL_DEG;
+
+fn deviation(o: &OrbitSummary, t: &TargetSummary) -> TargetDeviation {
+    let dp = o.perigee_alt_km - t.perigee_alt_km;
+    let da = o.apogee_alt_km.map(|a| a - t.apogee_alt_km);
+    let di = t.inclination_deg.map(|i| o.inclination_deg - i);
+    TargetDeviation {
+        perigee_km: dp,
+        apogee_km: da,
+        inclination_deg: di,
+        met: dp.abs() <= APSIS_TOL_KM
+            && da.is_some_and(|a| a.abs() <= APSIS_TOL_KM)
+            && di.is_none_or(|i| i.abs() <= INCLINATION_TOL_DEG),
+    }
+}
+
+/// Everything `fly` reports (the `--json` document).
+#[derive(Debug, Clone, Serialize)]
+pub struct FlightReport {
+    /// Tool name and version.
+    pub tool: String,
+    /// SHA-256 of the problem file.
+    pub input_sha256: String,
+    /// Problem name.
+    pub problem: String,
+    /// Vehicle name.
+    pub vehicle: String,
+    /// Launch site name.
+    pub site: String,
+    /// Launch azimuth flown, deg from north.
+    pub azimuth_deg: f64,
+    /// Outcome.
+    pub status: Status,
+    /// Why the flight ended.
+    pub end: EndReason,
+    /// Budget, Earth-relative bookkeeping.
+    pub budget: Budget,
+    /// Budget, inertial bookkeeping.
+    pub budget_inertial: Budget,
+    /// Per-arc budgets (Earth-relative bookkeeping).
+    pub phases: Vec<PhaseBudget>,
+    /// Osculating orbit at cutoff.
+    pub orbit: OrbitSummary,
+    /// Target orbit, if given.
+    pub target: Option<TargetSummary>,
+    /// Orbit reached minus target, if a target is given.
+    pub target_deviation: Option<TargetDeviation>,
+    /// Propellant left in the current and later stages, kg.
+    pub propellant_remaining_kg: f64,
+    /// Mass at cutoff, kg.
+    pub final_mass_kg: f64,
+    /// Maximum dynamic pressure, Pa.
+    pub max_dynamic_pressure_pa: f64,
+    /// Max-Q details.
+    pub max_q: Option<Extremum>,
+    /// Maximum sensed axial acceleration, g0.
+    pub max_axial_accel_g: f64,
+    /// Limit on dynamic pressure, Pa, if given.
+    pub max_dynamic_pressure_limit_pa: Option<f64>,
+    /// Limit on axial acceleration, g0, if given.
+    pub max_axial_accel_limit_g: Option<f64>,
+    /// Events in time order.
+    pub events: Vec<EventRecord>,
+    /// Integrator work.
+    pub stats: SimStats,
+    /// Conventions used in this report.
+    pub conventions: Vec<&'static str>,
+    /// Safety caution.
+    pub caution: &'static str,
+}
+
+/// Conventions stated in every report.
+pub const CONVENTIONS: [&str; 5] = [
+    "apsis and insertion altitudes are radius minus 6378.137 km (WGS-84 equatorial radius)",
+    "orbital elements are osculating two-body elements (GM = 3.986004418e14) at cutoff",
+    "event-table altitudes are geodetic (WGS-84); flight-path angles are Earth-relative unless named inertial",
+    "budget: losses projected on the Earth-relative velocity; budget_inertial: on the inertial velocity",
+    "orbit.flight_path_angle_deg is measured from the plane normal to the geocentric radius; event and history flight-path angles from the local (ellipsoid) horizontal",
+];
+
+/// Osculating orbit of the final state.
+pub fn orbit_summary(y: &crate::core::sim::dynamics::State) -> OrbitSummary {
+    let r = Vector3::new(y[0], y[1], y[2]);
+    let v = Vector3::new(y[3], y[4], y[5]);
+    let el = Elements::from_state(&r, &v, WGS84_GM_M3_S2);
+    let sin_g = r.dot(&v) / (r.norm() * v.norm()).max(1e-12);
+    OrbitSummary {
+        perigee_alt_km: el.perigee_alt_m() / 1e3,
+        apogee_alt_km: el
+            .apogee_radius_m
+            .is_finite()
+            .then(|| el.apogee_alt_m() / 1e3),
+        inclination_deg: el.inclination_rad.to_degrees(),
+        insertion_alt_km: (r.norm() - WGS84_A_M) / 1e3,
+        insertion_speed_mps: v.norm(),
+        flight_path_angle_deg: sin_g.clamp(-1.0, 1.0).asin().to_degrees(),
+        eccentricity: el.eccentricity,
+    }
+}
+
+fn status(p: &Problem, f: &Flight, orbit: &OrbitSummary) -> Status {
+    match f.end {
+        EndReason::GroundImpact => Status::GroundImpact,
+        EndReason::TimeLimit => Status::TimeLimit,
+        EndReason::IntegrationFailure { .. } | EndReason::EventLimit => Status::IntegrationFailure,
+        EndReason::NoStageLeft { .. } => Status::NoStageLeft,
+        EndReason::Completed => {
+            if orbit.perigee_alt_km * 1e3 >= p.limits.min_orbit_perigee_alt_m {
+                Status::Orbit
+            } else {
+                Status::Suborbital
+            }
+        }
+    }
+}
+
+impl FlightReport {
+    /// Builds the report of flight `f` of problem `p`.
+    pub fn new(p: &Problem, f: &Flight) -> Self {
+        let env = &p.environment;
+        let orbit = orbit_summary(&f.y1);
+        let target = p.target.map(|t| TargetSummary {
+            perigee_alt_km: t.perigee_alt_m / 1e3,
+            apogee_alt_km: t.apogee_alt_m / 1e3,
+            inclination_deg: t.inclination_rad.map(f64::to_degrees),
+        });
+        FlightReport {
+            tool: format!("kickturn {}", env!("CARGO_PKG_VERSION")),
+            input_sha256: p.input_sha256.clone(),
+            problem: p.name.clone(),
+            vehicle: p.vehicle.name.clone(),
+            site: p.site.name.clone(),
+            azimuth_deg: p.azimuth_rad.to_degrees(),
+            status: status(p, f, &orbit),
+            end: f.end.clone(),
+            budget: budget(env, &f.y0, &f.y1, Bookkeeping::EarthRelative),
+            budget_inertial: budget(env, &f.y0, &f.y1, Bookkeeping::Inertial),
+            phases: phase_budgets(env, &f.phases),
+            orbit,
+            target_deviation: target.as_ref().map(|t| deviation(&orbit, t)),
+            target,
+            propellant_remaining_kg: f.propellant_remaining_kg,
+            final_mass_kg: f.y1[crate::core::sim::dynamics::ix::M],
+            max_dynamic_pressure_pa: f.max_q.map_or(0.0, |m| m.value),
+            max_q: f.max_q,
+            max_axial_accel_g: f.max_axial_accel.map_or(0.0, |m| m.value),
+            max_dynamic_pressure_limit_pa: p.limits.max_dynamic_pressure_pa,
+            max_axial_accel_limit_g: p
+                .limits
+                .max_axial_accel_mps2
+                .map(|a| a / crate::core::physics::earth::G0_MPS2),
+            events: f.events.clone(),
+            stats: f.stats,
+            conventions: CONVENTIONS.to_vec(),
+            caution: CAUTION,
+        }
+    }
+
+    /// True when the vehicle reached orbit.
+    pub fn reached_orbit(&self) -> bool {
+        self.status == Status::Orbit
+    }
+}

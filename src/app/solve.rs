@@ -1,0 +1,415 @@
+//! `solve`: tune the program, write it back into the file form, fly it as written, and report it
+//! like `fly` plus the tuned program, the convergence report, reserves and margin.
+//!
+//! The reserve and margin rules live here: the flight performance reserve is a share of the ideal
+//! ΔV converted to mass at the last stage's exhaust velocity (Tsiolkovsky), plus the mass form,
+//! residuals and disposal propellant; the margin is what is left after them.
+
+use serde::Serialize;
+
+use super::outcome::{FlightReport, Status};
+use super::{check_step, Case, Error};
+use crate::core::observe::Observer;
+use crate::core::optimize::{solve_observed, Convergence, SolveOptions, SolveStatus};
+use crate::core::problem::file::{AscentFile, LaunchFile, ProblemFile};
+use crate::core::problem::{validate, Problem};
+use crate::core::sim::{fly, EventKind, Flight, FlyOptions};
+
+/// The tuned program in the problem file's own syntax.
+#[derive(Debug, Clone, Serialize)]
+pub struct TunedProgram {
+    /// `launch` section (changed only when the azimuth was tuned).
+    pub launch: LaunchFile,
+    /// `ascent` section with the tuned values.
+    pub ascent: AscentFile,
+}
+
+/// One tuned variable.
+#[derive(Debug, Clone, Serialize)]
+pub struct Tuned {
+    /// JSON path of the field.
+    pub field: String,
+    /// Value in the field's unit.
+    pub value: f64,
+}
+
+/// Everything `solve` reports (the `--json` document): the `fly` report of the tuned program plus
+/// the solve's own fields.
+#[derive(Debug, Clone, Serialize)]
+pub struct SolveReport {
+    /// The flight of the tuned program.
+    #[serde(flatten)]
+    pub flight: FlightReport,
+    /// Tuned program, ready to paste into the problem file.
+    pub program: TunedProgram,
+    /// Tuned variables.
+    pub tuned: Vec<Tuned>,
+    /// Convergence report.
+    pub convergence: Convergence,
+    /// Propellant burned, kg.
+    pub propellant_used_kg: f64,
+    /// Payload, kg.
+    pub payload_kg: f64,
+    /// Propellant left after cutoff, kg.
+    pub propellant_remaining_kg: f64,
+    /// Reserves deducted from it, kg.
+    pub reserves: ReservesReport,
+    /// Margin after reserves, kg (negative: the reserves are not covered).
+    pub margin_kg: f64,
+    /// The margin as ΔV of the last stage at cutoff: c·ln(m_f / (m_f − |margin|)), with the
+    /// margin's sign, m/s.
+    pub margin_mps: f64,
+    /// Path limits that are active on the solved ascent.
+    pub active_constraints: Vec<String>,
+    /// Limits held by the optimizer, with their cost.
+    pub constraint_costs: Vec<crate::core::optimize::ActiveConstraint>,
+    /// Richer programs tried with `--explore` and what they save.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub richer_programs: Vec<Richer>,
+    /// When the target energy was not reached: the speed still missing at the end of the best
+    /// program found, √(v² + 2ΔE) − v, m/s (null when reached).
+    pub shortfall_mps: Option<f64>,
+}
+
+/// A richer program and its saving over the default one.
+#[derive(Debug, Clone, Serialize)]
+pub struct Richer {
+    /// What is added.
+    pub variant: String,
+    /// How to ask for it.
+    pub how: String,
+    /// Propellant saved (payload mode: payload gained), kg.
+    pub saves_kg: f64,
+    /// The saving as last-stage ΔV at cutoff, m/s.
+    pub saves_mps: f64,
+    /// Outcome of that solve.
+    pub status: SolveStatus,
+}
+
+/// Solves the richer variants of `p` and compares them with `base` (objective value, kg).
+fn explore(
+    p: &Problem,
+    opts: &SolveOptions,
+    base: f64,
+    m_f: f64,
+    c: f64,
+    obs: &dyn Observer,
+) -> Vec<Richer> {
+    use crate::core::steering::{Arc, LinearTangent, Steering};
+    let mut variants: Vec<(String, String, Problem, SolveOptions)> = Vec::new();
+    let mut free = opts.clone();
+    free.free
+        .extend(["pitch_rate".to_string(), "rise_time".to_string()]);
+    variants.push((
+        "free pitch-over rate and vertical rise".into(),
+        "--free pitch_rate,rise_time".into(),
+        p.clone(),
+        free,
+    ));
+    let mut per_arc = p.clone();
+    let mut changed = false;
+    for a in per_arc.program.arcs.iter_mut() {
+        if let Arc::Burn { steering, .. } = a {
+            if *steering == Steering::LinearTangentContinued {
+                *steering = Steering::LinearTangent(LinearTangent {
+                    pitch0_rad: 10f64.to_radians(),
+                    tan_rate_per_s: 0.002,
+                    heading_rad: None,
+                    yaw_rate_per_s: 0.0,
+                });
+                changed = true;
+            }
+        }
+    }
+    if changed {
+        variants.push((
+            "a separate linear tangent law on each upper burn".into(),
+            "write \"linear_tangent\" instead of \"linear_tangent_continued\"".into(),
+            per_arc,
+            opts.clone(),
+        ));
+    }
+    variants
+        .into_iter()
+        .map(|(variant, how, q, o)| {
+            let s = solve_observed(&q, &o, obs);
+            let (value, status) = s.as_ref().map_or((base, SolveStatus::Infeasible), |s| {
+                (
+                    crate::core::optimize::objective(&s.eval),
+                    s.convergence.status,
+                )
+            });
+            let saves = base - value;
+            Richer {
+                variant,
+                how,
+                saves_kg: saves,
+                saves_mps: c * ((m_f + saves.max(-0.9 * m_f)) / m_f).ln(),
+                status,
+            }
+        })
+        .collect()
+}
+
+/// Reserves deducted from the propellant left, kg.
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct ReservesReport {
+    /// Flight performance reserve (percentage of ideal ΔV converted at the last stage's Isp, plus
+    /// the mass form), kg.
+    pub fpr_kg: f64,
+    /// Unusable residuals, kg.
+    pub residuals_kg: f64,
+    /// Disposal propellant, kg.
+    pub disposal_kg: f64,
+}
+
+impl ReservesReport {
+    /// All reserves, kg.
+    pub fn total_kg(&self) -> f64 {
+        self.fpr_kg + self.residuals_kg + self.disposal_kg
+    }
+}
+
+/// Reserves of `p` for a flight with ideal ΔV `ideal_mps` ending at mass `m_f` with exhaust
+/// velocity `c` on the last stage: the ΔV reserve costs `m_f (1 − e^(−Δv/c))` (Tsiolkovsky).
+fn reserves(p: &Problem, ideal_mps: f64, m_f: f64, c: f64) -> ReservesReport {
+    let r = &p.reserves;
+    let dv = r.fpr_fraction_dv * ideal_mps;
+    ReservesReport {
+        fpr_kg: m_f * (1.0 - (-dv / c).exp()) + r.fpr_kg,
+        residuals_kg: r.residuals_kg,
+        disposal_kg: r.disposal_kg,
+    }
+}
+
+/// Speed missing at the end state to reach the target energy, m/s.
+fn shortfall_mps(p: &Problem, y: &crate::core::sim::dynamics::State) -> Option<f64> {
+    let t = p.target?;
+    let r = nalgebra::Vector3::new(y[0], y[1], y[2]);
+    let v = nalgebra::Vector3::new(y[3], y[4], y[5]);
+    let de = t.energy_j_kg(&p.environment) - p.environment.specific_energy_j_kg(&r, &v);
+    (de > 1e-6 * t.energy_j_kg(&p.environment).abs())
+        .then(|| (v.norm_squared() + 2.0 * de).sqrt() - v.norm())
+}
+
+fn active_constraints(
+    p: &Problem,
+    r: &FlightReport,
+    accel_limited: bool,
+    held: &[crate::core::optimize::ActiveConstraint],
+) -> Vec<String> {
+    let mut v = Vec::new();
+    if accel_limited {
+        v.push("max_axial_accel_g: the throttle holds the limit".to_string());
+    }
+    let solved = matches!(r.status, Status::Orbit) && r.target_deviation.is_some_and(|d| d.met);
+    for c in held.iter().filter(|_| solved) {
+        v.push(format!(
+            "{}: held at {:.1} kPa by a {}; the unconstrained optimum reached {:.1} kPa; cost \
+             {:.1} kg ({:.1} kg per kPa)",
+            c.limit,
+            c.value / 1e3,
+            c.how,
+            c.unconstrained / 1e3,
+            c.cost_kg,
+            c.cost_kg_per_unit
+        ));
+    }
+    if let Some(q) = p.limits.max_dynamic_pressure_pa {
+        if r.max_dynamic_pressure_pa > q * (1.0 + 1e-6) {
+            v.push(format!(
+                "max_dynamic_pressure_pa: EXCEEDED ({:.2} kPa > {:.2} kPa)",
+                r.max_dynamic_pressure_pa / 1e3,
+                q / 1e3
+            ));
+        }
+    }
+    v
+}
+
+/// Settings of a solve.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct SolveSettings {
+    /// The optimizer's options (budgets, free and fixed groups, objective).
+    pub solver: SolveOptions,
+    /// Also solve richer programs and report what each would save.
+    pub explore: bool,
+    /// Record the time history of the tuned flight every this many seconds, s; `None`: none.
+    pub record_step_s: Option<f64>,
+}
+
+/// Variable groups `--free` accepts.
+pub const FREE_GROUPS: [&str; 4] = ["pitch_rate", "rise_time", "azimuth", "coasts"];
+/// Variable groups `--fix` accepts.
+pub const FIX_GROUPS: [&str; 4] = ["kick", "steering", "azimuth", "coasts"];
+
+impl SolveSettings {
+    /// Checks the options that do not depend on the problem.
+    pub fn check(&self) -> Result<(), Error> {
+        check_step("record_step_s", self.record_step_s)?;
+        let o = &self.solver;
+        if !(o.max_wall_s.is_finite() && o.max_wall_s > 0.0) {
+            return Err(Error::Option {
+                option: "max_wall_s",
+                reason: format!("must be a finite number > 0, got {}", o.max_wall_s),
+            });
+        }
+        let unknown = |option, given: &[String], known: &[&str]| {
+            given
+                .iter()
+                .find(|g| !known.contains(&g.as_str()))
+                .map(|g| Error::Option {
+                    option,
+                    reason: format!("unknown group `{g}` ({})", known.join(", ")),
+                })
+        };
+        match unknown("free", &o.free, &FREE_GROUPS).or(unknown("fix", &o.fix, &FIX_GROUPS)) {
+            Some(e) => Err(e),
+            None => Ok(()),
+        }
+    }
+}
+
+/// A solved case: the report, the tuned problem file, and the flight of the tuned program.
+#[derive(Debug, Clone)]
+pub struct SolveRun {
+    /// The `solve --json` document.
+    pub report: SolveReport,
+    /// The problem file with the tuned program written back (what `--write-program` writes).
+    pub tuned_file: ProblemFile,
+    /// The flight of the tuned program as written.
+    pub flight: Flight,
+}
+
+impl SolveRun {
+    /// The search ended with the conditions met (converged or at its iteration limit), the
+    /// vehicle reached orbit and the orbit is within the insertion tolerance of the target.
+    pub fn succeeded(&self) -> bool {
+        self.report.succeeded()
+    }
+}
+
+impl SolveReport {
+    /// See [`SolveRun::succeeded`].
+    pub fn succeeded(&self) -> bool {
+        matches!(
+            self.convergence.status,
+            SolveStatus::Converged | SolveStatus::IterationLimit
+        ) && self.flight.reached_orbit()
+            && self.flight.target_deviation.is_some_and(|d| d.met)
+    }
+}
+
+/// Tunes the program of `case`, writes it back into the file form and flies it as written.
+///
+/// # Errors
+/// [`Error::Unreachable`] for an inclination out of reach of a direct ascent; [`Error::Option`]
+/// for bad settings; [`Error::Solve`] when the problem cannot be posed (no target, missing
+/// controls); [`Error::WriteBack`] when the tuned program does not validate in the file form.
+pub fn solve(case: &Case, s: &SolveSettings, obs: &dyn Observer) -> Result<SolveRun, Error> {
+    s.check()?;
+    let p = case.reachable()?;
+    let sol = solve_observed(p, &s.solver, obs)?;
+    let mut tuned_file = case.file.clone();
+    for (v, x) in &sol.variables {
+        v.write(&mut tuned_file, *x);
+    }
+    set_final_cutoff(&mut tuned_file);
+    if let Some(b) = sol.problem.program.bucket {
+        tuned_file.ascent.throttle_bucket = Some(crate::core::problem::file::BucketFile {
+            start_s: b.start_s,
+            duration_s: b.duration_s,
+            throttle: b.throttle,
+        });
+    }
+    // Report the program as written: the file's vehicle with the tuned values (in the payload
+    // mode the reserves are then back in the last stage's tanks, left over at cutoff).
+    let mut flown = validate::validate(&tuned_file).map_err(Error::WriteBack)?;
+    flown.input_sha256 = p.input_sha256.clone();
+    let flight = fly(
+        &flown,
+        &FlyOptions {
+            record_step_s: s.record_step_s,
+            initial: None,
+        },
+    );
+    let report = report(p, &flown, &tuned_file, &flight, &sol, s, obs);
+    Ok(SolveRun {
+        report,
+        tuned_file,
+        flight,
+    })
+}
+
+/// The solve report of the tuned program `flown` (flight `flight`) of problem `p`.
+fn report(
+    p: &Problem,
+    flown: &Problem,
+    tuned_file: &ProblemFile,
+    flight: &Flight,
+    sol: &crate::core::optimize::Solution,
+    s: &SolveSettings,
+    obs: &dyn Observer,
+) -> SolveReport {
+    let report = FlightReport::new(flown, flight);
+    let accel_limited = flight
+        .events
+        .iter()
+        .any(|e| e.kind == EventKind::AccelLimitOnset);
+    let last = flown.vehicle.stages.len() - 1;
+    let stage = &flown.vehicle.stages[flight.final_mode.stage.min(last)];
+    let m_f = report.final_mass_kg;
+    let c = stage.engine.exhaust_velocity_mps();
+    let res = reserves(flown, report.budget.ideal_mps, m_f, c);
+    let margin = report.propellant_remaining_kg - res.total_kg();
+    let margin_mps = if m_f > margin.max(0.0) {
+        margin.signum() * c * (m_f / (m_f - margin.abs())).ln()
+    } else {
+        f64::NAN
+    };
+    SolveReport {
+        program: TunedProgram {
+            launch: tuned_file.launch.clone(),
+            ascent: tuned_file.ascent.clone(),
+        },
+        tuned: sol
+            .variables
+            .iter()
+            .map(|(v, x)| Tuned {
+                field: v.name(),
+                value: v.to_file_unit(*x),
+            })
+            .collect(),
+        propellant_used_kg: flown.vehicle.propellant_loaded_kg() - report.propellant_remaining_kg,
+        payload_kg: flown.vehicle.payload_kg,
+        propellant_remaining_kg: report.propellant_remaining_kg,
+        reserves: res,
+        margin_kg: margin,
+        margin_mps,
+        active_constraints: active_constraints(flown, &report, accel_limited, &sol.active),
+        constraint_costs: sol.active.clone(),
+        shortfall_mps: shortfall_mps(flown, &flight.y1),
+        richer_programs: if s.explore {
+            let base = crate::core::optimize::objective(&sol.eval);
+            explore(p, &s.solver, base, m_f, c, obs)
+        } else {
+            Vec::new()
+        },
+        convergence: sol.convergence.clone(),
+        flight: report,
+    }
+}
+
+/// The optimizer cuts the last burn on the target energy; the written program says so.
+fn set_final_cutoff(f: &mut ProblemFile) {
+    use crate::core::problem::file::{ArcFile, CutoffFile};
+    if let Some(ArcFile::Burn(b)) = f
+        .ascent
+        .arcs
+        .iter_mut()
+        .rev()
+        .find(|a| matches!(a, ArcFile::Burn(_)))
+    {
+        b.cutoff = Some(CutoffFile::TargetOrbit);
+    }
+}

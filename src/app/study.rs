@@ -1,0 +1,549 @@
+//! Trade studies built on `solve`: parameter sweeps, side-by-side comparison of problems, and
+//! trade factors (payload or margin change per unit change of a vehicle parameter) by central
+//! differences of re-solved problems (docs/method.md §11). What a study varies is a
+//! [`Param`] of the registry, written into the file form and validated again.
+//!
+//! Every study runs its points through one runner ([`solve_points`]): in parallel (rayon), in
+//! input order, one [`Observer::advanced`] per point, errors kept as the point's status.
+
+use rayon::prelude::*;
+use serde::Serialize;
+
+use super::solve::{solve, SolveReport, SolveSettings};
+use super::{tool_version, Case, Error};
+use crate::core::observe::Observer;
+use crate::core::optimize::{Objective, SolveOptions, SolveStatus};
+use crate::core::problem::file::{ArcFile, LaunchFile, ProblemFile, SteeringFile};
+use crate::core::problem::params::Param;
+
+pub use super::outcome::CAUTION;
+
+/// What a sweep varies.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Axis {
+    /// Launch azimuth, deg (the target's inclination is then free).
+    Azimuth,
+    /// Target inclination, deg (launch azimuth from it).
+    Inclination,
+    /// Circular target altitude, km.
+    Altitude,
+    /// Payload, kg.
+    Payload,
+}
+
+impl Axis {
+    /// Column name with unit.
+    pub fn label(&self) -> &'static str {
+        match self {
+            Axis::Azimuth => "azimuth_deg",
+            Axis::Inclination => "inclination_deg",
+            Axis::Altitude => "altitude_km",
+            Axis::Payload => "payload_kg",
+        }
+    }
+
+    /// The registry parameter the axis varies (values in the file's unit).
+    pub fn param(&self) -> Param {
+        match self {
+            Axis::Azimuth => Param::Azimuth,
+            Axis::Inclination => Param::TargetInclination,
+            Axis::Altitude => Param::CircularAltitude,
+            Axis::Payload => Param::Payload,
+        }
+    }
+}
+
+/// How a study point ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum PointStatus {
+    /// Solved: the conditions are met and the search converged.
+    Converged,
+    /// Solved: the conditions are met, the outer search stopped at its iteration limit.
+    IterationLimit,
+    /// The budget ended the search.
+    BudgetExhausted,
+    /// No program met the target.
+    Infeasible,
+    /// The inclination cannot be reached by a direct ascent.
+    Unreachable,
+    /// The point's problem is invalid (message says why).
+    BadInput,
+}
+
+impl PointStatus {
+    /// The status as JSON and CSV spell it.
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            PointStatus::Converged => "converged",
+            PointStatus::IterationLimit => "iteration_limit",
+            PointStatus::BudgetExhausted => "budget_exhausted",
+            PointStatus::Infeasible => "infeasible",
+            PointStatus::Unreachable => "unreachable",
+            PointStatus::BadInput => "bad_input",
+        }
+    }
+
+    /// The point counts as solved.
+    pub fn is_solved(&self) -> bool {
+        matches!(self, PointStatus::Converged | PointStatus::IterationLimit)
+    }
+}
+
+impl std::fmt::Display for PointStatus {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+impl From<SolveStatus> for PointStatus {
+    fn from(s: SolveStatus) -> Self {
+        match s {
+            SolveStatus::Converged => PointStatus::Converged,
+            SolveStatus::IterationLimit => PointStatus::IterationLimit,
+            SolveStatus::BudgetExhausted => PointStatus::BudgetExhausted,
+            SolveStatus::Infeasible => PointStatus::Infeasible,
+        }
+    }
+}
+
+/// One solved study point (or why it could not be solved).
+#[derive(Debug, Clone, Serialize)]
+pub struct Point {
+    /// Swept value (sweeps, in the axis' unit), index (comparisons) or signed step (trades).
+    pub value: f64,
+    /// How it ended.
+    pub status: PointStatus,
+    /// Message when not solved.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub message: Option<String>,
+    /// Full report of the solved point.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub report: Option<Box<SolveReport>>,
+}
+
+/// The problem file with the swept value (in the axis' unit) applied.
+pub fn apply(file: &ProblemFile, axis: Axis, v: f64) -> ProblemFile {
+    let mut f = file.clone();
+    if axis == Axis::Azimuth {
+        // A fixed azimuth replaces the whole launch section, and the plane is free: no target
+        // inclination, and the upper stage keeps to the plane the azimuth sets (no heading).
+        f.launch = LaunchFile::default();
+        if let Some(t) = f.target.as_mut() {
+            t.inclination_deg = None;
+        }
+        clear_headings(&mut f);
+    }
+    axis.param().write_file_unit(&mut f, v);
+    f
+}
+
+fn clear_headings(f: &mut ProblemFile) {
+    for a in f.ascent.arcs.iter_mut() {
+        if let ArcFile::Burn(b) = a {
+            if let SteeringFile::LinearTangent(l) = &mut b.steering {
+                l.heading_deg = None;
+                l.yaw_rate_per_s = None;
+            }
+        }
+    }
+}
+
+/// Solves one problem file; never fails (errors become the point's status).
+pub fn solve_file(file: &ProblemFile, value: f64, opts: &SolveOptions) -> Point {
+    let bad = |status, m: String| Point {
+        value,
+        status,
+        message: Some(m),
+        report: None,
+    };
+    let case = match Case::from_file(file.clone()) {
+        Ok(c) => c,
+        Err(e) => return bad(PointStatus::BadInput, e.to_string()),
+    };
+    let settings = SolveSettings {
+        solver: opts.clone(),
+        ..SolveSettings::default()
+    };
+    match solve(&case, &settings, &crate::core::observe::Silent) {
+        Ok(run) => Point {
+            value,
+            status: run.report.convergence.status.into(),
+            message: None,
+            report: Some(Box::new(run.report)),
+        },
+        Err(e @ Error::Unreachable(_)) => bad(PointStatus::Unreachable, e.to_string()),
+        Err(e) => bad(PointStatus::BadInput, e.to_string()),
+    }
+}
+
+/// The one study runner: solves `(file, value)` pairs in parallel, in input order, reporting one
+/// unit of progress per point.
+pub fn solve_points(
+    what: &str,
+    points: &[(ProblemFile, f64)],
+    opts: &SolveOptions,
+    obs: &dyn Observer,
+) -> Vec<Point> {
+    obs.started(what, points.len());
+    let out = points
+        .par_iter()
+        .map(|(f, v)| {
+            let pt = solve_file(f, *v, opts);
+            obs.advanced();
+            pt
+        })
+        .collect();
+    obs.finished();
+    out
+}
+
+/// Solves every value of a sweep in parallel, in input order.
+pub fn sweep(
+    file: &ProblemFile,
+    axis: Axis,
+    values: &[f64],
+    opts: &SolveOptions,
+    obs: &dyn Observer,
+) -> Vec<Point> {
+    // Sweeps trade the last kilogram of each point for speed: no outer restart.
+    let fast = SolveOptions {
+        polish: false,
+        ..opts.clone()
+    };
+    let points: Vec<(ProblemFile, f64)> =
+        values.iter().map(|v| (apply(file, axis, *v), *v)).collect();
+    solve_points("sweep", &points, &fast, obs)
+}
+
+/// `FROM:TO:STEP` into values (inclusive of TO within half a step).
+pub fn parse_range(s: &str) -> Result<Vec<f64>, String> {
+    let parts: Vec<f64> = s
+        .split(':')
+        .map(|x| x.trim().parse::<f64>().map_err(|e| format!("`{x}`: {e}")))
+        .collect::<Result<_, _>>()?;
+    let [from, to, step] = parts[..] else {
+        return Err(format!("`{s}`: expected FROM:TO:STEP"));
+    };
+    if !(from.is_finite() && to.is_finite() && step.is_finite() && step > 0.0 && to >= from) {
+        return Err(format!("`{s}`: needs finite FROM ≤ TO and STEP > 0"));
+    }
+    let n = ((to - from) / step + 0.5).floor() as usize + 1;
+    if n > 10_000 {
+        return Err(format!("`{s}`: {n} points; at most 10 000"));
+    }
+    Ok((0..n).map(|i| from + step * i as f64).collect())
+}
+
+/// Output of a sweep (`--json`).
+#[derive(Debug, Clone, Serialize)]
+pub struct SweepReport {
+    /// Tool and version.
+    pub tool: String,
+    /// SHA-256 of the problem file.
+    pub input_sha256: String,
+    /// What was swept.
+    pub axis: Axis,
+    /// Objective of every solve.
+    pub objective: Objective,
+    /// Points in input order.
+    pub points: Vec<Point>,
+    /// Safety caution.
+    pub caution: &'static str,
+}
+
+impl SweepReport {
+    /// Sweeps `file` (whose text hashes to `input_sha256`) along `axis` over `values`.
+    pub fn run(
+        file: &ProblemFile,
+        input_sha256: String,
+        axis: Axis,
+        values: &[f64],
+        opts: &SolveOptions,
+        obs: &dyn Observer,
+    ) -> Self {
+        SweepReport {
+            tool: tool_version(),
+            input_sha256,
+            axis,
+            objective: opts.objective,
+            points: sweep(file, axis, values, opts, obs),
+            caution: CAUTION,
+        }
+    }
+
+    /// Every point solved.
+    pub fn succeeded(&self) -> bool {
+        self.points.iter().all(|p| p.status.is_solved())
+    }
+}
+
+/// Output of a comparison (`--json`).
+#[derive(Debug, Clone, Serialize)]
+pub struct CompareReport {
+    /// Tool and version.
+    pub tool: String,
+    /// SHA-256 of each problem file, in argument order.
+    pub input_sha256: Vec<String>,
+    /// One entry per problem file, in argument order: its name and its point.
+    pub problems: Vec<(String, Point)>,
+    /// Safety caution.
+    pub caution: &'static str,
+}
+
+impl CompareReport {
+    /// Solves each `(file, input SHA-256)` and lines them up in input order.
+    pub fn run(files: Vec<(ProblemFile, String)>, opts: &SolveOptions, obs: &dyn Observer) -> Self {
+        let (files, shas): (Vec<ProblemFile>, Vec<String>) = files.into_iter().unzip();
+        let points: Vec<(ProblemFile, f64)> = files
+            .iter()
+            .enumerate()
+            .map(|(i, f)| (f.clone(), i as f64))
+            .collect();
+        let pts = solve_points("compare", &points, opts, obs);
+        CompareReport {
+            tool: tool_version(),
+            input_sha256: shas,
+            problems: files.into_iter().map(|f| f.name).zip(pts).collect(),
+            caution: CAUTION,
+        }
+    }
+
+    /// Every problem solved.
+    pub fn succeeded(&self) -> bool {
+        self.problems.iter().all(|(_, p)| p.status.is_solved())
+    }
+}
+
+/// A traded parameter: a registry [`Param`] and the trade's step and unit for it.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case", tag = "kind")]
+pub enum Traded {
+    /// Dry mass of stage `stage`, kg.
+    DryMass {
+        /// Stage index.
+        stage: usize,
+    },
+    /// Propellant load of stage `stage`, kg.
+    Propellant {
+        /// Stage index.
+        stage: usize,
+    },
+    /// Vacuum Isp of stage `stage`, s.
+    Isp {
+        /// Stage index.
+        stage: usize,
+    },
+    /// Vacuum thrust of stage `stage`, kN.
+    Thrust {
+        /// Stage index.
+        stage: usize,
+    },
+    /// Every drag coefficient, % of its value.
+    Drag,
+}
+
+impl Traded {
+    /// The registry parameter.
+    pub fn param(&self) -> Param {
+        match *self {
+            Traded::DryMass { stage } => Param::DryMass(stage),
+            Traded::Propellant { stage } => Param::Propellant(stage),
+            Traded::Isp { stage } => Param::IspVac(stage),
+            Traded::Thrust { stage } => Param::ThrustVac(stage),
+            Traded::Drag => Param::DragScale,
+        }
+    }
+
+    /// The step used for the central difference, in the trade's unit (kg, s, kN, %).
+    fn step(&self, f: &ProblemFile) -> f64 {
+        let file_value = || self.param().read_file(f).unwrap_or(0.0);
+        match *self {
+            Traded::DryMass { .. } | Traded::Propellant { .. } => (0.01 * file_value()).max(1.0),
+            Traded::Isp { .. } => 1.0,
+            Traded::Thrust { .. } => 0.01 * file_value() / 1e3,
+            Traded::Drag => 5.0,
+        }
+    }
+
+    /// Unit of the trade factor.
+    pub fn unit(&self) -> &'static str {
+        match self {
+            Traded::DryMass { .. } | Traded::Propellant { .. } => "kg/kg",
+            Traded::Isp { .. } => "kg/s",
+            Traded::Thrust { .. } => "kg/kN",
+            Traded::Drag => "kg per % of C_D",
+        }
+    }
+
+    /// The file with the parameter changed by `d` (the trade's unit).
+    fn apply(&self, f: &ProblemFile, d: f64) -> ProblemFile {
+        let mut g = f.clone();
+        let p = self.param();
+        let now = || p.read_file(f).unwrap_or(0.0);
+        let u = match self {
+            Traded::Thrust { .. } => now() + d * 1e3,
+            Traded::Drag => 1.0 + d / 100.0,
+            _ => now() + d,
+        };
+        p.write_file_unit(&mut g, u);
+        g
+    }
+
+    /// Name for tables.
+    pub fn name(&self, f: &ProblemFile) -> String {
+        let st = |i: usize| f.vehicle.stages[i].name.clone();
+        match *self {
+            Traded::DryMass { stage } => format!("{} dry mass", st(stage)),
+            Traded::Propellant { stage } => format!("{} propellant", st(stage)),
+            Traded::Isp { stage } => format!("{} vacuum Isp", st(stage)),
+            Traded::Thrust { stage } => format!("{} vacuum thrust", st(stage)),
+            Traded::Drag => "drag coefficient (all configurations)".into(),
+        }
+    }
+}
+
+/// A trade factor: payload change per unit change of a parameter.
+#[derive(Debug, Clone, Serialize)]
+pub struct TradeFactor {
+    /// Parameter.
+    pub param: Traded,
+    /// Readable name.
+    pub name: String,
+    /// Central-difference step, in the parameter's unit.
+    pub step: f64,
+    /// ∂payload/∂parameter (payload objective) or ∂margin/∂parameter (propellant objective).
+    pub factor: f64,
+    /// Unit of `factor`.
+    pub unit: &'static str,
+    /// Both perturbed solves met the target.
+    pub ok: bool,
+}
+
+/// The parameters traded for a problem file.
+pub fn traded(f: &ProblemFile) -> Vec<Traded> {
+    let mut v = Vec::new();
+    for stage in 0..f.vehicle.stages.len() {
+        v.push(Traded::DryMass { stage });
+        v.push(Traded::Propellant { stage });
+        v.push(Traded::Isp { stage });
+        v.push(Traded::Thrust { stage });
+    }
+    v.push(Traded::Drag);
+    v
+}
+
+fn objective_value(p: &Point, objective: Objective) -> Option<f64> {
+    let r = p.report.as_ref()?;
+    let met = r.flight.target_deviation.is_some_and(|d| d.met);
+    met.then_some(match objective {
+        Objective::MaxPayload => r.payload_kg,
+        Objective::LeastPropellant => r.margin_kg,
+    })
+}
+
+/// Trade factors by central differences of re-solved problems, in parallel.
+pub fn trade(f: &ProblemFile, opts: &SolveOptions, obs: &dyn Observer) -> Vec<TradeFactor> {
+    let ps = traded(f);
+    let points: Vec<(ProblemFile, f64)> = ps
+        .iter()
+        .flat_map(|p| {
+            let h = p.step(f);
+            [(p.apply(f, h), h), (p.apply(f, -h), -h)]
+        })
+        .collect();
+    let pts = solve_points("trade", &points, opts, obs);
+    ps.iter()
+        .enumerate()
+        .map(|(i, p)| {
+            let h = p.step(f);
+            let (a, b) = (
+                objective_value(&pts[2 * i], opts.objective),
+                objective_value(&pts[2 * i + 1], opts.objective),
+            );
+            TradeFactor {
+                param: *p,
+                name: p.name(f),
+                step: h,
+                factor: match (a, b) {
+                    (Some(a), Some(b)) => (a - b) / (2.0 * h),
+                    _ => f64::NAN,
+                },
+                unit: p.unit(),
+                ok: a.is_some() && b.is_some(),
+            }
+        })
+        .collect()
+}
+
+/// Ideal exchange ratio ∂P/∂Isp_k of the rocket equation, kg/s (docs/method.md §11.4; the
+/// exchange ratios of the ideal rocket): `g0 ln(m_ig,k/m_bo,k) / Σ_j c_j (1/m_bo,j − 1/m_ig,j)`,
+/// serial stages, no boosters.
+pub fn ideal_isp_factor(f: &ProblemFile, k: usize) -> f64 {
+    let g0 = crate::core::physics::earth::G0_MPS2;
+    let v = &f.vehicle;
+    let mut m_ig = v.payload_kg
+        + v.stages
+            .iter()
+            .map(|s| s.dry_mass_kg + s.propellant_kg)
+            .sum::<f64>()
+        + v.jettisons.iter().map(|j| j.mass_kg).sum::<f64>();
+    let mut sum = 0.0;
+    let mut num = 0.0;
+    for (j, s) in v.stages.iter().enumerate() {
+        let m_bo = m_ig - s.propellant_kg;
+        sum += g0 * s.isp_vac_s * (1.0 / m_bo - 1.0 / m_ig);
+        if j == k {
+            num = g0 * (m_ig / m_bo).ln();
+        }
+        m_ig = m_bo - s.dry_mass_kg;
+    }
+    num / sum
+}
+
+/// Output of `trade` (`--json`).
+#[derive(Debug, Clone, Serialize)]
+pub struct TradeReport {
+    /// Tool and version.
+    pub tool: String,
+    /// Problem name.
+    pub problem: String,
+    /// SHA-256 of the problem file.
+    pub input_sha256: String,
+    /// Objective of the re-solves (payload: factors are ∂payload; propellant: ∂margin).
+    pub objective: Objective,
+    /// Trade factors.
+    pub factors: Vec<TradeFactor>,
+    /// Rocket-equation ideal Isp exchange ratios for comparison, kg/s (serial stages).
+    pub ideal_isp_factors: Vec<f64>,
+    /// Safety caution.
+    pub caution: &'static str,
+}
+
+impl TradeReport {
+    /// Trade factors of `file` (whose text hashes to `input_sha256`).
+    pub fn run(
+        file: &ProblemFile,
+        input_sha256: String,
+        opts: &SolveOptions,
+        obs: &dyn Observer,
+    ) -> Self {
+        TradeReport {
+            tool: tool_version(),
+            problem: file.name.clone(),
+            input_sha256,
+            objective: opts.objective,
+            ideal_isp_factors: (0..file.vehicle.stages.len())
+                .map(|k| ideal_isp_factor(file, k))
+                .collect(),
+            factors: trade(file, opts, obs),
+            caution: CAUTION,
+        }
+    }
+
+    /// Every factor from two solved points.
+    pub fn succeeded(&self) -> bool {
+        self.factors.iter().all(|f| f.ok)
+    }
+}

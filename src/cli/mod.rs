@@ -1,0 +1,356 @@
+//! The command line: clap arguments, reading problem files, atomic writes, progress bars and
+//! exit codes — the binary's own modules, not part of the library. Each command reads its inputs,
+//! calls the application layer (`kickturn::app`), hands the outcome to the renderers
+//! (`kickturn::render`) and writes the results. Results go to stdout, diagnostics to stderr.
+//!
+//! Exit codes: 0 success (orbit reached, target met), 1 ran but did not reach orbit or the target
+//! (or the target inclination is out of reach of a direct ascent), 2 bad input or usage.
+
+mod io;
+mod solve;
+mod study;
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use anyhow::bail;
+use clap::{Parser, Subcommand};
+
+use kickturn::app::{self, fly::FlyOptions};
+use kickturn::render;
+
+pub use io::{emit, load_case, write_atomic};
+
+/// kickturn: ascent pitch-program optimizer with an exact ΔV loss budget.
+#[derive(Debug, Parser)]
+#[command(name = "kickturn", version, about, long_about = None)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// Subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Fly the program in a problem file and report the ΔV budget.
+    Fly(FlyArgs),
+    /// Tune the ascent program for the least propellant to the target orbit, then report.
+    Solve(SolveArgs),
+    /// Re-solve over a range of launch azimuth, inclination, circular altitude or payload.
+    Sweep(SweepArgs),
+    /// Solve several problems and show their budgets side by side.
+    Compare(CompareArgs),
+    /// Payload (or margin) change per unit change of each stage's dry mass, propellant, Isp and
+    /// thrust, and of the drag coefficient.
+    Trade(TradeArgs),
+}
+
+/// Options shared by the study commands.
+#[derive(Debug, clap::Args)]
+pub struct StudyArgs {
+    /// Print one JSON object instead of the table.
+    #[arg(long)]
+    pub json: bool,
+    /// Write the table as CSV to this file.
+    #[arg(long, value_name = "FILE")]
+    pub csv: Option<PathBuf>,
+    /// Maximize payload at full propellant loads (default: least propellant for the file's
+    /// payload).
+    #[arg(long)]
+    pub max_payload: bool,
+    /// Wall-time budget per solve, s.
+    #[arg(long, default_value_t = 60.0, value_name = "S")]
+    pub max_wall_s: f64,
+}
+
+impl StudyArgs {
+    /// Solve options of every point.
+    pub fn options(&self) -> anyhow::Result<kickturn::optimize::SolveOptions> {
+        if !(self.max_wall_s.is_finite() && self.max_wall_s > 0.0) {
+            bail!(
+                "--max-wall-s: must be a finite number > 0, got {}",
+                self.max_wall_s
+            );
+        }
+        Ok(kickturn::optimize::SolveOptions {
+            max_wall_s: self.max_wall_s,
+            objective: if self.max_payload {
+                kickturn::optimize::Objective::MaxPayload
+            } else {
+                kickturn::optimize::Objective::LeastPropellant
+            },
+            ..kickturn::optimize::SolveOptions::default()
+        })
+    }
+}
+
+/// Arguments of `sweep`: exactly one range.
+#[derive(Debug, clap::Args)]
+#[command(group(clap::ArgGroup::new("range").required(true).args(["azimuth", "inclination", "altitude", "payload"])))]
+pub struct SweepArgs {
+    /// Problem file (JSON) with a `target`.
+    pub problem: PathBuf,
+    /// Launch azimuth range FROM:TO:STEP, deg (the target inclination is then free).
+    #[arg(long, value_name = "FROM:TO:STEP")]
+    pub azimuth: Option<String>,
+    /// Target inclination range FROM:TO:STEP, deg.
+    #[arg(long, value_name = "FROM:TO:STEP")]
+    pub inclination: Option<String>,
+    /// Circular target altitude range FROM:TO:STEP, km.
+    #[arg(long, value_name = "FROM:TO:STEP")]
+    pub altitude: Option<String>,
+    /// Payload range FROM:TO:STEP, kg.
+    #[arg(long, value_name = "FROM:TO:STEP")]
+    pub payload: Option<String>,
+    /// Write the sweep curves (PNG and SVG) into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub plot: Option<PathBuf>,
+    /// Shared options.
+    #[command(flatten)]
+    pub study: StudyArgs,
+}
+
+/// Arguments of `compare`.
+#[derive(Debug, clap::Args)]
+pub struct CompareArgs {
+    /// Two or more problem files.
+    #[arg(required = true, num_args = 2..)]
+    pub problems: Vec<PathBuf>,
+    /// Shared options.
+    #[command(flatten)]
+    pub study: StudyArgs,
+}
+
+/// Arguments of `trade`.
+#[derive(Debug, clap::Args)]
+pub struct TradeArgs {
+    /// Problem file (JSON) with a `target`.
+    pub problem: PathBuf,
+    /// Shared options.
+    #[command(flatten)]
+    pub study: StudyArgs,
+}
+
+/// Arguments of `solve`.
+#[derive(Debug, clap::Args)]
+pub struct SolveArgs {
+    /// Problem file (JSON) with a `target`.
+    pub problem: PathBuf,
+    /// Outputs.
+    #[command(flatten)]
+    pub out: FlightOutputArgs,
+    /// Write the problem with the tuned program to this file (atomic; never over the input).
+    #[arg(long, value_name = "OUT.json")]
+    pub write_program: Option<PathBuf>,
+    /// Wall-time budget, s.
+    #[arg(long, default_value_t = 60.0, value_name = "S")]
+    pub max_wall_s: f64,
+    /// Trajectory budget.
+    #[arg(long, default_value_t = 50_000, value_name = "N")]
+    pub max_trajectories: usize,
+    /// Also tune these variable groups: pitch_rate, rise_time, azimuth, coasts (azimuth with an
+    /// inclination target and timed coasts are free by default).
+    #[arg(long, value_name = "GROUP", value_delimiter = ',')]
+    pub free: Vec<String>,
+    /// Hold these variable groups at the file's values: kick, steering, azimuth, coasts.
+    #[arg(long, value_name = "GROUP", value_delimiter = ',')]
+    pub fix: Vec<String>,
+    /// Start from the file's program instead of the automatic guess and kick scan.
+    #[arg(long)]
+    pub no_scan: bool,
+    /// Also solve richer programs (free pitch-over rate and vertical rise; separate laws for
+    /// continued upper burns) and report what each would save.
+    #[arg(long)]
+    pub explore: bool,
+    /// Find the largest payload with every stage burned to depletion (reserves set aside)
+    /// instead of the least propellant for the file's payload.
+    #[arg(long)]
+    pub max_payload: bool,
+    /// Perturb the automatic start with this seed (robustness checks).
+    #[arg(long, value_name = "SEED")]
+    pub perturb_seed: Option<u64>,
+}
+
+/// Output options of `fly` and `solve`.
+#[derive(Debug, clap::Args)]
+pub struct FlightOutputArgs {
+    /// Print one JSON object instead of the text report.
+    #[arg(long)]
+    pub json: bool,
+    /// Write the time history to this CSV file.
+    #[arg(long, value_name = "FILE")]
+    pub csv: Option<PathBuf>,
+    /// Time-history spacing for --csv, s.
+    #[arg(long, default_value_t = 1.0, value_name = "S")]
+    pub csv_step_s: f64,
+    /// Write the figures (PNG and SVG) into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub plot: Option<PathBuf>,
+    /// Write a self-contained HTML report to this file.
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
+}
+
+impl FlightOutputArgs {
+    /// History spacing to record, s, when any output needs the time history.
+    pub fn record_step_s(&self) -> Option<f64> {
+        (self.csv.is_some() || self.plot.is_some() || self.report.is_some())
+            .then_some(self.csv_step_s)
+    }
+}
+
+/// Arguments of `fly`.
+#[derive(Debug, clap::Args)]
+pub struct FlyArgs {
+    /// Problem file (JSON).
+    pub problem: PathBuf,
+    /// Outputs.
+    #[command(flatten)]
+    pub out: FlightOutputArgs,
+}
+
+/// Exit code for success.
+pub const EXIT_OK: u8 = 0;
+/// Exit code when the run completed but orbit was not reached.
+pub const EXIT_NOT_REACHED: u8 = 1;
+/// Exit code for bad input or usage.
+pub const EXIT_BAD_INPUT: u8 = 2;
+
+/// Parses arguments, runs, and maps the outcome to an exit code.
+pub fn main_with_args(args: impl IntoIterator<Item = std::ffi::OsString>) -> ExitCode {
+    let cli = match Cli::try_parse_from(args) {
+        Ok(c) => c,
+        Err(e) => {
+            let code = if e.use_stderr() {
+                EXIT_BAD_INPUT
+            } else {
+                EXIT_OK
+            };
+            let _ = e.print();
+            return ExitCode::from(code);
+        }
+    };
+    match run(cli) {
+        Ok(code) => ExitCode::from(code),
+        Err(err) => {
+            eprintln!("error: {err:#}");
+            ExitCode::from(EXIT_BAD_INPUT)
+        }
+    }
+}
+
+fn run(cli: Cli) -> anyhow::Result<u8> {
+    match cli.command {
+        Command::Fly(a) => run_fly(&a),
+        Command::Solve(a) => solve::run(&a),
+        Command::Sweep(a) => {
+            use kickturn::app::study::Axis;
+            let (axis, range) = match (&a.azimuth, &a.inclination, &a.altitude, &a.payload) {
+                (Some(r), _, _, _) => (Axis::Azimuth, r),
+                (_, Some(r), _, _) => (Axis::Inclination, r),
+                (_, _, Some(r), _) => (Axis::Altitude, r),
+                (_, _, _, Some(_)) if a.study.max_payload => bail!(
+                    "sweep: --payload and --max-payload contradict each other (the payload \
+                     mode solves for the payload)"
+                ),
+                (_, _, _, Some(r)) => (Axis::Payload, r),
+                _ => bail!("sweep: give one of --azimuth, --inclination, --altitude, --payload"),
+            };
+            study::run_sweep(
+                &a.problem,
+                axis,
+                range,
+                &a.study.options()?,
+                a.study.json,
+                a.study.csv.as_ref(),
+                a.plot.as_ref(),
+            )
+        }
+        Command::Compare(a) => study::run_compare(
+            &a.problems,
+            &a.study.options()?,
+            a.study.json,
+            a.study.csv.as_ref(),
+        ),
+        Command::Trade(a) => study::run_trade(
+            &a.problem,
+            &a.study.options()?,
+            a.study.json,
+            a.study.csv.as_ref(),
+        ),
+    }
+}
+
+/// Maps an application error to the exit code and message: an unreachable target exits 1 with
+/// its reason, anything else is bad input (exit 2).
+fn app_error(problem: &std::path::Path, e: app::Error) -> anyhow::Result<u8> {
+    if e.is_bad_input() {
+        bail!("{}: {e}", problem.display());
+    }
+    eprintln!("{}: {e}", problem.display());
+    Ok(EXIT_NOT_REACHED)
+}
+
+/// The exit code of a finished command.
+fn exit_code(succeeded: bool) -> u8 {
+    if succeeded {
+        EXIT_OK
+    } else {
+        EXIT_NOT_REACHED
+    }
+}
+
+/// Checks `--csv-step-s` and returns the history spacing the outputs need.
+fn record_step(out: &FlightOutputArgs) -> anyhow::Result<Option<f64>> {
+    if !(out.csv_step_s.is_finite() && out.csv_step_s > 0.0) {
+        bail!(
+            "--csv-step-s: must be a finite number > 0, got {}",
+            out.csv_step_s
+        );
+    }
+    Ok(out.record_step_s())
+}
+
+fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
+    let record_step_s = record_step(&a.out)?;
+    let case = load_case(&a.problem)?;
+    let run = match app::fly::fly(&case, &FlyOptions { record_step_s }) {
+        Ok(r) => r,
+        Err(e) => return app_error(&a.problem, e),
+    };
+    write_flight_outputs(&a.out, &a.problem, &run.report, &run.flight, None)?;
+    if a.out.json {
+        emit(&format!("{}\n", serde_json::to_string_pretty(&run.report)?))?;
+    } else {
+        emit(&render::text::render(&run.report))?;
+    }
+    Ok(exit_code(run.succeeded()))
+}
+
+/// Writes `--csv`, `--plot` and `--report` of a flight (with the solve's summary in the page when
+/// `solve` is given).
+fn write_flight_outputs(
+    out: &FlightOutputArgs,
+    input: &std::path::Path,
+    report: &app::outcome::FlightReport,
+    flight: &kickturn::sim::Flight,
+    solve: Option<&app::solve::SolveReport>,
+) -> anyhow::Result<()> {
+    if let Some(path) = &out.csv {
+        let text = render::csv::history(&flight.history);
+        write_atomic(path, input, text.as_bytes())?;
+    }
+    if let Some(dir) = &out.plot {
+        io::write_figures(
+            dir,
+            input,
+            &render::figures::flight_figures(report, flight)?,
+        )?;
+    }
+    if let Some(path) = &out.report {
+        let page = render::html::page(report, flight, solve)?;
+        write_atomic(path, input, page.as_bytes())?;
+    }
+    Ok(())
+}

@@ -1,0 +1,56 @@
+//! `kickturn solve`: reads the problem, calls `app::solve`, writes the outputs.
+
+use kickturn::app::solve::{solve, SolveSettings};
+use kickturn::optimize::{Objective, SolveOptions};
+use kickturn::render;
+
+use super::io::{emit, load_case, write_atomic, Progress};
+use super::{app_error, exit_code, record_step, write_flight_outputs, SolveArgs};
+
+/// Runs `kickturn solve`.
+pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
+    let record_step_s = record_step(&a.out)?;
+    let settings = SolveSettings {
+        solver: SolveOptions {
+            max_wall_s: a.max_wall_s,
+            max_trajectories: a.max_trajectories,
+            free: a.free.clone(),
+            fix: a.fix.clone(),
+            scan: !a.no_scan,
+            perturb_seed: a.perturb_seed,
+            polish: true,
+            objective: if a.max_payload {
+                Objective::MaxPayload
+            } else {
+                Objective::LeastPropellant
+            },
+        },
+        explore: a.explore,
+        record_step_s,
+    };
+    if let Err(e) = settings.check() {
+        match e {
+            kickturn::app::Error::Option { option, reason } => {
+                anyhow::bail!("--{}: {reason}", option.replace('_', "-"))
+            }
+            other => return Err(other.into()),
+        }
+    }
+    let case = load_case(&a.problem)?;
+    let run = match solve(&case, &settings, &Progress::new()) {
+        Ok(r) => r,
+        Err(e) => return app_error(&a.problem, e),
+    };
+    if let Some(path) = &a.write_program {
+        let json = serde_json::to_string_pretty(&run.tuned_file)? + "\n";
+        write_atomic(path, &a.problem, json.as_bytes())?;
+    }
+    let r = &run.report;
+    write_flight_outputs(&a.out, &a.problem, &r.flight, &run.flight, Some(r))?;
+    if a.out.json {
+        emit(&format!("{}\n", serde_json::to_string_pretty(r)?))?;
+    } else {
+        emit(&render::solve::render(r))?;
+    }
+    Ok(exit_code(run.succeeded()))
+}

@@ -1,0 +1,708 @@
+//! The shooting optimizer: the least-propellant ascent program that reaches the target orbit.
+//!
+//! Method (docs/method.md, "Optimizer"): the decision variables are split in two.
+//! - *Inner* variables, one per terminal condition (the final linear tangent law's pitch and rate,
+//!   or the transfer burn's apogee cutoff and the circularization pitch; the first law's heading
+//!   for the inclination), are solved by Levenberg–Marquardt on the terminal residuals
+//!   ([`targeting`]) for each setting of the outer variables.
+//! - *Outer* variables (the kick angle by default, plus any other free law parameters) minimize the
+//!   propellant burned, with the inner solve nested: Brent's method in one dimension, Nelder–Mead
+//!   in several (argmin). A coarse scan of the kick angle first finds a feasible, low-propellant
+//!   region (the kick is the most sensitive parameter; ../shared domain notes, Curtis Ex. 11.3),
+//!   which also makes the start independent of the user's guess.
+//!
+//! Nesting keeps the outer problem smooth and low-dimensional: every outer point is a trajectory
+//! that meets the target, so the objective compares like with like.
+
+pub mod inner;
+mod outer;
+pub mod targeting;
+
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::time::{Duration, Instant};
+
+use serde::Serialize;
+
+use crate::core::observe::Observer;
+pub use crate::core::problem::params::Param;
+use crate::core::problem::{Problem, Target};
+use crate::core::steering::{Arc, CoastEnd, Cutoff, Steering};
+use targeting::Eval;
+
+/// Objective penalty per unit of normalized residual above the inner tolerance, kg.
+pub const PENALTY_KG: f64 = 1e5;
+
+/// Settings of one solve.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SolveOptions {
+    /// Wall-time budget, s (default 60).
+    pub max_wall_s: f64,
+    /// Trajectory budget (default 50 000).
+    pub max_trajectories: usize,
+    /// Variable groups to free in addition to the defaults (`pitch_rate`, `rise_time`;
+    /// `azimuth` with an inclination target and timed `coasts` are free by default).
+    pub free: Vec<String>,
+    /// Variable groups to hold at the problem file's values (`kick`, `steering`, `azimuth`,
+    /// `coasts`).
+    pub fix: Vec<String>,
+    /// Scan the kick angle for a start (default true); off: start from the file's program.
+    pub scan: bool,
+    /// What to optimize.
+    pub objective: Objective,
+    /// Restart the outer Nelder–Mead once from its best point (default true; sweeps turn it off:
+    /// the restart refines the optimum by about a kilogram at about a third more trajectories).
+    pub polish: bool,
+    /// Perturb the automatic start (law parameters ±30 %, kick grid ×0.7–1.3) with this seed:
+    /// for robustness checks. `None`: the plain automatic start.
+    pub perturb_seed: Option<u64>,
+}
+
+impl Default for SolveOptions {
+    fn default() -> Self {
+        Self {
+            max_wall_s: 60.0,
+            max_trajectories: 50_000,
+            free: Vec::new(),
+            fix: Vec::new(),
+            scan: true,
+            perturb_seed: None,
+            objective: Objective::LeastPropellant,
+            polish: true,
+        }
+    }
+}
+
+/// The optimization objective.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum Objective {
+    /// Least propellant burned for the given payload (last burn cut on the target energy).
+    #[default]
+    LeastPropellant,
+    /// Largest payload with every stage burned to depletion (reserves set aside first).
+    MaxPayload,
+}
+
+/// How the solve ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SolveStatus {
+    /// Terminal conditions met and the outer search converged.
+    Converged,
+    /// The wall-time or trajectory budget ended the search (the target may or may not be met:
+    /// see the residuals).
+    BudgetExhausted,
+    /// Terminal conditions met, but the outer search stopped at its iteration limit.
+    IterationLimit,
+    /// No program met the terminal conditions.
+    Infeasible,
+}
+
+/// Convergence report.
+#[derive(Debug, Clone, Serialize)]
+pub struct Convergence {
+    /// Outcome.
+    pub status: SolveStatus,
+    /// Why the search stopped, in words.
+    pub reason: String,
+    /// Outer iterations (objective evaluations).
+    pub iterations: usize,
+    /// Trajectories flown.
+    pub trajectories: usize,
+    /// Wall time, s (text report only: kept out of JSON so that the same input gives the same
+    /// bytes).
+    #[serde(skip)]
+    pub wall_s: f64,
+    /// Terminal residuals at the solution (names with units).
+    pub terminal_residuals: Vec<(String, f64)>,
+}
+
+/// Result of a solve.
+#[derive(Debug, Clone)]
+pub struct Solution {
+    /// The problem with the tuned program.
+    pub problem: Problem,
+    /// Tuned variables and their values (SI), inner ones first.
+    pub variables: Vec<(Param, f64)>,
+    /// Evaluation of the tuned program.
+    pub eval: Eval,
+    /// Convergence report.
+    pub convergence: Convergence,
+    /// Path constraints held at their limit, with their cost.
+    pub active: Vec<ActiveConstraint>,
+}
+
+/// A path constraint that is active at the optimum.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct ActiveConstraint {
+    /// Which limit (`limits.max_dynamic_pressure_pa`).
+    pub limit: String,
+    /// The limit, in its unit.
+    pub value: f64,
+    /// Value the unconstrained optimum reached.
+    pub unconstrained: f64,
+    /// Extra propellant the limit costs, kg (constrained − unconstrained optimum).
+    pub cost_kg: f64,
+    /// Cost per unit of the limit (kg per kPa), from the two solves.
+    pub cost_kg_per_unit: f64,
+    /// How it is held.
+    pub how: String,
+}
+
+/// Why the problem cannot be solved as posed.
+#[derive(Debug, thiserror::Error, Clone, PartialEq)]
+#[non_exhaustive]
+pub enum SolveError {
+    /// The problem has no target orbit.
+    #[error("target: missing; `solve` needs a target orbit")]
+    NoTarget,
+    /// The program's structure does not give the optimizer the controls it needs.
+    #[error("{field}: {reason}")]
+    Structure {
+        /// JSON path.
+        field: String,
+        /// What is missing.
+        reason: String,
+    },
+}
+
+/// Evaluation context shared by the inner and outer searches.
+pub struct Ctx<'a> {
+    /// Restart the outer Nelder–Mead from its best point with a small simplex.
+    polish: bool,
+    /// Problem, coast floor, target and variables of this stage.
+    spec: PassSpec<'a>,
+    max_payload: bool,
+    flights: AtomicUsize,
+    start: Instant,
+    deadline: Duration,
+    max_flights: usize,
+    obs: &'a dyn Observer,
+}
+
+impl Ctx<'_> {
+    /// The problem with outer and inner variables set (normalized values).
+    pub fn problem_with(&self, outer: &[f64], inner: &[f64]) -> Problem {
+        let mut p = self.spec.base.clone();
+        for (v, x) in self
+            .spec
+            .outer
+            .iter()
+            .zip(outer)
+            .chain(self.spec.inner.iter().zip(inner))
+        {
+            v.set(&mut p, x * v.scale());
+        }
+        // A coast written in the file is the shortest allowed (separation, ignition sequence):
+        // the optimizer may only lengthen it.
+        for v in self
+            .spec
+            .outer
+            .iter()
+            .filter(|v| matches!(v, Param::Coast(_)))
+        {
+            if let (Some(now), Some(min)) = (v.get(&p), v.get(self.spec.floor)) {
+                if now < min {
+                    v.set(&mut p, min);
+                }
+            }
+        }
+        p
+    }
+
+    /// Flies and evaluates one program.
+    pub fn eval(&self, outer: &[f64], inner: &[f64]) -> Eval {
+        self.flights.fetch_add(1, Ordering::Relaxed);
+        targeting::evaluate(
+            &self.problem_with(outer, inner),
+            &self.spec.target,
+            self.spec.q_limit,
+            self.max_payload,
+        )
+    }
+
+    /// True once the wall-time or trajectory budget is spent.
+    pub fn out_of_budget(&self) -> bool {
+        self.flights.load(Ordering::Relaxed) >= self.max_flights
+            || self.start.elapsed() >= self.deadline
+    }
+
+    fn normalized(&self, vars: &[Param], p: &Problem) -> Vec<f64> {
+        vars.iter()
+            .map(|v| v.get(p).unwrap_or(0.0) / v.scale())
+            .collect()
+    }
+}
+
+/// Objective of an evaluated program: propellant burned plus a penalty on unmet conditions, kg.
+/// In the payload mode: minus the payload plus the penalty, kg.
+pub fn objective(e: &Eval) -> f64 {
+    let base = if e.payload_mode {
+        -e.payload_kg
+    } else {
+        e.propellant_used_kg
+    };
+    base + PENALTY_KG * (e.max_abs() - inner::INNER_TOL).max(0.0)
+}
+
+fn struct_err(field: &str, reason: &str) -> SolveError {
+    SolveError::Structure {
+        field: field.into(),
+        reason: reason.into(),
+    }
+}
+
+/// Index of the arc whose linear tangent law steers arc `i` (itself or the one it continues).
+fn law_owner(p: &Problem, i: usize) -> Option<usize> {
+    match &p.program.arcs[i] {
+        Arc::Burn {
+            steering: Steering::LinearTangent(_),
+            ..
+        } => Some(i),
+        Arc::Burn {
+            steering: Steering::LinearTangentContinued,
+            ..
+        } => (0..i).rev().find(|j| law_owner(p, *j) == Some(*j)),
+        _ => None,
+    }
+}
+
+/// A burn–coast-to-apogee–burn ending: (transfer burn with an apogee cutoff, final burn).
+fn circularization(p: &Problem, last: usize) -> Option<usize> {
+    let arcs = &p.program.arcs;
+    let coast = (0..last)
+        .rev()
+        .find(|j| matches!(arcs[*j], Arc::Coast(_)))?;
+    if !matches!(arcs[coast], Arc::Coast(CoastEnd::ToApogee)) {
+        return None;
+    }
+    (0..coast).rev().find(|j| {
+        matches!(
+            arcs[*j],
+            Arc::Burn {
+                cutoff: Cutoff::ApogeeAlt(_),
+                ..
+            }
+        )
+    })
+}
+
+/// Chooses inner and outer variables from the program's structure and the options.
+fn choose_vars(
+    p: &Problem,
+    t: &Target,
+    o: &SolveOptions,
+) -> Result<(Vec<Param>, Vec<Param>), SolveError> {
+    let arcs = &p.program.arcs;
+    let last = (0..arcs.len())
+        .rev()
+        .find(|i| matches!(arcs[*i], Arc::Burn { .. }))
+        .ok_or_else(|| struct_err("ascent.arcs", "no burn"))?;
+    let owner = law_owner(p, last).ok_or_else(|| {
+        struct_err(
+            &format!("ascent.arcs[{last}].burn.steering"),
+            "the last burn must use linear_tangent steering (or continue one) for the optimizer",
+        )
+    })?;
+    let first_law = (0..arcs.len())
+        .find(|i| law_owner(p, *i) == Some(*i))
+        .unwrap_or(owner);
+    let has = |g: &str| o.free.iter().any(|f| f == g);
+    let fixed = |g: &str| o.fix.iter().any(|f| f == g);
+    let mut inner = Vec::new();
+    let mut outer = Vec::new();
+    match (circularization(p, last), t.insertion) {
+        (Some(transfer), _) => {
+            inner.push(Param::ApogeeCutoff(transfer));
+            inner.push(Param::Pitch0(owner));
+        }
+        (None, crate::core::problem::Insertion::Free) => {
+            inner.push(Param::Pitch0(owner));
+            if !fixed("steering") {
+                outer.push(Param::TanRate(owner));
+            }
+        }
+        (None, _) => {
+            inner.push(Param::Pitch0(owner));
+            inner.push(Param::TanRate(owner));
+        }
+    }
+    if t.inclination_rad.is_some() {
+        if p.allow_dog_leg && p.unreachable_inclination().is_some() {
+            // Dog-leg: the yaw rate makes the plane change; the heading is tuned outside.
+            inner.push(Param::YawRate(first_law));
+            outer.push(Param::Heading(first_law));
+            if !fixed("azimuth") && !outer.contains(&Param::Azimuth) {
+                outer.push(Param::Azimuth);
+            }
+        } else {
+            inner.push(Param::Heading(first_law));
+        }
+    }
+    if p.program.liftoff.is_some() && !fixed("kick") {
+        outer.push(Param::Kick);
+    }
+    if !fixed("steering") {
+        for i in (0..arcs.len()).filter(|i| law_owner(p, *i) == Some(*i) && *i != owner) {
+            outer.push(Param::Pitch0(i));
+            outer.push(Param::TanRate(i));
+        }
+    }
+    for (g, v) in [
+        ("pitch_rate", Param::PitchRate),
+        ("rise_time", Param::RiseTime),
+    ] {
+        if has(g) && v.get(p).is_some() {
+            outer.push(v);
+        }
+    }
+    // The launch azimuth is free by default when the inclination is the target: the formula's
+    // azimuth plus upper-stage yaw is not the cheapest split (105 kg on the heavy demo).
+    let az_default = t.inclination_rad.is_some() && !fixed("azimuth");
+    if (has("azimuth") || az_default) && !outer.contains(&Param::Azimuth) {
+        outer.push(Param::Azimuth);
+    }
+    // Timed coasts are free by default (a staging coast can pay to lengthen: 1.1 t of
+    // propellant on the heavy demo), never shorter than written.
+    if has("coasts") || !fixed("coasts") {
+        outer.extend(
+            (0..arcs.len())
+                .map(Param::Coast)
+                .filter(|v| v.get(p).is_some()),
+        );
+    }
+    Ok((inner, outer))
+}
+
+/// Prepares the base problem: the last burn cuts off on the target energy.
+fn prepare(p: &Problem, objective: Objective) -> Problem {
+    let mut q = p.clone();
+    if let Some(i) = (0..q.program.arcs.len())
+        .rev()
+        .find(|i| matches!(q.program.arcs[*i], Arc::Burn { .. }))
+    {
+        if let Arc::Burn { cutoff, .. } = &mut q.program.arcs[i] {
+            *cutoff = match objective {
+                Objective::LeastPropellant => Cutoff::TargetOrbit,
+                Objective::MaxPayload => Cutoff::Depletion,
+            };
+        }
+    }
+    if objective == Objective::MaxPayload {
+        set_aside_reserves(&mut q, None);
+    }
+    q
+}
+
+/// Payload mode: the reserves stay in the last stage's tanks, so its usable load is reduced by
+/// them. The ΔV-percentage reserve x = f·ΔV_ideal/c costs `FPR = (m_payload + m_dry + other
+/// reserves)(eˣ − 1)` at the last stage's exhaust velocity c (Tsiolkovsky), with ΔV_ideal from
+/// a flight (`ideal_mps`) or, before one exists, from the rocket equation stage by stage.
+fn set_aside_reserves(p: &mut Problem, ideal_mps: Option<f64>) {
+    let r = p.reserves;
+    let mut m = p.vehicle.liftoff_mass_kg();
+    let mut estimate = 0.0;
+    for s in &p.vehicle.stages {
+        estimate += s.engine.exhaust_velocity_mps() * (m / (m - s.propellant_kg)).ln();
+        m -= s.propellant_kg + s.dry_mass_kg;
+    }
+    let ideal = ideal_mps.unwrap_or(estimate);
+    let payload = p.vehicle.payload_kg;
+    let Some(last) = p.vehicle.stages.last_mut() else {
+        return;
+    };
+    let c = last.engine.exhaust_velocity_mps();
+    let others = r.fpr_kg + r.residuals_kg + r.disposal_kg;
+    let m_end = payload + last.dry_mass_kg + others;
+    let keep = m_end * ((r.fpr_fraction_dv * ideal / c).exp() - 1.0) + others;
+    let usable = (last.propellant_kg - keep).max(1.0);
+    // The reserves fly to orbit in the tanks: mass on board, not burned.
+    last.dry_mass_kg += last.propellant_kg - usable;
+    last.propellant_kg = usable;
+}
+
+/// Finds the least-propellant program of `p` that reaches its target.
+pub fn solve(p: &Problem, o: &SolveOptions) -> Result<Solution, SolveError> {
+    solve_observed(p, o, &crate::core::observe::Silent)
+}
+
+/// [`solve`], with the search's diagnostics sent to `obs`.
+pub fn solve_observed(
+    p: &Problem,
+    o: &SolveOptions,
+    obs: &dyn Observer,
+) -> Result<Solution, SolveError> {
+    let run = Run {
+        t0: Instant::now(),
+        obs,
+    };
+    let mut s = solve_timed(p, o, &run)?;
+    s.convergence.wall_s = run.t0.elapsed().as_secs_f64();
+    Ok(s)
+}
+
+/// What every pass of one solve shares: its start time (for the wall-time budget) and observer.
+struct Run<'a> {
+    t0: Instant,
+    obs: &'a dyn Observer,
+}
+
+fn solve_timed(p: &Problem, o: &SolveOptions, run: &Run) -> Result<Solution, SolveError> {
+    let target = p.target.ok_or(SolveError::NoTarget)?;
+    let base = prepare(p, o.objective);
+    let (mut inner, outer) = choose_vars(&base, &target, o)?;
+    if o.objective == Objective::MaxPayload {
+        inner.push(Param::Payload);
+    }
+    let spec = PassSpec {
+        base: &base,
+        floor: &base,
+        target,
+        inner: inner.clone(),
+        outer: outer.clone(),
+        q_limit: None,
+    };
+    let mut free = run_pass(spec, o, run);
+    if o.objective == Objective::MaxPayload && p.reserves.fpr_fraction_dv > 0.0 {
+        free = reserve_pass(p, free, target, &inner, &outer, o, run);
+    }
+    let Some(q_lim) = p.limits.max_dynamic_pressure_pa else {
+        return Ok(free);
+    };
+    // The payload mode does not hold a max-Q limit yet: the report shows it as exceeded.
+    if free.eval.max_q_pa <= q_lim
+        || free.convergence.status == SolveStatus::Infeasible
+        || o.objective == Objective::MaxPayload
+    {
+        return Ok(free);
+    }
+    // Max-Q above the limit: hold it with a first-stage throttle bucket whose depth is one more
+    // inner variable (condition: max-Q = limit), started from the unconstrained optimum.
+    let from_file = free.problem.program.bucket.is_some();
+    let mut b = free.problem.clone();
+    match b.program.bucket.as_mut() {
+        None => b.program.bucket = Some(bucket_guess(&free.problem, q_lim)),
+        // Start below full throttle: at the bound the forward difference sees no slope.
+        Some(k) => k.throttle = k.throttle.min(0.9).max(b.vehicle.stages[0].min_throttle),
+    }
+    let mut inner_q = inner;
+    inner_q.push(Param::BucketThrottle);
+    // The trajectory budget is for the whole solve: later stages get what is left.
+    let held = SolveOptions {
+        scan: false,
+        max_trajectories: o
+            .max_trajectories
+            .saturating_sub(free.convergence.trajectories),
+        ..o.clone()
+    };
+    let mut sol = run_pass(
+        PassSpec {
+            base: &b,
+            floor: &base,
+            target,
+            inner: inner_q,
+            outer,
+            q_limit: Some(q_lim),
+        },
+        &held,
+        run,
+    );
+    sol.convergence.trajectories += free.convergence.trajectories;
+    sol.convergence.iterations += free.convergence.iterations;
+    let cost = sol.eval.propellant_used_kg - free.eval.propellant_used_kg;
+    sol.active.push(ActiveConstraint {
+        limit: "limits.max_dynamic_pressure_pa".into(),
+        value: q_lim,
+        unconstrained: free.eval.max_q_pa,
+        cost_kg: cost,
+        cost_kg_per_unit: cost / ((free.eval.max_q_pa - q_lim) / 1e3),
+        how: if from_file {
+            "first-stage throttle bucket (depth solved; start and duration from the file)".into()
+        } else {
+            "first-stage throttle bucket (depth solved; start and duration from the \
+             unconstrained q history)"
+                .into()
+        },
+    });
+    Ok(sol)
+}
+
+/// Payload mode, second pass: the ΔV reserve recomputed with the ideal ΔV of the first pass's
+/// flight, and the terminal conditions (payload included) re-solved with the outer variables
+/// held at the first pass's optimum (the small reserve change moves that optimum negligibly).
+fn reserve_pass(
+    p: &Problem,
+    first: Solution,
+    target: Target,
+    inner: &[Param],
+    outer: &[Param],
+    o: &SolveOptions,
+    run: &Run,
+) -> Solution {
+    let f = crate::core::sim::fly(&first.problem, &crate::core::sim::FlyOptions::default());
+    let ideal =
+        f.y1[crate::core::sim::dynamics::ix::IDEAL] - f.y0[crate::core::sim::dynamics::ix::IDEAL];
+    let mut base = first.problem.clone();
+    base.vehicle.stages.clone_from(&p.vehicle.stages);
+    set_aside_reserves(&mut base, Some(ideal));
+    let again = SolveOptions {
+        scan: false,
+        max_trajectories: o
+            .max_trajectories
+            .saturating_sub(first.convergence.trajectories),
+        ..o.clone()
+    };
+    let _ = outer;
+    let spec = PassSpec {
+        base: &base,
+        floor: &base,
+        target,
+        inner: inner.to_vec(),
+        outer: Vec::new(),
+        q_limit: None,
+    };
+    let mut second = run_pass(spec, &again, run);
+    second.convergence.trajectories += first.convergence.trajectories;
+    second.convergence.iterations += first.convergence.iterations;
+    second.convergence.reason = first.convergence.reason.clone();
+    // Report every tuned variable: the held outer ones keep the first pass's values.
+    for (v, x) in &first.variables {
+        if !second.variables.iter().any(|(w, _)| w == v) {
+            second.variables.push((*v, *x));
+        }
+    }
+    if second.convergence.status == SolveStatus::Infeasible {
+        first
+    } else {
+        second
+    }
+}
+
+/// A throttle bucket spanning the time the unconstrained ascent spends above 70 % of the limit.
+fn bucket_guess(p: &Problem, q_lim: f64) -> crate::core::steering::Bucket {
+    let f = crate::core::sim::fly(
+        p,
+        &crate::core::sim::FlyOptions {
+            record_step_s: Some(0.5),
+            initial: None,
+        },
+    );
+    let above: Vec<f64> = f
+        .history
+        .iter()
+        .filter(|s| s.dynamic_pressure_pa >= 0.7 * q_lim)
+        .map(|s| s.t_s)
+        .collect();
+    let (t0, t1) = match (above.first(), above.last()) {
+        (Some(a), Some(b)) => (*a, *b),
+        _ => (30.0, 60.0),
+    };
+    crate::core::steering::Bucket {
+        start_s: t0,
+        duration_s: (t1 - t0).max(5.0),
+        throttle: 0.8f64.max(p.vehicle.stages[0].min_throttle),
+    }
+}
+
+/// What one pass of a solve works on: the problem, the coast floor, target and variables.
+struct PassSpec<'a> {
+    base: &'a Problem,
+    floor: &'a Problem,
+    target: Target,
+    inner: Vec<Param>,
+    outer: Vec<Param>,
+    q_limit: Option<f64>,
+}
+
+/// One pass of a solve: a guess and a search on one [`PassSpec`].
+fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
+    let left = (o.max_wall_s - run.t0.elapsed().as_secs_f64()).max(0.0);
+    let ctx = Ctx {
+        polish: o.polish,
+        spec,
+        max_payload: o.objective == Objective::MaxPayload,
+        flights: AtomicUsize::new(0),
+        start: Instant::now(),
+        deadline: Duration::from_secs_f64(left),
+        max_flights: o.max_trajectories,
+        obs: run.obs,
+    };
+    let start = outer::initial_guess(&ctx, o);
+    ctx.obs.diagnostic(&|| {
+        format!(
+            "scan used {} trajectories",
+            ctx.flights.load(Ordering::Relaxed)
+        )
+    });
+    let best = outer::search_all(&ctx, start);
+    finish(&ctx, best)
+}
+
+fn finish(ctx: &Ctx, best: outer::Point) -> Solution {
+    let problem = ctx.problem_with(&best.outer, &best.inner);
+    let variables = ctx
+        .spec
+        .inner
+        .iter()
+        .chain(&ctx.spec.outer)
+        .map(|v| (*v, v.get(&problem).unwrap_or(f64::NAN)))
+        .collect();
+    let met = best.eval.reached && best.eval.max_abs() < targeting::INSERTION_TOL;
+    let status = if best.budget_hit {
+        SolveStatus::BudgetExhausted
+    } else if !met {
+        SolveStatus::Infeasible
+    } else if best.at_iteration_limit {
+        SolveStatus::IterationLimit
+    } else {
+        SolveStatus::Converged
+    };
+    let convergence = Convergence {
+        status,
+        reason: best.reason.clone(),
+        iterations: best.iterations,
+        trajectories: ctx.flights.load(Ordering::Relaxed),
+        wall_s: ctx.start.elapsed().as_secs_f64(),
+        terminal_residuals: residual_names(&ctx.spec.target, &best.eval),
+    };
+    Solution {
+        problem,
+        variables,
+        eval: best.eval,
+        convergence,
+        active: Vec::new(),
+    }
+}
+
+/// Residuals in physical units with their names.
+fn residual_names(t: &Target, e: &Eval) -> Vec<(String, f64)> {
+    use crate::core::problem::Insertion;
+    let r_km = targeting::R_SCALE_M / 1e3;
+    let deg = targeting::ANGLE_SCALE_RAD.to_degrees();
+    let mut names: Vec<(&str, f64)> = match t.insertion {
+        Insertion::Perigee => vec![
+            ("cutoff_radius_minus_perigee_km", r_km),
+            ("flight_path_angle_deg", deg),
+        ],
+        Insertion::Free => vec![("perigee_alt_error_km", r_km)],
+        Insertion::State { .. } => vec![
+            ("insertion_alt_error_km", r_km),
+            ("flight_path_angle_error_deg", deg),
+        ],
+    };
+    if t.inclination_rad.is_some() {
+        names.push(("inclination_error_deg", deg));
+    }
+    if e.residuals.len() == targeting::residual_count(t, Some(0.0)) {
+        names.push(("max_q_minus_limit_kpa", targeting::Q_SCALE_PA / 1e3));
+    }
+    names.push((
+        "energy_shortfall_fraction",
+        1.0 / targeting::SHORTFALL_WEIGHT,
+    ));
+    names
+        .iter()
+        .zip(&e.residuals)
+        .map(|((n, s), r)| (n.to_string(), r * s))
+        .collect()
+}

@@ -1,0 +1,290 @@
+//! Problem definition: the JSON file ([`file`]), its validation ([`validate`]) and the checked
+//! [`Problem`] that the simulator and optimizer take.
+//!
+//! Configuration flows in two stages: [`file::ProblemFile`] mirrors the JSON with raw values;
+//! [`validate::validate`] checks every field (errors name the JSON path) and builds the models.
+
+pub mod file;
+pub mod params;
+pub mod validate;
+
+use sha2::{Digest, Sha256};
+
+use crate::core::error::{ProblemError, UnreachableInclination};
+use crate::core::physics::earth::Geodetic;
+use crate::core::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
+use crate::core::physics::environment::Environment;
+use crate::core::steering::Program;
+use crate::core::vehicle::Vehicle;
+
+pub use file::ProblemFile;
+
+/// How the launch azimuth was chosen.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum AzimuthSource {
+    /// Given directly.
+    Fixed,
+    /// Computed from a target inclination (rotating-Earth correction), with the branch.
+    FromInclination {
+        /// Target inclination, rad.
+        inclination_rad: f64,
+        /// Northerly (true) or southerly (false) branch.
+        northerly: bool,
+    },
+}
+
+/// Launch site.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Site {
+    /// Name.
+    pub name: String,
+    /// Geodetic position of the pad.
+    pub geodetic: Geodetic,
+}
+
+/// How the target orbit is met at cutoff.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Insertion {
+    /// At perigee (radius = perigee radius, flight-path angle 0).
+    Perigee,
+    /// Anywhere on the orbit (apsides only).
+    Free,
+    /// At a given state.
+    State {
+        /// Altitude at cutoff (radius − 6378.137 km), m.
+        alt_m: f64,
+        /// Inertial speed, m/s.
+        speed_mps: f64,
+        /// Inertial flight-path angle, rad.
+        flight_path_rad: f64,
+    },
+}
+
+/// Target orbit (apsis altitudes above the equatorial radius, osculating at cutoff).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Target {
+    /// How the orbit is met.
+    pub insertion: Insertion,
+    /// Perigee altitude, m.
+    pub perigee_alt_m: f64,
+    /// Apogee altitude, m.
+    pub apogee_alt_m: f64,
+    /// Inclination, rad.
+    pub inclination_rad: Option<f64>,
+}
+
+impl Target {
+    /// Specific orbital energy of the target orbit, J/kg: −μ/(2a) (two-body, WGS-84 GM), or
+    /// for an insertion state on the flat check model `v²/2 + g h`.
+    pub fn energy_j_kg(&self, env: &crate::core::physics::environment::Environment) -> f64 {
+        use crate::core::physics::environment::EarthModel;
+        match (env.earth, self.insertion) {
+            (
+                EarthModel::Flat { gravity_mps2 },
+                Insertion::State {
+                    alt_m, speed_mps, ..
+                },
+            ) => 0.5 * speed_mps * speed_mps + gravity_mps2 * alt_m,
+            _ => {
+                let a = WGS84_A_M + 0.5 * (self.perigee_alt_m + self.apogee_alt_m);
+                -WGS84_GM_M3_S2 / (2.0 * a)
+            }
+        }
+    }
+}
+
+/// Path limits.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Limits {
+    /// Largest sensed axial acceleration, m/s² (throttle holds it).
+    pub max_axial_accel_mps2: Option<f64>,
+    /// Largest dynamic pressure, Pa (reported against).
+    pub max_dynamic_pressure_pa: Option<f64>,
+    /// Lowest perigee altitude that counts as orbit, m.
+    pub min_orbit_perigee_alt_m: f64,
+}
+
+/// Propellant reserves of the last stage.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Reserves {
+    /// Flight performance reserve, fraction of the ideal ΔV.
+    pub fpr_fraction_dv: f64,
+    /// Flight performance reserve as a mass, kg.
+    pub fpr_kg: f64,
+    /// Unusable residuals, kg.
+    pub residuals_kg: f64,
+    /// Disposal propellant, kg.
+    pub disposal_kg: f64,
+}
+
+/// Integrator settings.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct IntegratorSettings {
+    /// Relative tolerance (default 1e-11: tight enough that terminal states are smooth to a few
+    /// millimetres in the program's parameters, as finite-difference Jacobians need).
+    pub rtol: f64,
+    /// Absolute tolerance in the SI unit of each state (default 1e-8).
+    pub atol: f64,
+    /// Flight-time limit, s (default 20 000).
+    pub max_flight_time_s: f64,
+}
+
+impl Default for IntegratorSettings {
+    fn default() -> Self {
+        Self {
+            rtol: 1e-11,
+            atol: 1e-8,
+            max_flight_time_s: 20_000.0,
+        }
+    }
+}
+
+/// A checked problem: everything the simulator needs, SI units, radians.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Problem {
+    /// Name for titles.
+    pub name: String,
+    /// Launch site.
+    pub site: Site,
+    /// Launch azimuth, rad clockwise from north.
+    pub azimuth_rad: f64,
+    /// How the azimuth was obtained.
+    pub azimuth_source: AzimuthSource,
+    /// An inclination out of direct reach is flown as a dog-leg (yaw in flight) instead of
+    /// being refused.
+    pub allow_dog_leg: bool,
+    /// Target orbit.
+    pub target: Option<Target>,
+    /// Vehicle.
+    pub vehicle: Vehicle,
+    /// Ascent program.
+    pub program: Program,
+    /// Path limits.
+    pub limits: Limits,
+    /// Earth and atmosphere.
+    pub environment: Environment,
+    /// Integrator settings.
+    pub integrator: IntegratorSettings,
+    /// Propellant reserves.
+    pub reserves: Reserves,
+    /// SHA-256 of the input text (hex), or empty when built in code.
+    pub input_sha256: String,
+}
+
+impl Problem {
+    /// Parses and validates problem JSON text.
+    pub fn from_json(text: &str) -> Result<Problem, ProblemError> {
+        let file = parse(text)?;
+        let mut p = validate::validate(&file)?;
+        p.input_sha256 = sha256_hex(text.as_bytes());
+        Ok(p)
+    }
+
+    /// The plane change still needed when the launch asks for an inclination that a direct ascent
+    /// from this site cannot reach (i < |φ'| or i > 180° − |φ'|, φ' geocentric latitude); `None`
+    /// when reachable or when the azimuth is given directly. The cost is the upper bound
+    /// `2·v·sin(Δi/2)` at the circular speed of the target perigee (200 km without a target),
+    /// from the nearest reachable inclination.
+    pub fn unreachable_inclination(&self) -> Option<UnreachableInclination> {
+        let AzimuthSource::FromInclination {
+            inclination_rad, ..
+        } = self.azimuth_source
+        else {
+            return None;
+        };
+        let lat = validate::geocentric_latitude_rad(self.site.geodetic.latitude_rad).abs();
+        let (lo, hi) = (lat, std::f64::consts::PI - lat);
+        let nearest = inclination_rad.clamp(lo, hi);
+        let di = (inclination_rad - nearest).abs();
+        if di <= 1e-12 {
+            return None;
+        }
+        let r = WGS84_A_M + self.target.map_or(200e3, |t| t.perigee_alt_m);
+        let v = crate::core::physics::orbit::circular_speed_mps(r, WGS84_GM_M3_S2);
+        Some(UnreachableInclination {
+            inclination_deg: inclination_rad.to_degrees(),
+            latitude_deg: lat.to_degrees(),
+            plane_change_mps: 2.0 * v * (0.5 * di).sin(),
+        })
+    }
+
+    /// Reads, parses and validates a problem file.
+    pub fn from_path(path: &std::path::Path) -> Result<Problem, ProblemError> {
+        let text = std::fs::read_to_string(path)?;
+        Problem::from_json(&text)
+    }
+}
+
+/// Parses problem JSON into the raw file mirror; errors carry the JSON path of the field.
+pub fn parse(text: &str) -> Result<ProblemFile, ProblemError> {
+    let de = &mut serde_json::Deserializer::from_str(text);
+    serde_path_to_error::deserialize(de).map_err(|e| {
+        let path = e.path().to_string();
+        ProblemError::Format {
+            path: if path.is_empty() || path == "?" {
+                "(document)".into()
+            } else {
+                path
+            },
+            message: with_hint(&e.into_inner().to_string()),
+        }
+    })
+}
+
+/// Adds "did you mean `x`?" to serde's unknown-field and unknown-variant messages, choosing the
+/// expected name nearest in edit distance (Levenshtein 1966) when it is close enough.
+fn with_hint(msg: &str) -> String {
+    let (Some(got), Some(list)) = (msg.split('`').nth(1), msg.split("expected one of ").nth(1))
+    else {
+        return msg.to_string();
+    };
+    let best = list
+        .split('`')
+        .skip(1)
+        .step_by(2)
+        .map(|c| (levenshtein(got, c), c))
+        .min();
+    match best {
+        Some((d, c)) if d <= got.len().max(3) / 2 => format!("{msg} (did you mean `{c}`?)"),
+        _ => msg.to_string(),
+    }
+}
+
+/// Edit distance between two strings (insertions, deletions, substitutions).
+fn levenshtein(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut row: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut prev = row[0];
+        row[0] = i + 1;
+        for (j, cb) in b.iter().enumerate() {
+            let cur = row[j + 1];
+            row[j + 1] = (prev + usize::from(ca != *cb)).min(row[j] + 1).min(cur + 1);
+            prev = cur;
+        }
+    }
+    row[b.len()]
+}
+
+/// Hex SHA-256 of bytes.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn unknown_fields_get_the_nearest_name() {
+        let e = parse(r#"{"name": "x", "sitte": {}}"#)
+            .err()
+            .map(|e| e.to_string());
+        assert!(e.is_some_and(|m| m.contains("did you mean `site`?")));
+        assert_eq!(levenshtein("isp_s", "isp_vac_s"), 4);
+        assert_eq!(levenshtein("", "abc"), 3);
+    }
+}

@@ -1,0 +1,724 @@
+//! Checks a [`ProblemFile`] field by field and builds the [`Problem`]. Every error names the JSON
+//! path of the field and the reason.
+
+use super::file::*;
+use super::{AzimuthSource, Insertion, IntegratorSettings, Limits, Problem, Site, Target};
+use crate::core::error::ProblemError;
+use crate::core::physics::aero::DragTable;
+use crate::core::physics::earth::{self, Geodetic, G0_MPS2, WGS84_A_M, WGS84_E2, WGS84_GM_M3_S2};
+use crate::core::physics::environment::{AtmosphereModel, EarthModel, Environment};
+use crate::core::physics::orbit::{self, AzimuthBranch};
+use crate::core::steering::*;
+use crate::core::vehicle::*;
+
+type R<T> = Result<T, ProblemError>;
+
+/// Formats a number for a message: scientific notation when very large or very small.
+fn num(x: f64) -> String {
+    if x != 0.0 && x.is_finite() && (x.abs() >= 1e7 || x.abs() < 1e-4) {
+        format!("{x:e}")
+    } else {
+        format!("{x}")
+    }
+}
+
+fn bad<T>(field: &str, reason: impl Into<String>) -> R<T> {
+    Err(ProblemError::invalid(field, reason))
+}
+
+/// Requires `lo < x < hi` (open) or `lo <= x <= hi` (closed) and finite.
+fn range(field: &str, x: f64, lo: f64, hi: f64, closed: bool) -> R<f64> {
+    let ok = x.is_finite()
+        && if closed {
+            x >= lo && x <= hi
+        } else {
+            x > lo && x < hi
+        };
+    if ok {
+        Ok(x)
+    } else {
+        let (a, b) = if closed { ('[', ']') } else { ('(', ')') };
+        bad(
+            field,
+            format!("{x} is outside the allowed range {a}{lo}, {hi}{b}"),
+        )
+    }
+}
+
+fn positive(field: &str, x: f64) -> R<f64> {
+    if x.is_finite() && x > 0.0 {
+        Ok(x)
+    } else {
+        bad(
+            field,
+            format!("must be a finite number > 0, got {}", num(x)),
+        )
+    }
+}
+
+/// Validates the whole file.
+pub fn validate(f: &ProblemFile) -> R<Problem> {
+    let site = site(&f.site)?;
+    let target = f.target.as_ref().map(target).transpose()?;
+    let vehicle = vehicle(&f.vehicle)?;
+    let program = program(&f.ascent, &vehicle, target.is_some())?;
+    let environment = environment(&f.model);
+    let integrator = integrator(&f.model)?;
+    let limits = limits(&f.limits)?;
+    check_liftoff_thrust(&vehicle, &site, &environment)?;
+    let (azimuth_rad, azimuth_source) = azimuth(&f.launch, &site, target.as_ref())?;
+    Ok(Problem {
+        name: f.name.clone(),
+        site,
+        azimuth_rad,
+        azimuth_source,
+        allow_dog_leg: f.launch.allow_dog_leg.unwrap_or(false),
+        target,
+        vehicle,
+        program,
+        limits,
+        environment,
+        integrator,
+        reserves: reserves(f.reserves.as_ref())?,
+        input_sha256: String::new(),
+    })
+}
+
+fn site(s: &SiteFile) -> R<Site> {
+    let lat = range("site.latitude_deg", s.latitude_deg, -90.0, 90.0, true)?;
+    let lon = range("site.longitude_deg", s.longitude_deg, -360.0, 360.0, true)?;
+    let alt = range("site.altitude_m", s.altitude_m, -500.0, 9000.0, true)?;
+    Ok(Site {
+        name: s.name.clone(),
+        geodetic: Geodetic {
+            latitude_rad: lat.to_radians(),
+            longitude_rad: lon.to_radians(),
+            altitude_m: alt,
+        },
+    })
+}
+
+fn target(t: &TargetFile) -> R<Target> {
+    let state = (
+        t.insertion_alt_km,
+        t.insertion_speed_mps,
+        t.insertion_flight_path_deg,
+    );
+    let (rp, ra, insertion) =
+        match (t.perigee_alt_km, t.apogee_alt_km, state) {
+            (Some(rp), Some(ra), (None, None, None)) => {
+                let rp = range("target.perigee_alt_km", rp, 80.0, 1.0e6, true)?;
+                let ra = range("target.apogee_alt_km", ra, 80.0, 1.0e6, true)?;
+                if ra < rp {
+                    return bad(
+                        "target.apogee_alt_km",
+                        format!("apogee {ra} km is below perigee {rp} km"),
+                    );
+                }
+                let ins = match t.insertion.unwrap_or(InsertionFile::Perigee) {
+                    InsertionFile::Perigee => Insertion::Perigee,
+                    InsertionFile::Free => Insertion::Free,
+                };
+                (rp, ra, ins)
+            }
+            (None, None, (Some(h), Some(v), Some(g))) if t.insertion.is_none() => {
+                insertion_state(h, v, g)?
+            }
+            _ => return bad(
+                "target",
+                "give perigee_alt_km and apogee_alt_km (optionally insertion), or all three of \
+                 insertion_alt_km, insertion_speed_mps and insertion_flight_path_deg",
+            ),
+        };
+    let inc = t
+        .inclination_deg
+        .map(|i| range("target.inclination_deg", i, 0.0, 180.0, true))
+        .transpose()?;
+    Ok(Target {
+        insertion,
+        perigee_alt_m: rp * 1e3,
+        apogee_alt_m: ra * 1e3,
+        inclination_rad: inc.map(f64::to_radians),
+    })
+}
+
+/// Apsides (km) of the orbit through an insertion state (two-body; altitudes r − 6378.137 km).
+fn insertion_state(h_km: f64, v: f64, g_deg: f64) -> R<(f64, f64, Insertion)> {
+    let h = range("target.insertion_alt_km", h_km, 80.0, 1.0e5, true)?;
+    let r = WGS84_A_M + h * 1e3;
+    let v_esc = (2.0 * WGS84_GM_M3_S2 / r).sqrt();
+    let v = range("target.insertion_speed_mps", v, 0.0, v_esc, false).map_err(|_| {
+        ProblemError::invalid(
+            "target.insertion_speed_mps",
+            format!("{v} m/s is not below the escape speed {v_esc:.1} m/s at that altitude"),
+        )
+    })?;
+    let g = range("target.insertion_flight_path_deg", g_deg, -30.0, 30.0, true)?.to_radians();
+    let mu = WGS84_GM_M3_S2;
+    let energy = 0.5 * v * v - mu / r;
+    let hm = r * v * g.cos();
+    let e = (1.0 + 2.0 * energy * hm * hm / (mu * mu)).max(0.0).sqrt();
+    let p = hm * hm / mu;
+    let (rp, ra) = (p / (1.0 + e), p / (1.0 - e));
+    let rp_alt_km = (rp - WGS84_A_M) / 1e3;
+    if rp_alt_km < 80.0 {
+        return bad(
+            "target",
+            format!(
+                "the insertion state gives a perigee of {rp_alt_km:.1} km, inside the atmosphere"
+            ),
+        );
+    }
+    let ins = Insertion::State {
+        alt_m: h * 1e3,
+        speed_mps: v,
+        flight_path_rad: g,
+    };
+    Ok((rp_alt_km, (ra - WGS84_A_M) / 1e3, ins))
+}
+
+fn aero(path: &str, a: &AeroFile) -> R<DragTable> {
+    positive(&format!("{path}.ref_area_m2"), a.ref_area_m2)?;
+    if a.cd_mach.is_empty() {
+        return bad(
+            &format!("{path}.cd_mach"),
+            "needs at least one [Mach, C_D] pair",
+        );
+    }
+    for (i, p) in a.cd_mach.iter().enumerate() {
+        let fp = format!("{path}.cd_mach[{i}]");
+        range(&fp, p[0], 0.0, 100.0, true)?;
+        range(&fp, p[1], 0.0, 20.0, true)?;
+        if i > 0 && p[0] <= a.cd_mach[i - 1][0] {
+            return bad(&fp, "Mach numbers must be strictly increasing");
+        }
+    }
+    Ok(DragTable::new(a.ref_area_m2, &a.cd_mach))
+}
+
+fn engine(path: &str, t_vac: f64, isp: f64, ae: Option<f64>, t_sl: Option<f64>) -> R<Engine> {
+    let thrust_vac_n = positive(&format!("{path}.thrust_vac_n"), t_vac)?;
+    let isp_vac_s = range(&format!("{path}.isp_vac_s"), isp, 0.0, 10_000.0, false)?;
+    let exit_area_m2 = match (ae, t_sl) {
+        (Some(a), None) => range(&format!("{path}.exit_area_m2"), a, 0.0, 1e4, true)?,
+        (None, Some(t)) => {
+            let f = format!("{path}.thrust_sl_n");
+            range(&f, t, 0.0, thrust_vac_n, false)?;
+            (thrust_vac_n - t) / P_SL_PA
+        }
+        (Some(_), Some(_)) => {
+            return bad(path, "give either exit_area_m2 or thrust_sl_n, not both")
+        }
+        (None, None) => return bad(path, "missing field: give exit_area_m2 or thrust_sl_n"),
+    };
+    Ok(Engine {
+        thrust_vac_n,
+        isp_vac_s,
+        exit_area_m2,
+    })
+}
+
+/// A throttle fraction in (0, 1]; default 1 (not throttleable).
+fn throttle_fraction(field: &str, x: Option<f64>) -> R<f64> {
+    match x {
+        None => Ok(1.0),
+        Some(k) if k.is_finite() && k > 0.0 && k <= 1.0 => Ok(k),
+        Some(k) => bad(field, format!("{k} is outside the allowed range (0, 1]")),
+    }
+}
+
+fn stage(i: usize, s: &StageFile) -> R<Stage> {
+    let p = format!("vehicle.stages[{i}]");
+    Ok(Stage {
+        name: s.name.clone(),
+        dry_mass_kg: positive(&format!("{p}.dry_mass_kg"), s.dry_mass_kg)?,
+        propellant_kg: positive(&format!("{p}.propellant_kg"), s.propellant_kg)?,
+        engine: engine(
+            &p,
+            s.thrust_vac_n,
+            s.isp_vac_s,
+            s.exit_area_m2,
+            s.thrust_sl_n,
+        )?,
+        min_throttle: throttle_fraction(&format!("{p}.min_throttle"), s.min_throttle)?,
+        aero: aero(&format!("{p}.aero"), &s.aero)?,
+    })
+}
+
+fn boosters(b: &BoosterFile) -> R<Boosters> {
+    let p = "vehicle.boosters";
+    if b.count == 0 || b.count > 64 {
+        return bad(
+            &format!("{p}.count"),
+            format!("must be 1 to 64, got {}", b.count),
+        );
+    }
+    Ok(Boosters {
+        name: b.name.clone(),
+        count: b.count,
+        dry_mass_kg: positive(&format!("{p}.dry_mass_kg"), b.dry_mass_kg)?,
+        propellant_kg: positive(&format!("{p}.propellant_kg"), b.propellant_kg)?,
+        engine: engine(
+            p,
+            b.thrust_vac_n,
+            b.isp_vac_s,
+            b.exit_area_m2,
+            b.thrust_sl_n,
+        )?,
+        aero: aero(&format!("{p}.aero"), &b.aero)?,
+    })
+}
+
+fn jettison(i: usize, j: &JettisonFile) -> R<Jettison> {
+    let p = format!("vehicle.jettisons[{i}]");
+    let when = match j.when {
+        JettisonWhenFile::TimeS(t) => JettisonWhen::Time(positive(&format!("{p}.when.time_s"), t)?),
+        JettisonWhenFile::AltitudeM(h) => {
+            JettisonWhen::Altitude(positive(&format!("{p}.when.altitude_m"), h)?)
+        }
+        JettisonWhenFile::HeatingBelowWM2(q) => {
+            JettisonWhen::HeatingBelow(positive(&format!("{p}.when.heating_below_w_m2"), q)?)
+        }
+    };
+    Ok(Jettison {
+        name: j.name.clone(),
+        mass_kg: positive(&format!("{p}.mass_kg"), j.mass_kg)?,
+        when,
+    })
+}
+
+fn vehicle(v: &VehicleFile) -> R<Vehicle> {
+    let payload_kg = range("vehicle.payload_kg", v.payload_kg, 0.0, 1e8, true)?;
+    if v.stages.is_empty() {
+        return bad("vehicle.stages", "needs at least one stage");
+    }
+    let stages = v
+        .stages
+        .iter()
+        .enumerate()
+        .map(|(i, s)| stage(i, s))
+        .collect::<R<Vec<_>>>()?;
+    let boosters = v.boosters.as_ref().map(boosters).transpose()?;
+    let jettisons = v
+        .jettisons
+        .iter()
+        .enumerate()
+        .map(|(i, j)| jettison(i, j))
+        .collect::<R<Vec<_>>>()?;
+    Ok(Vehicle {
+        name: v.name.clone(),
+        payload_kg,
+        stages,
+        boosters,
+        jettisons,
+    })
+}
+
+fn liftoff(l: &LiftoffFile) -> R<Liftoff> {
+    let p = "ascent.liftoff";
+    let rise = match l.vertical_rise {
+        RiseEndFile::TimeS(t) => RiseEnd::Time(range(
+            &format!("{p}.vertical_rise.time_s"),
+            t,
+            0.0,
+            600.0,
+            true,
+        )?),
+        RiseEndFile::SpeedMps(v) => RiseEnd::Speed(range(
+            &format!("{p}.vertical_rise.speed_mps"),
+            v,
+            0.0,
+            2000.0,
+            false,
+        )?),
+    };
+    let rate = range(
+        &format!("{p}.pitch_rate_deg_s"),
+        l.pitch_rate_deg_s,
+        0.0,
+        90.0,
+        false,
+    )?;
+    let kick = range(&format!("{p}.kick_deg"), l.kick_deg, 0.0, 89.0, true)?;
+    Ok(Liftoff {
+        rise,
+        pitch_rate_rad_s: rate.to_radians(),
+        kick_rad: kick.to_radians(),
+    })
+}
+
+fn steering(path: &str, s: &SteeringFile) -> R<Steering> {
+    Ok(match s {
+        SteeringFile::GravityTurn => Steering::GravityTurn,
+        SteeringFile::LinearTangent(l) => {
+            let p0 = range(
+                &format!("{path}.pitch0_deg"),
+                l.pitch0_deg,
+                -89.0,
+                89.0,
+                true,
+            )?;
+            let c = range(
+                &format!("{path}.tan_rate_per_s"),
+                l.tan_rate_per_s,
+                -1.0,
+                1.0,
+                true,
+            )?;
+            let h = l
+                .heading_deg
+                .map(|h| range(&format!("{path}.heading_deg"), h, -360.0, 360.0, true))
+                .transpose()?;
+            let w = range(
+                &format!("{path}.yaw_rate_per_s"),
+                l.yaw_rate_per_s.unwrap_or(0.0),
+                -1.0,
+                1.0,
+                true,
+            )?;
+            Steering::LinearTangent(LinearTangent {
+                pitch0_rad: p0.to_radians(),
+                tan_rate_per_s: c,
+                yaw_rate_per_s: w,
+                heading_rad: h.map(f64::to_radians),
+            })
+        }
+        SteeringFile::PitchTable(pts) => pitch_table(path, pts)?,
+        SteeringFile::LinearTangentContinued => Steering::LinearTangentContinued,
+    })
+}
+
+fn pitch_table(path: &str, pts: &[[f64; 2]]) -> R<Steering> {
+    if pts.is_empty() {
+        return bad(path, "needs at least one [time_s, pitch_deg] pair");
+    }
+    for (i, p) in pts.iter().enumerate() {
+        let fp = format!("{path}[{i}]");
+        range(&fp, p[0], 0.0, 1e5, true)?;
+        range(&fp, p[1], -90.0, 90.0, true)?;
+        if i > 0 && p[0] <= pts[i - 1][0] {
+            return bad(&fp, "times must be strictly increasing");
+        }
+    }
+    Ok(Steering::PitchTable(PitchTable {
+        t_s: pts.iter().map(|p| p[0]).collect(),
+        pitch_rad: pts.iter().map(|p| p[1].to_radians()).collect(),
+    }))
+}
+
+fn cutoff(path: &str, c: Option<CutoffFile>, has_target: bool) -> R<Cutoff> {
+    Ok(match c.unwrap_or(CutoffFile::Depletion) {
+        CutoffFile::Depletion => Cutoff::Depletion,
+        CutoffFile::TargetOrbit if !has_target => {
+            return bad(path, "\"target_orbit\" needs a `target` section")
+        }
+        CutoffFile::TargetOrbit => Cutoff::TargetOrbit,
+        CutoffFile::ApogeeAltKm(h) => {
+            Cutoff::ApogeeAlt(range(&format!("{path}.apogee_alt_km"), h, 0.0, 1e6, false)? * 1e3)
+        }
+        CutoffFile::PerigeeAltKm(h) => Cutoff::PerigeeAlt(
+            range(&format!("{path}.perigee_alt_km"), h, -6000.0, 1e6, false)? * 1e3,
+        ),
+        CutoffFile::DurationS(t) => Cutoff::Duration(positive(&format!("{path}.duration_s"), t)?),
+    })
+}
+
+fn arc(i: usize, a: &ArcFile, has_target: bool) -> R<Arc> {
+    let p = format!("ascent.arcs[{i}]");
+    Ok(match a {
+        ArcFile::Burn(b) => Arc::Burn {
+            steering: steering(&format!("{p}.burn.steering"), &b.steering)?,
+            cutoff: cutoff(&format!("{p}.burn.cutoff"), b.cutoff, has_target)?,
+        },
+        ArcFile::Coast(CoastFile::DurationS(t)) => Arc::Coast(CoastEnd::Duration(positive(
+            &format!("{p}.coast.duration_s"),
+            *t,
+        )?)),
+        ArcFile::Coast(CoastFile::ToApogee) => Arc::Coast(CoastEnd::ToApogee),
+    })
+}
+
+fn program(a: &AscentFile, v: &Vehicle, has_target: bool) -> R<Program> {
+    if a.arcs.is_empty() {
+        return bad("ascent.arcs", "needs at least one arc; the first is a burn");
+    }
+    let arcs = a
+        .arcs
+        .iter()
+        .enumerate()
+        .map(|(i, x)| arc(i, x, has_target))
+        .collect::<R<Vec<_>>>()?;
+    let liftoff = a.liftoff.as_ref().map(liftoff).transpose()?;
+    match &arcs[0] {
+        Arc::Coast(_) => return bad("ascent.arcs[0]", "the first arc must be a burn"),
+        Arc::Burn {
+            steering: Steering::GravityTurn,
+            ..
+        } if liftoff.is_none() => {
+            return bad(
+                "ascent.liftoff",
+                "missing: a gravity turn from the pad needs the liftoff manoeuvre",
+            )
+        }
+        _ => {}
+    }
+    if liftoff.is_some()
+        && !matches!(
+            arcs[0],
+            Arc::Burn {
+                steering: Steering::GravityTurn,
+                ..
+            }
+        )
+    {
+        return bad(
+            "ascent.liftoff",
+            "given, but the first arc is not a gravity turn: the liftoff manoeuvre would be ignored",
+        );
+    }
+    for (i, a) in arcs.iter().enumerate() {
+        let continued = matches!(
+            a,
+            Arc::Burn {
+                steering: Steering::LinearTangentContinued,
+                ..
+            }
+        );
+        let has_law = arcs[..i].iter().any(|b| {
+            matches!(
+                b,
+                Arc::Burn {
+                    steering: Steering::LinearTangent(_),
+                    ..
+                }
+            )
+        });
+        if continued && !has_law {
+            return bad(
+                &format!("ascent.arcs[{i}].burn.steering"),
+                "\"linear_tangent_continued\" needs an earlier linear_tangent arc whose law it continues",
+            );
+        }
+    }
+    let depleting = arcs
+        .iter()
+        .filter(|x| {
+            matches!(
+                x,
+                Arc::Burn {
+                    cutoff: Cutoff::Depletion,
+                    ..
+                }
+            )
+        })
+        .count();
+    if depleting > v.stages.len() {
+        return bad(
+            "ascent.arcs",
+            format!(
+                "{depleting} burns run to depletion but the vehicle has {} stages",
+                v.stages.len()
+            ),
+        );
+    }
+    let bucket = a
+        .throttle_bucket
+        .map(|b| bucket(&b, &v.stages[0]))
+        .transpose()?;
+    Ok(Program {
+        liftoff,
+        bucket,
+        arcs,
+    })
+}
+
+fn bucket(b: &BucketFile, s0: &Stage) -> R<Bucket> {
+    let p = "ascent.throttle_bucket";
+    Ok(Bucket {
+        start_s: range(&format!("{p}.start_s"), b.start_s, 0.0, 1e4, true)?,
+        duration_s: positive(&format!("{p}.duration_s"), b.duration_s)?,
+        throttle: range(
+            &format!("{p}.throttle"),
+            b.throttle,
+            s0.min_throttle,
+            1.0,
+            true,
+        )
+        .map_err(|_| {
+            ProblemError::invalid(
+                format!("{p}.throttle"),
+                format!(
+                    "{} is outside [{}, 1] (first stage min_throttle to full)",
+                    b.throttle, s0.min_throttle
+                ),
+            )
+        })?,
+    })
+}
+
+fn environment(m: &ModelFile) -> Environment {
+    Environment {
+        earth: EarthModel::Wgs84 {
+            j2: m.j2.unwrap_or(true),
+            rotation: m.earth_rotation.unwrap_or(true),
+        },
+        atmosphere: match m.atmosphere.unwrap_or(AtmosphereFile::Us1976) {
+            AtmosphereFile::Us1976 => AtmosphereModel::Us1976,
+            AtmosphereFile::Vacuum => AtmosphereModel::Vacuum,
+        },
+    }
+}
+
+fn integrator(m: &ModelFile) -> R<IntegratorSettings> {
+    let d = IntegratorSettings::default();
+    Ok(IntegratorSettings {
+        rtol: range("model.rtol", m.rtol.unwrap_or(d.rtol), 1e-14, 1e-3, true)?,
+        atol: range("model.atol", m.atol.unwrap_or(d.atol), 1e-14, 1.0, true)?,
+        max_flight_time_s: range(
+            "model.max_flight_time_s",
+            m.max_flight_time_s.unwrap_or(d.max_flight_time_s),
+            0.0,
+            1e6,
+            false,
+        )?,
+    })
+}
+
+fn reserves(r: Option<&ReservesFile>) -> R<super::Reserves> {
+    let Some(r) = r else {
+        return Ok(super::Reserves::default());
+    };
+    let mass = |field: &str, x: Option<f64>| {
+        x.map_or(Ok(0.0), |v| {
+            range(&format!("reserves.{field}"), v, 0.0, 1e8, true)
+        })
+    };
+    Ok(super::Reserves {
+        fpr_fraction_dv: r.fpr_percent_dv.map_or(Ok(0.0), |v| {
+            range("reserves.fpr_percent_dv", v, 0.0, 20.0, true)
+        })? / 100.0,
+        fpr_kg: mass("fpr_kg", r.fpr_kg)?,
+        residuals_kg: mass("residuals_kg", r.residuals_kg)?,
+        disposal_kg: mass("disposal_kg", r.disposal_kg)?,
+    })
+}
+
+fn limits(l: &LimitsFile) -> R<Limits> {
+    let acc = l
+        .max_axial_accel_g
+        .map(|g| range("limits.max_axial_accel_g", g, 0.1, 100.0, true))
+        .transpose()?;
+    let q = l
+        .max_dynamic_pressure_pa
+        .map(|q| positive("limits.max_dynamic_pressure_pa", q))
+        .transpose()?;
+    let rp = range(
+        "limits.min_orbit_perigee_alt_km",
+        l.min_orbit_perigee_alt_km.unwrap_or(100.0),
+        0.0,
+        1e5,
+        true,
+    )?;
+    Ok(Limits {
+        max_axial_accel_mps2: acc.map(|g| g * G0_MPS2),
+        max_dynamic_pressure_pa: q,
+        min_orbit_perigee_alt_m: rp * 1e3,
+    })
+}
+
+/// Liftoff thrust-to-weight at the pad must exceed 1 (full throttle, local air pressure).
+fn check_liftoff_thrust(v: &Vehicle, site: &Site, env: &Environment) -> R<()> {
+    let p_a = env.air(site.geodetic.altitude_m).pressure_pa;
+    let e = &v.stages[0].engine;
+    let mut thrust = e.thrust_vac_n - p_a * e.exit_area_m2;
+    if let Some(b) = &v.boosters {
+        thrust += f64::from(b.count) * (b.engine.thrust_vac_n - p_a * b.engine.exit_area_m2);
+    }
+    let tw = thrust / (v.liftoff_mass_kg() * G0_MPS2);
+    if tw.is_finite() && tw > 1.0 {
+        Ok(())
+    } else {
+        bad(
+            "vehicle.stages[0]",
+            format!(
+                "liftoff thrust-to-weight is {tw:.3} (thrust {:.0} kN at the pad, mass {:.0} kg): \
+                 it must exceed 1",
+                thrust / 1e3,
+                v.liftoff_mass_kg()
+            ),
+        )
+    }
+}
+
+/// Geocentric latitude of a point on the ellipsoid: tan φ' = (1 − e²) tan φ.
+pub fn geocentric_latitude_rad(geodetic_lat_rad: f64) -> f64 {
+    ((1.0 - WGS84_E2) * geodetic_lat_rad.tan()).atan()
+}
+
+fn azimuth(l: &LaunchFile, site: &Site, target: Option<&Target>) -> R<(f64, AzimuthSource)> {
+    match (l.azimuth_deg, l.inclination_deg) {
+        (Some(_), None) if l.allow_dog_leg.is_some() => bad(
+            "launch.allow_dog_leg",
+            "applies only with inclination_deg; with azimuth_deg the direction is already given",
+        ),
+        (Some(_), None) if l.branch.is_some() => bad(
+            "launch.branch",
+            "applies only with inclination_deg; with azimuth_deg the direction is already given",
+        ),
+        (Some(az), None) => {
+            let az = range("launch.azimuth_deg", az, -360.0, 360.0, true)?;
+            Ok((az.rem_euclid(360.0).to_radians(), AzimuthSource::Fixed))
+        }
+        (None, Some(inc)) => {
+            let inc = range("launch.inclination_deg", inc, 0.0, 180.0, true)?.to_radians();
+            if let Some(ti) = target.and_then(|t| t.inclination_rad) {
+                if (ti - inc).abs() > 1e-9 {
+                    return bad(
+                        "launch.inclination_deg",
+                        format!(
+                            "{:.4}° contradicts target.inclination_deg {:.4}°",
+                            inc.to_degrees(),
+                            ti.to_degrees()
+                        ),
+                    );
+                }
+            }
+            let northerly = l.branch != Some(BranchFile::Southerly);
+            let branch = if northerly {
+                AzimuthBranch::Northerly
+            } else {
+                AzimuthBranch::Southerly
+            };
+            let r_orbit = WGS84_A_M + target.map_or(200e3, |t| t.perigee_alt_m);
+            let v_orb = orbit::circular_speed_mps(r_orbit, WGS84_GM_M3_S2);
+            let v_rot = earth::surface_rotation_speed_mps(&site.geodetic);
+            let lat_c = geocentric_latitude_rad(site.geodetic.latitude_rad);
+            // An unreachable inclination flies the nearest reachable one (due east/west at
+            // i = |φ'|); the caller reports the plane change it would still need.
+            let az =
+                orbit::launch_azimuth_rad(lat_c, inc, v_orb, v_rot, branch).unwrap_or_else(|_| {
+                    let due = if inc <= std::f64::consts::FRAC_PI_2 {
+                        90f64
+                    } else {
+                        270.0
+                    };
+                    due.to_radians()
+                });
+            Ok((
+                az.rem_euclid(std::f64::consts::TAU),
+                AzimuthSource::FromInclination {
+                    inclination_rad: inc,
+                    northerly,
+                },
+            ))
+        }
+        (Some(_), Some(_)) => bad(
+            "launch",
+            "give either azimuth_deg or inclination_deg, not both",
+        ),
+        (None, None) => bad(
+            "launch",
+            "missing field: give azimuth_deg or inclination_deg",
+        ),
+    }
+}

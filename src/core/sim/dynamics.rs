@@ -1,0 +1,305 @@
+//! Equations of motion and loss integrands: the ODE right-hand side for one flight mode.
+//!
+//! State (SI): position r (3), inertial velocity v (3), mass m, then the ΔV integrals:
+//! ideal `∫Σκ·T_vac/m dt`, back-pressure `∫p_a·A_e/m dt`, and for each bookkeeping
+//! (inertial: along v̂; Earth-relative: along v̂_rel) steering `∫(T/m)(1 − û·ê)dt`,
+//! drag `−∫F_aero·ê/m dt`, gravity `−∫g·ê dt`; plus the rotating-frame term
+//! `∫(−ω×(ω×r))·v̂_rel dt` of the Earth-relative form (docs/method.md, "ΔV budget").
+//!
+//! `ṙ = v`, `v̇ = (T/m)û + F_aero/m + g`, `ṁ = −Σκ·T_vac/(g0·Isp_vac)`, with
+//! `T = Σ(κ·T_vac − p_a·A_e)` and `F_aero = −½ρ|v_rel|v_rel C_D(M) S`.
+//! The right-hand side does not allocate.
+
+use nalgebra::{SVector, Vector3};
+
+use crate::core::physics::environment::Local;
+use crate::core::problem::Problem;
+use crate::core::steering::Steering;
+
+/// Number of states.
+pub const N: usize = 16;
+/// The integrated state vector.
+pub type State = SVector<f64, N>;
+
+/// Indices into [`State`].
+pub mod ix {
+    /// Position x (then y, z), m.
+    pub const R: usize = 0;
+    /// Velocity x (then y, z), m/s.
+    pub const V: usize = 3;
+    /// Mass, kg.
+    pub const M: usize = 6;
+    /// Ideal ΔV, m/s.
+    pub const IDEAL: usize = 7;
+    /// Back-pressure loss, m/s.
+    pub const PRESS: usize = 8;
+    /// Steering loss along the inertial velocity, m/s.
+    pub const STEER_I: usize = 9;
+    /// Drag loss along the inertial velocity, m/s.
+    pub const DRAG_I: usize = 10;
+    /// Gravity loss along the inertial velocity, m/s.
+    pub const GRAV_I: usize = 11;
+    /// Steering loss along the Earth-relative velocity, m/s.
+    pub const STEER_R: usize = 12;
+    /// Drag loss along the Earth-relative velocity, m/s.
+    pub const DRAG_R: usize = 13;
+    /// Gravity loss along the Earth-relative velocity, m/s.
+    pub const GRAV_R: usize = 14;
+    /// Rotating-frame (centrifugal) gain along the Earth-relative velocity, m/s.
+    pub const CENTRIF: usize = 15;
+}
+
+/// Attitude law of the current mode.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Attitude {
+    /// Along the local vertical.
+    Vertical,
+    /// Pitching over at the program rate since `start_s`.
+    PitchOver {
+        /// Time the pitch-over began, s.
+        start_s: f64,
+    },
+    /// Fixed pitch in the launch-azimuth plane.
+    Hold {
+        /// Pitch above the local horizontal, rad.
+        pitch_rad: f64,
+    },
+    /// Along the Earth-relative velocity (zero angle of attack).
+    ZeroAlpha,
+    /// Linear tangent law in a frame frozen at `start_s`.
+    LinearTangent {
+        /// Frozen vertical (integration frame), unit.
+        up0: Vector3<f64>,
+        /// Frozen horizontal thrust-plane direction, unit.
+        hor0: Vector3<f64>,
+        /// tan θ0.
+        tan0: f64,
+        /// Rate of the tangent, 1/s.
+        rate_per_s: f64,
+        /// Out-of-plane rate times the frozen normal n̂0 = ĥ0 × Û0, 1/s.
+        yaw_rate: Vector3<f64>,
+        /// Arc start, s.
+        start_s: f64,
+    },
+    /// Tabulated pitch of the current arc.
+    Table,
+}
+
+/// Throttle law of the current mode.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Throttle {
+    /// Fixed fraction of full thrust.
+    Fixed(f64),
+    /// Hold the axial-acceleration limit, never above `nominal`, never below the stage minimum.
+    AccelLimit {
+        /// Throttle the program would set without the limit.
+        nominal: f64,
+    },
+}
+
+/// Everything constant between two events.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Mode {
+    /// Index of the bottom (current) stage.
+    pub stage: usize,
+    /// Index of the current arc.
+    pub arc: usize,
+    /// Engines of the current stage firing.
+    pub thrusting: bool,
+    /// Strap-on boosters attached (and firing while they have propellant).
+    pub boosters_attached: bool,
+    /// Attitude law.
+    pub attitude: Attitude,
+    /// Throttle law of the current stage.
+    pub throttle: Throttle,
+    /// Mass of everything except the current stage's propellant and the boosters, kg.
+    pub other_mass_kg: f64,
+}
+
+/// Thrust, aerodynamics and derived quantities at one state.
+#[derive(Debug, Clone, Copy)]
+pub struct Forces {
+    /// Thrust direction, unit.
+    pub dir: Vector3<f64>,
+    /// Net thrust Σ(κT_vac − p_a A_e), N.
+    pub thrust_n: f64,
+    /// Σ κ T_vac, N.
+    pub thrust_vac_n: f64,
+    /// Exit area of the firing engines, m².
+    pub exit_area_m2: f64,
+    /// Propellant flow, kg/s.
+    pub mdot_kg_s: f64,
+    /// Aerodynamic force, N.
+    pub aero_n: Vector3<f64>,
+    /// Core throttle κ.
+    pub throttle: f64,
+    /// Dynamic pressure ½ρ|v_rel|², Pa.
+    pub q_pa: f64,
+    /// Mach number.
+    pub mach: f64,
+}
+
+/// Unit thrust direction for pitch θ and heading ψ in the local frame.
+pub fn pitch_heading_dir(loc: &Local, pitch_rad: f64, heading_rad: f64) -> Vector3<f64> {
+    let (sp, cp) = pitch_rad.sin_cos();
+    let (sh, ch) = heading_rad.sin_cos();
+    (loc.east * sh + loc.north * ch) * cp + loc.up * sp
+}
+
+fn unit_or(v: &Vector3<f64>, fallback: &Vector3<f64>) -> Vector3<f64> {
+    let n = v.norm();
+    if n > 1e-9 {
+        v / n
+    } else {
+        *fallback
+    }
+}
+
+/// Thrust direction of `mode` at time `t_s`.
+pub fn attitude_dir(p: &Problem, mode: &Mode, t_s: f64, loc: &Local) -> Vector3<f64> {
+    let az = p.azimuth_rad;
+    match mode.attitude {
+        Attitude::Vertical => loc.up,
+        Attitude::PitchOver { start_s } => {
+            let rate = p.program.liftoff.map_or(0.0, |l| l.pitch_rate_rad_s);
+            pitch_heading_dir(
+                loc,
+                std::f64::consts::FRAC_PI_2 - rate * (t_s - start_s),
+                az,
+            )
+        }
+        Attitude::Hold { pitch_rad } => pitch_heading_dir(loc, pitch_rad, az),
+        Attitude::ZeroAlpha => unit_or(&loc.v_rel_mps, &loc.up),
+        Attitude::LinearTangent {
+            up0,
+            hor0,
+            tan0,
+            rate_per_s,
+            yaw_rate,
+            start_s,
+        } => {
+            let tau = t_s - start_s;
+            unit_or(
+                &(hor0 + up0 * (tan0 - rate_per_s * tau) + yaw_rate * tau),
+                &hor0,
+            )
+        }
+        Attitude::Table => {
+            let pitch = match p.program.arcs.get(mode.arc) {
+                Some(crate::core::steering::Arc::Burn {
+                    steering: Steering::PitchTable(tab),
+                    ..
+                }) => tab.pitch_rad(t_s),
+                _ => std::f64::consts::FRAC_PI_2,
+            };
+            pitch_heading_dir(loc, pitch, az)
+        }
+    }
+}
+
+/// Mass of the strap-on boosters at `t_s` (they ignite at t = 0), kg.
+pub fn booster_mass_kg(p: &Problem, mode: &Mode, t_s: f64) -> f64 {
+    match (&p.vehicle.boosters, mode.boosters_attached) {
+        (Some(b), true) => b.mass_at_kg(t_s),
+        _ => 0.0,
+    }
+}
+
+/// Propellant left in the current stage, kg.
+pub fn stage_propellant_kg(p: &Problem, mode: &Mode, t_s: f64, m_kg: f64) -> f64 {
+    m_kg - mode.other_mass_kg - booster_mass_kg(p, mode, t_s)
+}
+
+/// Throttle that holds the axial-acceleration limit: solves
+/// `(κT_vac + T_b − p_a A_e + F_aero·û)/m = a_max` for κ (unclamped).
+pub fn limit_throttle(
+    a_max: f64,
+    m: f64,
+    core_vac_n: f64,
+    other_net_n: f64,
+    p_ae_core: f64,
+    aero_axial_n: f64,
+) -> f64 {
+    (a_max * m + p_ae_core - aero_axial_n - other_net_n) / core_vac_n
+}
+
+/// Thrust, drag and related quantities at one state.
+pub fn forces(p: &Problem, mode: &Mode, t_s: f64, m: f64, loc: &Local) -> Forces {
+    let dir = attitude_dir(p, mode, t_s, loc);
+    let vr = loc.v_rel_mps.norm();
+    let q_pa = 0.5 * loc.air.density_kg_m3 * vr * vr;
+    let mach = vr / loc.air.speed_of_sound_mps.max(1e-3);
+    let aero = if mode.boosters_attached {
+        p.vehicle.boosters.as_ref().map(|b| &b.aero)
+    } else {
+        None
+    }
+    .unwrap_or(&p.vehicle.stages[mode.stage].aero);
+    let aero_n = -loc.v_rel_mps * (q_pa * aero.cd_area_m2(mach) / vr.max(1e-12));
+    let p_a = loc.air.pressure_pa;
+    let (mut vac, mut area, mut mdot) = (0.0, 0.0, 0.0);
+    if let (Some(b), true) = (&p.vehicle.boosters, mode.boosters_attached) {
+        let n = f64::from(b.count);
+        vac += n * b.engine.thrust_vac_n;
+        area += n * b.engine.exit_area_m2;
+        mdot += n * b.engine.mdot_full_kg_s();
+    }
+    let mut throttle = 0.0;
+    if mode.thrusting {
+        let s = &p.vehicle.stages[mode.stage];
+        throttle = match mode.throttle {
+            Throttle::Fixed(k) => k,
+            Throttle::AccelLimit { nominal } => {
+                let a_max = p.limits.max_axial_accel_mps2.unwrap_or(f64::INFINITY);
+                let k = limit_throttle(
+                    a_max,
+                    m,
+                    s.engine.thrust_vac_n,
+                    vac - p_a * area,
+                    p_a * s.engine.exit_area_m2,
+                    aero_n.dot(&dir),
+                );
+                k.clamp(s.min_throttle, nominal)
+            }
+        };
+        vac += throttle * s.engine.thrust_vac_n;
+        area += s.engine.exit_area_m2;
+        mdot += throttle * s.engine.mdot_full_kg_s();
+    }
+    Forces {
+        dir,
+        thrust_n: vac - p_a * area,
+        thrust_vac_n: vac,
+        exit_area_m2: area,
+        mdot_kg_s: mdot,
+        aero_n,
+        throttle,
+        q_pa,
+        mach,
+    }
+}
+
+/// The right-hand side: `dy = f(t, y)` for `mode`. No allocation.
+pub fn derivative(p: &Problem, mode: &Mode, t_s: f64, y: &State, dy: &mut State) {
+    let r = Vector3::new(y[0], y[1], y[2]);
+    let v = Vector3::new(y[3], y[4], y[5]);
+    let m = y[ix::M];
+    let loc = p.environment.local(t_s, &r, &v);
+    let f = forces(p, mode, t_s, m, &loc);
+    let a = f.dir * (f.thrust_n / m) + f.aero_n / m + loc.gravity_mps2;
+    let vhat = unit_or(&v, &f.dir);
+    let vrhat = unit_or(&loc.v_rel_mps, &f.dir);
+    let t_over_m = f.thrust_n / m;
+    dy.fixed_rows_mut::<3>(ix::R).copy_from(&v);
+    dy.fixed_rows_mut::<3>(ix::V).copy_from(&a);
+    dy[ix::M] = -f.mdot_kg_s;
+    dy[ix::IDEAL] = f.thrust_vac_n / m;
+    dy[ix::PRESS] = loc.air.pressure_pa * f.exit_area_m2 / m;
+    dy[ix::STEER_I] = t_over_m * (1.0 - f.dir.dot(&vhat));
+    dy[ix::DRAG_I] = -f.aero_n.dot(&vhat) / m;
+    dy[ix::GRAV_I] = -loc.gravity_mps2.dot(&vhat);
+    dy[ix::STEER_R] = t_over_m * (1.0 - f.dir.dot(&vrhat));
+    dy[ix::DRAG_R] = -f.aero_n.dot(&vrhat) / m;
+    dy[ix::GRAV_R] = -loc.gravity_mps2.dot(&vrhat);
+    dy[ix::CENTRIF] = loc.centrifugal_mps2.dot(&vrhat);
+}

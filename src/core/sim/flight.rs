@@ -1,0 +1,1011 @@
+//! The flight driver: arcs, segments, events.
+
+use nalgebra::Vector3;
+use ode_solvers::continuous_output_model::ContinuousOutputModel;
+use ode_solvers::{Dopri5, System};
+use serde::Serialize;
+
+use super::dynamics::{derivative, ix, Attitude, Mode, State, Throttle};
+use super::events::{self, StateEvent};
+use super::record::{snapshot, Snapshot};
+use crate::core::physics::earth::WGS84_A_M;
+use crate::core::problem::Problem;
+use crate::core::steering::{Arc, CoastEnd, Cutoff, RiseEnd, Steering};
+use crate::core::vehicle::JettisonWhen;
+
+/// Segments allowed in one flight before it is stopped as runaway.
+const MAX_SEGMENTS: usize = 10_000;
+/// A time event this close to the segment start fires without integrating, s.
+const TIME_EPS_S: f64 = 1e-9;
+
+/// A non-pad initial state (checks and continuation).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct InitialState {
+    /// Start time, s.
+    pub t_s: f64,
+    /// Position in the integration frame, m.
+    pub r_m: Vector3<f64>,
+    /// Inertial velocity, m/s.
+    pub v_mps: Vector3<f64>,
+}
+
+/// Options of one flight.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct FlyOptions {
+    /// Record a time history every this many seconds (and at every event); `None`: no history.
+    pub record_step_s: Option<f64>,
+    /// Start from this state instead of the pad.
+    pub initial: Option<InitialState>,
+}
+
+/// Why the flight ended.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum EndReason {
+    /// The program ran to its end (last cutoff).
+    Completed,
+    /// The vehicle hit the ground.
+    GroundImpact,
+    /// The flight-time limit was reached.
+    TimeLimit,
+    /// A burn arc had no stage left to fire.
+    NoStageLeft {
+        /// Index of the arc.
+        arc: usize,
+    },
+    /// The integrator could not proceed.
+    IntegrationFailure {
+        /// What the integrator reported, with the time.
+        message: String,
+    },
+    /// Too many events (runaway event sequence).
+    EventLimit,
+}
+
+/// What happened at an event.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum EventKind {
+    /// Liftoff (or start of the flight).
+    Liftoff,
+    /// End of the vertical rise.
+    PitchOverStart,
+    /// Pitch-over complete; attitude held.
+    PitchOverEnd,
+    /// Earth-relative velocity turned to the held attitude: zero-α gravity turn begins.
+    GravityTurnStart,
+    /// Throttle bucket begins.
+    BucketStart,
+    /// Throttle bucket ends.
+    BucketEnd,
+    /// Axial-acceleration limit reached: throttling down.
+    AccelLimitOnset,
+    /// Limit-holding throttle reached the stage minimum.
+    MinThrottle,
+    /// Strap-on boosters burn out and separate.
+    BoosterSeparation,
+    /// Stage propellant depleted (and stage separated if another follows).
+    Burnout,
+    /// Ignition of a burn arc.
+    Ignition,
+    /// Commanded cutoff.
+    Cutoff,
+    /// Mass jettisoned.
+    Jettison,
+    /// End of a timed coast.
+    CoastEnd,
+    /// Apogee reached at the end of a coast.
+    Apogee,
+    /// Maximum dynamic pressure.
+    MaxQ,
+    /// Ground impact.
+    Impact,
+    /// Flight-time limit.
+    TimeLimit,
+}
+
+/// One event with the flight state at that instant.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct EventRecord {
+    /// What happened.
+    pub kind: EventKind,
+    /// Human-readable description.
+    pub label: String,
+    /// State just before the event's effect.
+    #[serde(flatten)]
+    pub at: Snapshot,
+}
+
+/// Burn or coast.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum PhaseKind {
+    /// Powered.
+    Burn,
+    /// Unpowered.
+    Coast,
+}
+
+/// One arc as flown: its boundary states (ΔV integrals included).
+#[derive(Debug, Clone, PartialEq)]
+pub struct PhaseRecord {
+    /// Label ("burn 1: Core", "coast 1").
+    pub label: String,
+    /// Burn or coast.
+    pub kind: PhaseKind,
+    /// Start time, s.
+    pub t0_s: f64,
+    /// End time, s.
+    pub t1_s: f64,
+    /// State at the start.
+    pub y0: State,
+    /// State at the end.
+    pub y1: State,
+}
+
+/// A maximum along the flight.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Extremum {
+    /// The maximum value.
+    pub value: f64,
+    /// Flight state at the maximum.
+    pub at: Snapshot,
+}
+
+/// Integrator work.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Serialize)]
+pub struct SimStats {
+    /// Right-hand-side evaluations by the integrator (event location excluded).
+    pub rhs_evals: u64,
+    /// Accepted steps.
+    pub accepted_steps: u64,
+    /// Rejected steps.
+    pub rejected_steps: u64,
+    /// Integration segments.
+    pub segments: u64,
+}
+
+/// A flown trajectory.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Flight {
+    /// Why it ended.
+    pub end: EndReason,
+    /// Start time, s.
+    pub t0_s: f64,
+    /// Initial state.
+    pub y0: State,
+    /// Final time, s.
+    pub t1_s: f64,
+    /// Final state.
+    pub y1: State,
+    /// Mode at the end (for derived quantities).
+    pub final_mode: Mode,
+    /// Events in time order.
+    pub events: Vec<EventRecord>,
+    /// Arcs as flown.
+    pub phases: Vec<PhaseRecord>,
+    /// Maximum dynamic pressure.
+    pub max_q: Option<Extremum>,
+    /// Maximum sensed axial acceleration, in g0.
+    pub max_axial_accel: Option<Extremum>,
+    /// Propellant left in the current and later stages, kg.
+    pub propellant_remaining_kg: f64,
+    /// Time history (empty unless recorded).
+    pub history: Vec<Snapshot>,
+    /// Integrator work.
+    pub stats: SimStats,
+}
+
+/// What a segment stopped on.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Stop {
+    State(StateEvent),
+    Time(TimeEvent),
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum TimeEvent {
+    RiseEnd,
+    PitchOverEnd,
+    BoosterSeparation,
+    BucketStart,
+    BucketEnd,
+    TableNode,
+    Jettison(usize),
+    BurnDuration,
+    CoastDuration,
+    TimeLimit,
+}
+
+/// Event bookkeeping carried through the flight.
+struct Flags {
+    jettisoned: Vec<bool>,
+    heating_armed: Vec<bool>,
+    in_bucket: bool,
+    bucket_done: bool,
+    stage_spent: bool,
+    arc_start_s: f64,
+    /// The last linear tangent law flown (for `LinearTangentContinued`).
+    last_law: Option<Attitude>,
+}
+
+/// ODE system handed to the integrator; watches state events after each accepted step.
+struct Sys<'a> {
+    p: &'a Problem,
+    mode: Mode,
+    evs: &'a [StateEvent],
+    watch: &'a mut Watch,
+}
+
+#[derive(Default)]
+struct Watch {
+    g_prev: Vec<f64>,
+    fired: Vec<bool>,
+    step_t: Vec<f64>,
+}
+
+impl System<f64, State> for Sys<'_> {
+    fn system(&self, t: f64, y: &State, dy: &mut State) {
+        derivative(self.p, &self.mode, t, y, dy);
+    }
+
+    fn solout(&mut self, t: f64, y: &State, _dy: &State) -> bool {
+        self.watch.step_t.push(t);
+        let mut any = false;
+        let r = Vector3::new(y[0], y[1], y[2]);
+        let v = Vector3::new(y[3], y[4], y[5]);
+        let loc = self.p.environment.local(t, &r, &v);
+        for (i, ev) in self.evs.iter().enumerate() {
+            let g = events::value_at(self.p, &self.mode, ev, t, y, &loc);
+            if self.watch.g_prev[i] < 0.0 && g >= 0.0 {
+                self.watch.fired[i] = true;
+                any = true;
+            }
+            self.watch.g_prev[i] = g;
+        }
+        any
+    }
+}
+
+struct Flyer<'a> {
+    p: &'a Problem,
+    opts: FlyOptions,
+    t: f64,
+    y: State,
+    mode: Mode,
+    flags: Flags,
+    out: Flight,
+    arc_done: bool,
+    ended: Option<EndReason>,
+    next_record_s: f64,
+}
+
+/// Flies the problem's program and returns the trajectory summary.
+pub fn fly(p: &Problem, opts: &FlyOptions) -> Flight {
+    let mut f = Flyer::new(p, *opts);
+    f.run();
+    f.finish()
+}
+
+fn initial_state(p: &Problem, opts: &FlyOptions) -> (f64, State) {
+    let (t, r, v) = match opts.initial {
+        Some(i) => (i.t_s, i.r_m, i.v_mps),
+        None => {
+            let (r, v) = p.environment.pad_state(&p.site.geodetic);
+            (0.0, r, v)
+        }
+    };
+    let mut y = State::zeros();
+    y.fixed_rows_mut::<3>(ix::R).copy_from(&r);
+    y.fixed_rows_mut::<3>(ix::V).copy_from(&v);
+    y[ix::M] = p.vehicle.liftoff_mass_kg();
+    (t, y)
+}
+
+impl<'a> Flyer<'a> {
+    fn new(p: &'a Problem, opts: FlyOptions) -> Self {
+        let (t, y) = initial_state(p, &opts);
+        let boosters = p.vehicle.boosters.is_some();
+        let booster_mass = p
+            .vehicle
+            .boosters
+            .as_ref()
+            .map_or(0.0, |b| b.mass_at_kg(0.0));
+        let mode = Mode {
+            stage: 0,
+            arc: 0,
+            thrusting: false,
+            boosters_attached: boosters,
+            attitude: Attitude::Vertical,
+            throttle: Throttle::Fixed(1.0),
+            other_mass_kg: y[ix::M] - p.vehicle.stages[0].propellant_kg - booster_mass,
+        };
+        let n_j = p.vehicle.jettisons.len();
+        let out = Flight {
+            end: EndReason::Completed,
+            t0_s: t,
+            y0: y,
+            t1_s: t,
+            y1: y,
+            final_mode: mode,
+            events: Vec::new(),
+            phases: Vec::new(),
+            max_q: None,
+            max_axial_accel: None,
+            propellant_remaining_kg: 0.0,
+            history: Vec::new(),
+            stats: SimStats::default(),
+        };
+        Flyer {
+            p,
+            opts,
+            t,
+            y,
+            mode,
+            flags: Flags {
+                jettisoned: vec![false; n_j],
+                heating_armed: vec![false; n_j],
+                in_bucket: false,
+                bucket_done: false,
+                stage_spent: false,
+                arc_start_s: t,
+                last_law: None,
+            },
+            out,
+            arc_done: false,
+            ended: None,
+            next_record_s: t,
+        }
+    }
+
+    fn event(&mut self, kind: EventKind, label: impl Into<String>) {
+        let at = snapshot(self.p, &self.mode, self.t, &self.y);
+        self.out.events.push(EventRecord {
+            kind,
+            label: label.into(),
+            at,
+        });
+    }
+
+    fn run(&mut self) {
+        self.event(
+            EventKind::Liftoff,
+            format!("liftoff from {}", self.p.site.name),
+        );
+        let (mut burns, mut coasts) = (0, 0);
+        for arc_i in 0..self.p.program.arcs.len() {
+            let (t0, y0) = (self.t, self.y);
+            let (label, kind) = match &self.p.program.arcs[arc_i] {
+                Arc::Burn { .. } => {
+                    burns += 1;
+                    let name = &self.p.vehicle.stages[self.mode.stage].name;
+                    (format!("burn {burns}: {name}"), PhaseKind::Burn)
+                }
+                Arc::Coast(_) => {
+                    coasts += 1;
+                    (format!("coast {coasts}"), PhaseKind::Coast)
+                }
+            };
+            if !self.start_arc(arc_i) {
+                break;
+            }
+            while !self.arc_done && self.ended.is_none() {
+                self.segment();
+            }
+            self.out.phases.push(PhaseRecord {
+                label,
+                kind,
+                t0_s: t0,
+                t1_s: self.t,
+                y0,
+                y1: self.y,
+            });
+            if self.ended.is_some() {
+                break;
+            }
+        }
+    }
+
+    /// Sets the mode for arc `i`; false if the flight cannot continue.
+    fn start_arc(&mut self, i: usize) -> bool {
+        self.arc_done = false;
+        self.flags.arc_start_s = self.t;
+        self.mode.arc = i;
+        match &self.p.program.arcs[i] {
+            Arc::Coast(_) => {
+                self.mode.thrusting = false;
+                self.mode.attitude = Attitude::ZeroAlpha;
+                true
+            }
+            Arc::Burn { steering, .. } => {
+                if self.flags.stage_spent {
+                    self.ended = Some(EndReason::NoStageLeft { arc: i });
+                    return false;
+                }
+                self.mode.thrusting = true;
+                self.mode.throttle = Throttle::Fixed(self.nominal_throttle());
+                self.mode.attitude = self.initial_attitude(i, steering);
+                if matches!(self.mode.attitude, Attitude::LinearTangent { .. }) {
+                    self.flags.last_law = Some(self.mode.attitude);
+                }
+                if i > 0 {
+                    let name = self.p.vehicle.stages[self.mode.stage].name.clone();
+                    self.event(EventKind::Ignition, format!("ignition: {name}"));
+                }
+                true
+            }
+        }
+    }
+
+    fn initial_attitude(&self, i: usize, steering: &Steering) -> Attitude {
+        match steering {
+            Steering::GravityTurn if i == 0 && self.opts.initial.is_none() => {
+                match self.p.program.liftoff.map(|l| l.rise) {
+                    Some(RiseEnd::Time(t)) if t <= 0.0 => Attitude::PitchOver { start_s: self.t },
+                    _ => Attitude::Vertical,
+                }
+            }
+            Steering::GravityTurn => Attitude::ZeroAlpha,
+            Steering::PitchTable(_) => Attitude::Table,
+            // Validation guarantees an earlier law; vertical is only a defensive fallback.
+            Steering::LinearTangentContinued => self.flags.last_law.unwrap_or(Attitude::Vertical),
+            Steering::LinearTangent(lt) => {
+                let r = Vector3::new(self.y[0], self.y[1], self.y[2]);
+                let v = Vector3::new(self.y[3], self.y[4], self.y[5]);
+                let loc = self.p.environment.local(self.t, &r, &v);
+                let heading = lt.heading_rad.unwrap_or_else(|| {
+                    if i == 0 {
+                        self.p.azimuth_rad
+                    } else {
+                        v.dot(&loc.east).atan2(v.dot(&loc.north))
+                    }
+                });
+                let (sh, ch) = heading.sin_cos();
+                let hor0 = loc.east * sh + loc.north * ch;
+                Attitude::LinearTangent {
+                    up0: loc.up,
+                    hor0,
+                    tan0: lt.pitch0_rad.tan(),
+                    rate_per_s: lt.tan_rate_per_s,
+                    yaw_rate: hor0.cross(&loc.up) * lt.yaw_rate_per_s,
+                    start_s: self.t,
+                }
+            }
+        }
+    }
+
+    fn nominal_throttle(&self) -> f64 {
+        match (self.flags.in_bucket, self.p.program.bucket) {
+            (true, Some(b)) => b.throttle,
+            _ => 1.0,
+        }
+    }
+
+    /// State events active in the current mode.
+    fn state_events(&self) -> Vec<StateEvent> {
+        let p = self.p;
+        let mut evs = vec![StateEvent::Ground(
+            p.site.geodetic.altitude_m.min(0.0) - 1.0,
+        )];
+        if self.mode.thrusting {
+            evs.push(StateEvent::Depletion);
+            if p.limits.max_axial_accel_mps2.is_some() {
+                match self.mode.throttle {
+                    Throttle::Fixed(k) if k > p.vehicle.stages[self.mode.stage].min_throttle => {
+                        evs.push(StateEvent::AccelLimitOnset)
+                    }
+                    Throttle::AccelLimit { .. } => evs.push(StateEvent::MinThrottle),
+                    _ => {}
+                }
+            }
+        }
+        match self.mode.attitude {
+            Attitude::Vertical => {
+                if let Some(RiseEnd::Speed(s)) = p.program.liftoff.map(|l| l.rise) {
+                    evs.push(StateEvent::RiseSpeed(s));
+                }
+            }
+            Attitude::Hold { pitch_rad } => evs.push(StateEvent::AlphaZero(pitch_rad)),
+            _ => {}
+        }
+        for (i, j) in p.vehicle.jettisons.iter().enumerate() {
+            if self.flags.jettisoned[i] {
+                continue;
+            }
+            match j.when {
+                JettisonWhen::Altitude(h) => evs.push(StateEvent::JettisonAltitude(i, h)),
+                JettisonWhen::HeatingBelow(q) if self.flags.heating_armed[i] => {
+                    evs.push(StateEvent::HeatingFall(i, q))
+                }
+                JettisonWhen::HeatingBelow(q) => evs.push(StateEvent::HeatingArm(i, q)),
+                JettisonWhen::Time(_) => {}
+            }
+        }
+        self.arc_end_events(&mut evs);
+        evs
+    }
+
+    fn arc_end_events(&self, evs: &mut Vec<StateEvent>) {
+        let p = self.p;
+        match &p.program.arcs[self.mode.arc] {
+            Arc::Burn { cutoff, .. } => match *cutoff {
+                Cutoff::TargetOrbit => {
+                    if let Some(t) = p.target {
+                        evs.push(StateEvent::Energy(t.energy_j_kg(&p.environment)));
+                    }
+                }
+                Cutoff::ApogeeAlt(h) => evs.push(StateEvent::ApogeeRadius(WGS84_A_M + h)),
+                Cutoff::PerigeeAlt(h) => evs.push(StateEvent::PerigeeRadius(WGS84_A_M + h)),
+                Cutoff::Depletion | Cutoff::Duration(_) => {}
+            },
+            Arc::Coast(CoastEnd::ToApogee) => evs.push(StateEvent::Apogee),
+            Arc::Coast(CoastEnd::Duration(_)) => {}
+        }
+    }
+
+    /// Time events pending, with their times.
+    fn time_events(&self) -> Vec<(TimeEvent, f64)> {
+        let p = self.p;
+        let mut tv = vec![(
+            TimeEvent::TimeLimit,
+            self.out.t0_s + p.integrator.max_flight_time_s,
+        )];
+        let lift = p.program.liftoff;
+        match (self.mode.attitude, lift) {
+            (Attitude::Vertical, Some(l)) => {
+                if let RiseEnd::Time(t) = l.rise {
+                    tv.push((TimeEvent::RiseEnd, t));
+                }
+            }
+            (Attitude::PitchOver { start_s }, Some(l)) => tv.push((
+                TimeEvent::PitchOverEnd,
+                start_s + l.kick_rad / l.pitch_rate_rad_s,
+            )),
+            (Attitude::Table, _) => {
+                if let Arc::Burn {
+                    steering: Steering::PitchTable(tab),
+                    ..
+                } = &p.program.arcs[self.mode.arc]
+                {
+                    if let Some(t) = tab.t_s.iter().find(|t| **t > self.t + TIME_EPS_S) {
+                        tv.push((TimeEvent::TableNode, *t));
+                    }
+                }
+            }
+            _ => {}
+        }
+        if let (Some(b), true) = (&p.vehicle.boosters, self.mode.boosters_attached) {
+            tv.push((TimeEvent::BoosterSeparation, b.burn_time_s()));
+        }
+        if let (Some(b), true, 0) = (p.program.bucket, self.mode.thrusting, self.mode.stage) {
+            if !self.flags.in_bucket && !self.flags.bucket_done {
+                tv.push((TimeEvent::BucketStart, b.start_s));
+            } else if self.flags.in_bucket {
+                tv.push((TimeEvent::BucketEnd, b.start_s + b.duration_s));
+            }
+        }
+        for (i, j) in p.vehicle.jettisons.iter().enumerate() {
+            if let (JettisonWhen::Time(t), false) = (j.when, self.flags.jettisoned[i]) {
+                tv.push((TimeEvent::Jettison(i), t));
+            }
+        }
+        let start = self.flags.arc_start_s;
+        match &p.program.arcs[self.mode.arc] {
+            Arc::Burn {
+                cutoff: Cutoff::Duration(d),
+                ..
+            } => tv.push((TimeEvent::BurnDuration, start + d)),
+            Arc::Coast(CoastEnd::Duration(d)) => tv.push((TimeEvent::CoastDuration, start + d)),
+            _ => {}
+        }
+        tv
+    }
+
+    /// Integrates to the next event and applies it.
+    fn segment(&mut self) {
+        self.out.stats.segments += 1;
+        if self.out.stats.segments as usize > MAX_SEGMENTS {
+            self.ended = Some(EndReason::EventLimit);
+            return;
+        }
+        let evs = self.state_events();
+        let tevs = self.time_events();
+        // Conditions already true at the segment start fire at once.
+        for ev in evs.iter().filter(|e| !e.crossing_only()) {
+            if events::value(self.p, &self.mode, ev, self.t, &self.y) >= 0.0 {
+                return self.apply(Stop::State(*ev));
+            }
+        }
+        let (tev, t_end) =
+            tevs.iter()
+                .copied()
+                .fold((TimeEvent::TimeLimit, f64::INFINITY), |a, b| {
+                    if b.1 < a.1 {
+                        b
+                    } else {
+                        a
+                    }
+                });
+        if t_end <= self.t + TIME_EPS_S {
+            return self.apply(Stop::Time(tev));
+        }
+        match self.integrate(&evs, t_end) {
+            Ok(Some(ev)) => self.apply(Stop::State(ev)),
+            Ok(None) => {
+                self.t = t_end;
+                self.apply(Stop::Time(tev))
+            }
+            Err(message) => self.ended = Some(EndReason::IntegrationFailure { message }),
+        }
+    }
+
+    /// Integrates from the current state towards `t_end`; returns the state event that stopped it
+    /// (state and time already moved to its root) or `None` if `t_end` was reached.
+    fn integrate(&mut self, evs: &[StateEvent], t_end: f64) -> Result<Option<StateEvent>, String> {
+        let mut watch = Watch {
+            g_prev: evs
+                .iter()
+                .map(|e| events::value(self.p, &self.mode, e, self.t, &self.y))
+                .collect(),
+            fired: vec![false; evs.len()],
+            step_t: vec![self.t],
+        };
+        let ig = self.p.integrator;
+        let sys = Sys {
+            p: self.p,
+            mode: self.mode,
+            evs,
+            watch: &mut watch,
+        };
+        let mut com = ContinuousOutputModel::default();
+        let mut solver = Dopri5::new(sys, self.t, t_end, 1.0, self.y, ig.rtol, ig.atol);
+        let stats = solver
+            .integrate_with_continuous_output_model(&mut com)
+            .map_err(|e| self.integration_message(&e.to_string()))?;
+        let (t_last, y_last) = match (solver.x_out().last(), solver.y_out().last()) {
+            (Some(t), Some(y)) => (*t, *y),
+            _ => (self.t, self.y),
+        };
+        drop(solver);
+        self.out.stats.rhs_evals += u64::from(stats.num_eval);
+        self.out.stats.accepted_steps += u64::from(stats.accepted_steps);
+        self.out.stats.rejected_steps += u64::from(stats.rejected_steps);
+        let t_prev = watch.step_t.iter().rev().nth(1).copied().unwrap_or(self.t);
+        let stop = evs
+            .iter()
+            .zip(&watch.fired)
+            .filter(|(_, f)| **f)
+            .map(|(e, _)| {
+                (
+                    *e,
+                    events::locate(self.p, &self.mode, e, &com, t_prev, t_last),
+                )
+            })
+            .min_by(|a, b| a.1.total_cmp(&b.1));
+        let (t_stop, y_stop) = match stop {
+            Some((_, t)) => (t, com.evaluate(t).unwrap_or(y_last)),
+            None => (t_last, y_last),
+        };
+        self.track(&com, &watch.step_t, t_stop);
+        self.t = t_stop;
+        self.y = y_stop;
+        Ok(stop.map(|s| s.0))
+    }
+
+    fn integration_message(&self, e: &str) -> String {
+        let s = snapshot(self.p, &self.mode, self.t, &self.y);
+        format!(
+            "integrator stopped ({e}); segment started at t = {:.3} s, altitude {:.1} km, \
+             speed {:.1} m/s, mass {:.1} kg",
+            self.t,
+            s.altitude_m / 1e3,
+            s.speed_inertial_mps,
+            s.mass_kg
+        )
+    }
+
+    /// Max-Q, max acceleration and the time history over the segment just integrated.
+    fn track(&mut self, com: &ContinuousOutputModel<f64, State>, steps: &[f64], t_stop: f64) {
+        let (p, mode) = (self.p, self.mode);
+        let mut ts: Vec<f64> = steps.iter().copied().filter(|t| *t < t_stop).collect();
+        ts.push(t_stop);
+        let qa = |t: f64| com.evaluate(t).map(|y| q_and_accel(p, &mode, t, &y));
+        let samples: Vec<(f64, f64)> = ts
+            .iter()
+            .map(|t| qa(*t).unwrap_or((f64::NEG_INFINITY, f64::NEG_INFINITY)))
+            .collect();
+        let best_q = self.out.max_q.map_or(f64::NEG_INFINITY, |m| m.value);
+        if samples.iter().any(|s| s.0 > best_q) {
+            let q = refine_max(&ts, &samples, 0, |t| {
+                qa(t).map_or(f64::NEG_INFINITY, |s| s.0)
+            });
+            if let Some((v, t)) = q.filter(|(v, _)| *v > best_q) {
+                self.out.max_q = com.evaluate(t).map(|y| Extremum {
+                    value: v,
+                    at: snapshot(p, &mode, t, &y),
+                });
+            }
+        }
+        let best_a = self
+            .out
+            .max_axial_accel
+            .map_or(f64::NEG_INFINITY, |m| m.value);
+        if samples.iter().any(|s| s.1 > best_a) {
+            let a = refine_max(&ts, &samples, 1, |t| {
+                qa(t).map_or(f64::NEG_INFINITY, |s| s.1)
+            });
+            if let Some((v, t)) = a.filter(|(v, _)| *v > best_a) {
+                self.out.max_axial_accel = com.evaluate(t).map(|y| Extremum {
+                    value: v,
+                    at: snapshot(p, &mode, t, &y),
+                });
+            }
+        }
+        if let Some(dt) = self.opts.record_step_s {
+            while self.next_record_s < t_stop {
+                if let Some(y) = com.evaluate(self.next_record_s) {
+                    self.out
+                        .history
+                        .push(snapshot(p, &mode, self.next_record_s, &y));
+                }
+                self.next_record_s += dt;
+            }
+        }
+    }
+
+    fn apply(&mut self, stop: Stop) {
+        match stop {
+            Stop::Time(te) => self.apply_time(te),
+            Stop::State(se) => self.apply_state(se),
+        }
+        if self.opts.record_step_s.is_some() {
+            let s = snapshot(self.p, &self.mode, self.t, &self.y);
+            self.out.history.push(s);
+        }
+    }
+
+    fn apply_time(&mut self, te: TimeEvent) {
+        let p = self.p;
+        match te {
+            TimeEvent::RiseEnd => self.start_pitch_over(),
+            TimeEvent::PitchOverEnd => {
+                let kick = p.program.liftoff.map_or(0.0, |l| l.kick_rad);
+                self.event(
+                    EventKind::PitchOverEnd,
+                    format!("pitch-over complete ({:.3}° kick)", kick.to_degrees()),
+                );
+                self.mode.attitude = Attitude::Hold {
+                    pitch_rad: std::f64::consts::FRAC_PI_2 - kick,
+                };
+            }
+            TimeEvent::BoosterSeparation => self.separate_boosters(),
+            TimeEvent::BucketStart => {
+                self.event(EventKind::BucketStart, "throttle bucket begins");
+                self.flags.in_bucket = true;
+                self.set_nominal(self.nominal_throttle());
+            }
+            TimeEvent::BucketEnd => {
+                self.event(EventKind::BucketEnd, "throttle bucket ends");
+                self.flags.in_bucket = false;
+                self.flags.bucket_done = true;
+                self.set_nominal(1.0);
+            }
+            TimeEvent::TableNode => {}
+            TimeEvent::Jettison(i) => self.jettison(i),
+            TimeEvent::BurnDuration => self.cutoff(),
+            TimeEvent::CoastDuration => {
+                self.event(EventKind::CoastEnd, "end of coast");
+                self.arc_done = true;
+            }
+            TimeEvent::TimeLimit => {
+                self.event(EventKind::TimeLimit, "flight-time limit");
+                self.ended = Some(EndReason::TimeLimit);
+            }
+        }
+    }
+
+    fn apply_state(&mut self, se: StateEvent) {
+        match se {
+            StateEvent::RiseSpeed(_) => self.start_pitch_over(),
+            StateEvent::AlphaZero(_) => {
+                self.event(EventKind::GravityTurnStart, "gravity turn begins (α = 0)");
+                self.mode.attitude = Attitude::ZeroAlpha;
+            }
+            StateEvent::Depletion => self.burnout(),
+            StateEvent::AccelLimitOnset => {
+                self.event(
+                    EventKind::AccelLimitOnset,
+                    "throttling to hold the acceleration limit",
+                );
+                let nominal = self.nominal_throttle();
+                self.mode.throttle = Throttle::AccelLimit { nominal };
+            }
+            StateEvent::MinThrottle => {
+                self.event(EventKind::MinThrottle, "throttle at its minimum");
+                let k = self.p.vehicle.stages[self.mode.stage].min_throttle;
+                self.mode.throttle = Throttle::Fixed(k);
+            }
+            StateEvent::JettisonAltitude(i, _) | StateEvent::HeatingFall(i, _) => self.jettison(i),
+            StateEvent::HeatingArm(i, _) => self.flags.heating_armed[i] = true,
+            StateEvent::Energy(_) | StateEvent::ApogeeRadius(_) | StateEvent::PerigeeRadius(_) => {
+                self.cutoff()
+            }
+            StateEvent::Apogee => {
+                self.event(EventKind::Apogee, "apogee: end of coast");
+                self.arc_done = true;
+            }
+            StateEvent::Ground(_) => {
+                self.event(EventKind::Impact, "ground impact");
+                self.ended = Some(EndReason::GroundImpact);
+            }
+        }
+    }
+
+    fn set_nominal(&mut self, k: f64) {
+        self.mode.throttle = match self.mode.throttle {
+            Throttle::Fixed(_) => Throttle::Fixed(k),
+            Throttle::AccelLimit { .. } => Throttle::AccelLimit { nominal: k },
+        };
+    }
+
+    fn start_pitch_over(&mut self) {
+        self.event(
+            EventKind::PitchOverStart,
+            "end of vertical rise: pitch-over begins",
+        );
+        self.mode.attitude = Attitude::PitchOver { start_s: self.t };
+    }
+
+    fn separate_boosters(&mut self) {
+        if let Some(b) = &self.p.vehicle.boosters {
+            let left = b.mass_at_kg(self.t) - f64::from(b.count) * b.dry_mass_kg;
+            let label = if left > 1e-6 {
+                format!(
+                    "{} × {} separation with {left:.0} kg propellant left",
+                    b.count, b.name
+                )
+            } else {
+                format!("{} × {} burnout and separation", b.count, b.name)
+            };
+            self.event(EventKind::BoosterSeparation, label);
+            self.y[ix::M] -= b.mass_at_kg(self.t);
+        }
+        self.mode.boosters_attached = false;
+    }
+
+    fn jettison(&mut self, i: usize) {
+        let j = &self.p.vehicle.jettisons[i];
+        self.event(EventKind::Jettison, format!("jettison: {}", j.name));
+        self.y[ix::M] -= j.mass_kg;
+        self.mode.other_mass_kg -= j.mass_kg;
+        self.flags.jettisoned[i] = true;
+    }
+
+    fn cutoff(&mut self) {
+        let name = self.p.vehicle.stages[self.mode.stage].name.clone();
+        self.event(EventKind::Cutoff, format!("cutoff: {name}"));
+        // Strap-on boosters cannot be shut down: a core cutoff drops any still attached.
+        if self.mode.boosters_attached {
+            self.separate_boosters();
+        }
+        self.mode.thrusting = false;
+        self.arc_done = true;
+    }
+
+    /// Stage depletion: drop the stage if another follows (boosters still attached go with it).
+    fn burnout(&mut self) {
+        let p = self.p;
+        let s = self.mode.stage;
+        let label = if s + 1 < p.vehicle.stages.len() {
+            format!("burnout and separation: {}", p.vehicle.stages[s].name)
+        } else {
+            format!("burnout: {}", p.vehicle.stages[s].name)
+        };
+        self.event(EventKind::Burnout, label);
+        self.mode.thrusting = false;
+        self.arc_done = true;
+        self.flags.in_bucket = false;
+        if s + 1 >= p.vehicle.stages.len() {
+            self.flags.stage_spent = true;
+            return;
+        }
+        if self.mode.boosters_attached {
+            self.separate_boosters();
+        }
+        let residual = events::value(p, &self.mode, &StateEvent::Depletion, self.t, &self.y);
+        self.y[ix::M] -= p.vehicle.stages[s].dry_mass_kg;
+        self.mode.stage = s + 1;
+        self.mode.throttle = Throttle::Fixed(1.0);
+        // Carry the located-root round-off (|residual| ~ 1e-9 kg) into the next stage's bookkeeping.
+        self.mode.other_mass_kg = self.y[ix::M] - p.vehicle.stages[s + 1].propellant_kg + residual;
+    }
+
+    fn finish(mut self) -> Flight {
+        self.out.end = self.ended.take().unwrap_or(EndReason::Completed);
+        self.out.t1_s = self.t;
+        self.out.y1 = self.y;
+        self.out.final_mode = self.mode;
+        let spent = self.flags.stage_spent;
+        let current = if spent {
+            0.0
+        } else {
+            super::dynamics::stage_propellant_kg(self.p, &self.mode, self.t, self.y[ix::M]).max(0.0)
+        };
+        let later: f64 = self
+            .p
+            .vehicle
+            .stages
+            .iter()
+            .skip(self.mode.stage + 1)
+            .map(|s| s.propellant_kg)
+            .sum();
+        self.out.propellant_remaining_kg = current + later;
+        if let Some(m) = self.out.max_q {
+            let pos = self.out.events.partition_point(|e| e.at.t_s <= m.at.t_s);
+            self.out.events.insert(
+                pos,
+                EventRecord {
+                    kind: EventKind::MaxQ,
+                    label: "maximum dynamic pressure".into(),
+                    at: m.at,
+                },
+            );
+        }
+        self.out
+    }
+}
+
+/// Dynamic pressure (Pa) and sensed axial acceleration (g0) at (t, y).
+fn q_and_accel(p: &Problem, mode: &Mode, t: f64, y: &State) -> (f64, f64) {
+    let r = Vector3::new(y[0], y[1], y[2]);
+    let v = Vector3::new(y[3], y[4], y[5]);
+    let loc = p.environment.local(t, &r, &v);
+    let f = super::dynamics::forces(p, mode, t, y[ix::M], &loc);
+    let accel =
+        (f.thrust_n + f.aero_n.dot(&f.dir)) / y[ix::M] / crate::core::physics::earth::G0_MPS2;
+    (f.q_pa, accel)
+}
+
+/// Largest of the sampled values (`samples[k].{which}` at `ts[k]`), refined by golden-section
+/// search on `f` between the neighbours of the best sample. Returns (value, time).
+fn refine_max(
+    ts: &[f64],
+    samples: &[(f64, f64)],
+    which: usize,
+    f: impl Fn(f64) -> f64,
+) -> Option<(f64, f64)> {
+    let val = |k: usize| {
+        if which == 0 {
+            samples[k].0
+        } else {
+            samples[k].1
+        }
+    };
+    let k = (0..ts.len())
+        .filter(|k| val(*k).is_finite())
+        .max_by(|a, b| val(*a).total_cmp(&val(*b)))?;
+    let (mut a, mut b) = (ts[k.saturating_sub(1)], ts[(k + 1).min(ts.len() - 1)]);
+    let gr = 0.5 * (5f64.sqrt() - 1.0);
+    let (mut c, mut d) = (b - gr * (b - a), a + gr * (b - a));
+    let (mut fc, mut fd) = (f(c), f(d));
+    while b - a > 1e-6 {
+        if fc >= fd {
+            b = d;
+            (d, fd) = (c, fc);
+            c = b - gr * (b - a);
+            fc = f(c);
+        } else {
+            a = c;
+            (c, fc) = (d, fd);
+            d = a + gr * (b - a);
+            fd = f(d);
+        }
+    }
+    let t = 0.5 * (a + b);
+    let v = f(t);
+    if v >= val(k) {
+        Some((v, t))
+    } else {
+        Some((val(k), ts[k]))
+    }
+}

@@ -1,0 +1,119 @@
+//! Derived quantities at one instant (for the event table, the time history and max-Q).
+
+use nalgebra::Vector3;
+use serde::Serialize;
+
+use super::dynamics::{forces, ix, Mode, State};
+use crate::core::physics::earth::{self, G0_MPS2};
+use crate::core::physics::environment::EarthModel;
+use crate::core::problem::Problem;
+
+/// Flight quantities at one instant. Angles in degrees, as reported.
+#[derive(Debug, Clone, Copy, Serialize, PartialEq)]
+pub struct Snapshot {
+    /// Time since liftoff, s.
+    pub t_s: f64,
+    /// Geodetic altitude, m.
+    pub altitude_m: f64,
+    /// Ground distance from the pad along a sphere of radius 6378.137 km, m.
+    pub downrange_m: f64,
+    /// Geodetic latitude, deg.
+    pub latitude_deg: f64,
+    /// Earth-fixed longitude, deg.
+    pub longitude_deg: f64,
+    /// Earth-relative speed, m/s.
+    pub speed_rel_mps: f64,
+    /// Inertial speed, m/s.
+    pub speed_inertial_mps: f64,
+    /// Earth-relative flight-path angle, deg.
+    pub flight_path_rel_deg: f64,
+    /// Inertial flight-path angle, deg.
+    pub flight_path_inertial_deg: f64,
+    /// Thrust-axis pitch above the local horizontal, deg.
+    pub pitch_deg: f64,
+    /// Angle between the thrust axis and the Earth-relative velocity, deg.
+    pub alpha_deg: f64,
+    /// Mach number.
+    pub mach: f64,
+    /// Dynamic pressure, Pa.
+    pub dynamic_pressure_pa: f64,
+    /// Sensed axial acceleration (thrust + aerodynamic force along the axis) / m, in g0.
+    pub axial_accel_g: f64,
+    /// Core throttle (0 when not firing).
+    pub throttle: f64,
+    /// Mass, kg.
+    pub mass_kg: f64,
+    /// Cumulative ideal ΔV, m/s.
+    pub ideal_mps: f64,
+    /// Cumulative gravity loss (Earth-relative bookkeeping), m/s.
+    pub gravity_loss_rel_mps: f64,
+    /// Cumulative drag loss (Earth-relative bookkeeping), m/s.
+    pub drag_loss_rel_mps: f64,
+    /// Cumulative steering loss (Earth-relative bookkeeping), m/s.
+    pub steering_loss_rel_mps: f64,
+    /// Cumulative back-pressure loss, m/s.
+    pub back_pressure_loss_mps: f64,
+}
+
+fn angle_deg(a: &Vector3<f64>, b: &Vector3<f64>) -> f64 {
+    let n = a.norm() * b.norm();
+    if n > 0.0 {
+        (a.dot(b) / n).clamp(-1.0, 1.0).acos().to_degrees()
+    } else {
+        0.0
+    }
+}
+
+fn elevation_deg(v: &Vector3<f64>, up: &Vector3<f64>) -> f64 {
+    90.0 - angle_deg(v, up)
+}
+
+/// Ground distance from the pad, m.
+fn downrange_m(p: &Problem, t: f64, r: &Vector3<f64>) -> f64 {
+    match p.environment.earth {
+        EarthModel::Flat { .. } => r.x.hypot(r.y),
+        EarthModel::Wgs84 { .. } => {
+            let pad = earth::geodetic_to_ecef(&p.site.geodetic);
+            let now = earth::eci_to_ecef(r, p.environment.rotation_angle_rad(t));
+            earth::WGS84_A_M * angle_deg(&pad, &now).to_radians()
+        }
+    }
+}
+
+/// Flight quantities at (t, y) under `mode`.
+pub fn snapshot(p: &Problem, mode: &Mode, t: f64, y: &State) -> Snapshot {
+    let r = Vector3::new(y[0], y[1], y[2]);
+    let v = Vector3::new(y[3], y[4], y[5]);
+    let m = y[ix::M];
+    let loc = p.environment.local(t, &r, &v);
+    let f = forces(p, mode, t, m, &loc);
+    let thrusting = f.thrust_vac_n > 0.0;
+    let axis = if thrusting { f.dir } else { loc.v_rel_mps };
+    Snapshot {
+        t_s: t,
+        altitude_m: loc.altitude_m,
+        downrange_m: downrange_m(p, t, &r),
+        latitude_deg: loc.latitude_rad.to_degrees(),
+        longitude_deg: loc.longitude_rad.to_degrees(),
+        speed_rel_mps: loc.v_rel_mps.norm(),
+        speed_inertial_mps: v.norm(),
+        flight_path_rel_deg: elevation_deg(&loc.v_rel_mps, &loc.up),
+        flight_path_inertial_deg: elevation_deg(&v, &loc.up),
+        pitch_deg: elevation_deg(&axis, &loc.up),
+        alpha_deg: if thrusting {
+            angle_deg(&f.dir, &loc.v_rel_mps)
+        } else {
+            0.0
+        },
+        mach: f.mach,
+        dynamic_pressure_pa: f.q_pa,
+        axial_accel_g: (f.thrust_n + f.aero_n.dot(&f.dir)) / m / G0_MPS2,
+        throttle: f.throttle,
+        mass_kg: m,
+        ideal_mps: y[ix::IDEAL],
+        gravity_loss_rel_mps: y[ix::GRAV_R],
+        drag_loss_rel_mps: y[ix::DRAG_R],
+        steering_loss_rel_mps: y[ix::STEER_R],
+        back_pressure_loss_mps: y[ix::PRESS],
+    }
+}

@@ -1,0 +1,175 @@
+//! CSV renderings: the time history (one row per recorded instant, units in the column names;
+//! cumulative losses named `_rel_` are in the Earth-relative bookkeeping), study points (one
+//! column set for sweeps and comparisons) and trade factors.
+
+use std::io::Write;
+
+use crate::app::study::{Point, TradeReport};
+use crate::core::sim::Snapshot;
+
+/// Runs `write` on an in-memory CSV writer and returns the text (writing to memory cannot fail;
+/// a formatting error leaves what was written so far).
+fn to_string(write: impl FnOnce(&mut csv::Writer<Vec<u8>>) -> Result<(), csv::Error>) -> String {
+    let mut out = csv::Writer::from_writer(Vec::new());
+    let _ = write(&mut out);
+    let bytes = out.into_inner().unwrap_or_default();
+    String::from_utf8_lossy(&bytes).into_owned()
+}
+
+/// Column headers, in order.
+pub const COLUMNS: [&str; 21] = [
+    "t_s",
+    "altitude_m",
+    "downrange_m",
+    "latitude_deg",
+    "longitude_deg",
+    "speed_rel_mps",
+    "speed_inertial_mps",
+    "flight_path_rel_deg",
+    "flight_path_inertial_deg",
+    "pitch_deg",
+    "alpha_deg",
+    "mach",
+    "dynamic_pressure_pa",
+    "axial_accel_g",
+    "throttle",
+    "mass_kg",
+    "ideal_mps",
+    "gravity_loss_rel_mps",
+    "drag_loss_rel_mps",
+    "steering_loss_rel_mps",
+    "back_pressure_loss_mps",
+];
+
+/// The time history as CSV text.
+pub fn history(rows: &[Snapshot]) -> String {
+    to_string(|out| history_rows(out, rows))
+}
+
+/// Writes the history as CSV to `w`.
+pub fn write_history<W: Write>(w: W, rows: &[Snapshot]) -> Result<(), csv::Error> {
+    let mut out = csv::Writer::from_writer(w);
+    history_rows(&mut out, rows)
+}
+
+fn history_rows<W: Write>(out: &mut csv::Writer<W>, rows: &[Snapshot]) -> Result<(), csv::Error> {
+    out.write_record(COLUMNS)?;
+    for s in rows {
+        let vals = [
+            s.t_s,
+            s.altitude_m,
+            s.downrange_m,
+            s.latitude_deg,
+            s.longitude_deg,
+            s.speed_rel_mps,
+            s.speed_inertial_mps,
+            s.flight_path_rel_deg,
+            s.flight_path_inertial_deg,
+            s.pitch_deg,
+            s.alpha_deg,
+            s.mach,
+            s.dynamic_pressure_pa,
+            s.axial_accel_g,
+            s.throttle,
+            s.mass_kg,
+            s.ideal_mps,
+            s.gravity_loss_rel_mps,
+            s.drag_loss_rel_mps,
+            s.steering_loss_rel_mps,
+            s.back_pressure_loss_mps,
+        ];
+        let rec: Vec<String> = vals.iter().map(|v| format!("{v:.6}")).collect();
+        out.write_record(&rec)?;
+    }
+    out.flush()?;
+    Ok(())
+}
+
+/// Columns of a study point row: (header, value).
+fn point_row(label: &str, p: &Point) -> Vec<(String, String)> {
+    // The swept value gets its own column name: `payload_kg` is also a result column.
+    let status = p.status.as_str().to_string();
+    let mut v = vec![
+        (format!("swept_{label}"), format!("{}", p.value)),
+        ("status".into(), status),
+    ];
+    let f = |x: f64| format!("{x:.3}");
+    if let Some(r) = &p.report {
+        let b = &r.flight.budget;
+        let o = &r.flight.orbit;
+        for (h, x) in [
+            ("payload_kg", r.payload_kg),
+            ("propellant_used_kg", r.propellant_used_kg),
+            ("margin_kg", r.margin_kg),
+            ("margin_mps", r.margin_mps),
+            ("ideal_mps", b.ideal_mps),
+            ("gravity_loss_mps", b.gravity_loss_mps),
+            ("drag_loss_mps", b.drag_loss_mps),
+            ("steering_loss_mps", b.steering_loss_mps),
+            ("back_pressure_loss_mps", b.back_pressure_loss_mps),
+            ("earth_rotation_mps", b.earth_rotation_mps),
+            ("rotating_frame_mps", b.rotating_frame_mps),
+            ("inclination_deg", o.inclination_deg),
+            ("perigee_alt_km", o.perigee_alt_km),
+            (
+                "max_dynamic_pressure_kpa",
+                r.flight.max_dynamic_pressure_pa / 1e3,
+            ),
+            ("max_axial_accel_g", r.flight.max_axial_accel_g),
+        ] {
+            v.push((h.into(), f(x)));
+        }
+        v.push((
+            "trajectories".into(),
+            r.convergence.trajectories.to_string(),
+        ));
+    }
+    v
+}
+
+/// Study points as CSV text; `label` names the swept column (`swept_<label>`). Every row has
+/// every column; unsolved points leave the result columns empty.
+pub fn points(label: &str, pts: &[Point]) -> String {
+    let header: Vec<String> = pts
+        .iter()
+        .map(|p| point_row(label, p))
+        .max_by_key(Vec::len)
+        .map(|r| r.into_iter().map(|(h, _)| h).collect())
+        .unwrap_or_default();
+    to_string(|out| {
+        out.write_record(&header)?;
+        for p in pts {
+            let r = point_row(label, p);
+            let rec: Vec<String> = header
+                .iter()
+                .map(|h| {
+                    r.iter()
+                        .find(|(k, _)| k == h)
+                        .map(|(_, v)| v.clone())
+                        .unwrap_or_default()
+                })
+                .collect();
+            out.write_record(&rec)?;
+        }
+        out.flush()?;
+        Ok(())
+    })
+}
+
+/// Trade factors as CSV text.
+pub fn trade(r: &TradeReport) -> String {
+    to_string(|out| {
+        out.write_record(["parameter", "step", "factor", "unit", "ok"])?;
+        for f in &r.factors {
+            out.write_record([
+                f.name.clone(),
+                f.step.to_string(),
+                f.factor.to_string(),
+                f.unit.to_string(),
+                f.ok.to_string(),
+            ])?;
+        }
+        out.flush()?;
+        Ok(())
+    })
+}

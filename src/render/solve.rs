@@ -1,0 +1,83 @@
+//! Text rendering of a solve: the verdict, the search, the tuned program, then the flight report.
+
+use std::fmt::Write as _;
+
+use super::text;
+use crate::app::solve::SolveReport;
+use crate::core::optimize::{Convergence, SolveStatus};
+
+fn status_line(c: &Convergence) -> &'static str {
+    match c.status {
+        SolveStatus::Converged => "SOLVED",
+        SolveStatus::BudgetExhausted => {
+            "STOPPED: the wall-time or trajectory budget ended the search"
+        }
+        SolveStatus::IterationLimit => "SOLVED (the outer search stopped at its iteration limit)",
+        SolveStatus::Infeasible => "NOT SOLVED: no program found reaches the target",
+    }
+}
+
+/// Text rendering: the solve verdict, the tuned program, then the flight report.
+pub fn render(r: &SolveReport) -> String {
+    let mut s = summary(r);
+    s.push('\n');
+    s.push_str(&text::render(&r.flight));
+    s
+}
+
+/// The solve's own part of the report: verdict, search, residuals, tuned program, active limits
+/// and richer programs (no blank line inside).
+pub fn summary(r: &SolveReport) -> String {
+    let mut s = String::new();
+    let c = &r.convergence;
+    let _ = writeln!(
+        s,
+        "{}: propellant used {:.1} kg, left {:.1} kg, reserves {:.1} kg, margin {:.1} kg \
+         ({:.1} m/s), payload {:.1} kg",
+        status_line(c),
+        r.propellant_used_kg,
+        r.propellant_remaining_kg,
+        r.reserves.total_kg(),
+        r.margin_kg,
+        r.margin_mps,
+        r.payload_kg
+    );
+    let _ = writeln!(
+        s,
+        "search: {} outer iterations, {} trajectories, {:.2} s; {}",
+        c.iterations, c.trajectories, c.wall_s, c.reason
+    );
+    if let Some(short) = r.shortfall_mps {
+        let apo = r
+            .flight
+            .orbit
+            .apogee_alt_km
+            .map_or("unbound".into(), |a| format!("{a:.1} km"));
+        let _ = writeln!(
+            s,
+            "best program found: {short:.1} m/s short of the target energy; apogee {apo}, perigee {:.1} km",
+            r.flight.orbit.perigee_alt_km
+        );
+    }
+    let res: Vec<String> = c
+        .terminal_residuals
+        .iter()
+        .map(|(n, v)| format!("{n} {v:+.3e}"))
+        .collect();
+    let _ = writeln!(s, "terminal residuals: {}", res.join(", "));
+    let _ = writeln!(s, "tuned program:");
+    for t in &r.tuned {
+        let _ = writeln!(s, "  {:<64} {:>14.6}", t.field, t.value);
+    }
+    for a in &r.active_constraints {
+        let _ = writeln!(s, "active: {a}");
+    }
+    for x in &r.richer_programs {
+        let _ = writeln!(
+            s,
+            "richer program: {} would gain {:.1} kg (propellant saved, or payload in the payload mode; {:.1} m/s of last-stage ΔV) [{}]",
+            x.variant, x.saves_kg, x.saves_mps, x.how
+        );
+    }
+    s
+}
