@@ -10,6 +10,7 @@ use kickturn::optimize::{objective, solve, Param, SolveOptions, SolveStatus};
 use kickturn::physics::environment::{AtmosphereModel, EarthModel, Environment};
 use kickturn::problem::{Insertion, Problem, Target};
 use kickturn::sim::{fly, FlyOptions};
+use kickturn::steering::LawParam;
 
 fn root() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
@@ -134,8 +135,13 @@ fn linear_tangent_optimum_matches_the_closed_form() {
             .find(|(w, _)| *w == v)
             .map_or(f64::NAN, |(_, x)| *x)
     };
-    let theta0 = value(Param::Pitch0(0));
-    let rate = value(Param::TanRate(0));
+    let law = |param| Param::Law {
+        arc: 0,
+        law: "linear_tangent",
+        param,
+    };
+    let theta0 = value(law(LawParam::Pitch0));
+    let rate = value(law(LawParam::TanRate));
     let flight = fly(&sol.problem, &FlyOptions::default());
     let rel = |got: f64, want: f64| ((got - want) / want).abs();
     assert!(

@@ -26,7 +26,7 @@ use serde::Serialize;
 use crate::core::observe::Observer;
 pub use crate::core::problem::params::Param;
 use crate::core::problem::{Problem, Target};
-use crate::core::steering::{Arc, CoastEnd, Cutoff, Steering};
+use crate::core::steering::{Arc, CoastEnd, Control, Cutoff, SteeringLaw};
 use targeting::Eval;
 
 /// Objective penalty per unit of normalized residual above the inner tolerance, kg.
@@ -252,19 +252,49 @@ fn struct_err(field: &str, reason: &str) -> SolveError {
     }
 }
 
-/// Index of the arc whose linear tangent law steers arc `i` (itself or the one it continues).
+/// Index of the arc whose tunable law steers arc `i`: itself when its law has parameters to
+/// tune, the latest such earlier arc when its law continues an earlier one.
 fn law_owner(p: &Problem, i: usize) -> Option<usize> {
-    match &p.program.arcs[i] {
-        Arc::Burn {
-            steering: Steering::LinearTangent(_),
-            ..
-        } => Some(i),
-        Arc::Burn {
-            steering: Steering::LinearTangentContinued,
-            ..
-        } => (0..i).rev().find(|j| law_owner(p, *j) == Some(*j)),
+    let Arc::Burn { steering, .. } = &p.program.arcs[i] else {
+        return None;
+    };
+    let law = steering.law();
+    if law.continues_previous() {
+        (0..i).rev().find(|j| law_owner(p, *j) == Some(*j))
+    } else {
+        (!law.shape_params().is_empty()).then_some(i)
+    }
+}
+
+/// The law of arc `arc` (a burn's; `None` for a coast).
+fn law_of(p: &Problem, arc: usize) -> Option<&dyn SteeringLaw> {
+    match p.program.arcs.get(arc) {
+        Some(Arc::Burn { steering, .. }) => Some(steering.law()),
         _ => None,
     }
+}
+
+/// The registry parameters of arc `arc`'s law: its shape (`plane` false) or plane parameters.
+fn law_params(p: &Problem, arc: usize, plane: bool) -> Vec<Param> {
+    law_of(p, arc).map_or_else(Vec::new, |law| {
+        let list = if plane {
+            law.plane_params()
+        } else {
+            law.shape_params()
+        };
+        list.iter()
+            .map(|&param| Param::Law {
+                arc,
+                law: law.file_key(),
+                param,
+            })
+            .collect()
+    })
+}
+
+/// The law of arc `arc` can steer to `c`.
+fn controls(p: &Problem, arc: usize, c: Control) -> bool {
+    law_of(p, arc).is_some_and(|l| l.controls().contains(&c))
 }
 
 /// A burn–coast-to-apogee–burn ending: (transfer burn with an apogee cutoff, final burn).
@@ -298,54 +328,70 @@ fn choose_vars(
         .rev()
         .find(|i| matches!(arcs[*i], Arc::Burn { .. }))
         .ok_or_else(|| struct_err("ascent.arcs", "no burn"))?;
-    let owner = law_owner(p, last).ok_or_else(|| {
-        struct_err(
-            &format!("ascent.arcs[{last}].burn.steering"),
-            "the last burn must use linear_tangent steering (or continue one) for the optimizer",
-        )
-    })?;
-    let first_law = (0..arcs.len())
-        .find(|i| law_owner(p, *i) == Some(*i))
+    let owner = law_owner(p, last)
+        .filter(|o| controls(p, *o, Control::InPlane))
+        .ok_or_else(|| {
+            struct_err(
+                &format!("ascent.arcs[{last}].burn.steering"),
+                "the last burn must use a law that steers to the insertion conditions \
+                 (linear_tangent, or continue one) for the optimizer",
+            )
+        })?;
+    let owners: Vec<usize> = (0..arcs.len())
+        .filter(|i| law_owner(p, *i) == Some(*i))
+        .collect();
+    // The plane is steered by the first law that can (its heading, and its yaw term for a
+    // dog-leg).
+    let first_law = owners
+        .iter()
+        .copied()
+        .find(|i| controls(p, *i, Control::Plane))
         .unwrap_or(owner);
+    let shape = law_params(p, owner, false);
+    let plane = law_params(p, first_law, true);
     let has = |g: &str| o.free.iter().any(|f| f == g);
     let fixed = |g: &str| o.fix.iter().any(|f| f == g);
     let mut inner = Vec::new();
     let mut outer = Vec::new();
+    // The law's first shape parameter (the initial pitch) meets the radius or perigee condition;
+    // its second (the pitch rate) the flight-path angle, or it is tuned outside for a free
+    // insertion.
+    let (first, second) = (shape.first().copied(), shape.get(1).copied());
     match (circularization(p, last), t.insertion) {
         (Some(transfer), _) => {
             inner.push(Param::ApogeeCutoff(transfer));
-            inner.push(Param::Pitch0(owner));
+            inner.extend(first);
         }
         (None, crate::core::problem::Insertion::Free) => {
-            inner.push(Param::Pitch0(owner));
+            inner.extend(first);
             if !fixed("steering") {
-                outer.push(Param::TanRate(owner));
+                outer.extend(second);
             }
         }
         (None, _) => {
-            inner.push(Param::Pitch0(owner));
-            inner.push(Param::TanRate(owner));
+            inner.extend(first);
+            inner.extend(second);
         }
     }
     if t.inclination_rad.is_some() {
+        let (heading, yaw) = (plane.first().copied(), plane.get(1).copied());
         if p.allow_dog_leg && p.unreachable_inclination().is_some() {
-            // Dog-leg: the yaw rate makes the plane change; the heading is tuned outside.
-            inner.push(Param::YawRate(first_law));
-            outer.push(Param::Heading(first_law));
+            // Dog-leg: the yaw term makes the plane change; the heading is tuned outside.
+            inner.extend(yaw);
+            outer.extend(heading);
             if !fixed("azimuth") && !outer.contains(&Param::Azimuth) {
                 outer.push(Param::Azimuth);
             }
         } else {
-            inner.push(Param::Heading(first_law));
+            inner.extend(heading);
         }
     }
     if p.program.liftoff.is_some() && !fixed("kick") {
         outer.push(Param::Kick);
     }
     if !fixed("steering") {
-        for i in (0..arcs.len()).filter(|i| law_owner(p, *i) == Some(*i) && *i != owner) {
-            outer.push(Param::Pitch0(i));
-            outer.push(Param::TanRate(i));
+        for i in owners.iter().copied().filter(|i| *i != owner) {
+            outer.extend(law_params(p, i, false));
         }
     }
     for (g, v) in [

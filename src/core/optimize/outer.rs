@@ -16,7 +16,7 @@ use super::{objective, Ctx, SolveOptions};
 use crate::core::problem::params::Param;
 use crate::core::problem::Problem;
 use crate::core::sim::{fly, FlyOptions};
-use crate::core::steering::{Arc, Steering};
+use crate::core::steering::{Arc, LawParam, Steering};
 
 /// Objective returned once the budget is spent, kg.
 const BUDGET_SPENT_COST: f64 = 1e30;
@@ -67,7 +67,11 @@ fn auto_laws(ctx: &Ctx, p: &mut Problem) {
         .iter()
         .any(|v| matches!(v, Param::ApogeeCutoff(_)));
     let last_owner = ctx.spec.inner.iter().find_map(|v| match v {
-        Param::Pitch0(a) => Some(*a),
+        Param::Law {
+            arc,
+            param: LawParam::Pitch0,
+            ..
+        } => Some(*arc),
         _ => None,
     });
     for (i, a) in p.program.arcs.iter_mut().enumerate() {
@@ -157,7 +161,12 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
         }
     }
     for v in ctx.spec.inner.iter().chain(&ctx.spec.outer) {
-        if let Param::Heading(arc) = v {
+        if let Param::Law {
+            arc,
+            param: LawParam::Heading,
+            ..
+        } = v
+        {
             if v.get(&p).is_none() || o.scan {
                 let h = heading_guess(ctx, &p, *arc);
                 v.set(&mut p, h);
@@ -170,11 +179,15 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
     // With an outer law, its initial pitch is scanned too when the plain kick scan finds no
     // start that meets the conditions: the feasible kick band of a low thrust-to-weight vehicle
     // moves with the upper-stage pitch.
-    let law = ctx
-        .spec
-        .outer
-        .iter()
-        .position(|v| matches!(v, Param::Pitch0(_)));
+    let law = ctx.spec.outer.iter().position(|v| {
+        matches!(
+            v,
+            Param::Law {
+                param: LawParam::Pitch0,
+                ..
+            }
+        )
+    });
     let shift = jitter.as_mut().map_or(1.0, |j| j.factor(0.3));
     let scan_row = |level: f64| -> Vec<Vec<f64>> {
         match (o.scan, kick) {
@@ -536,7 +549,12 @@ fn nelder_mead(
         let mut x = x0.to_vec();
         x[i] += if matches!(
             outer.ctx.spec.outer[i],
-            Param::Coast(_) | Param::Azimuth | Param::Heading(_)
+            Param::Coast(_)
+                | Param::Azimuth
+                | Param::Law {
+                    param: LawParam::Heading,
+                    ..
+                }
         ) {
             20.0 * step
         } else {

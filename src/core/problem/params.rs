@@ -9,10 +9,10 @@
 //! the file, which keeps its own units (degrees, kilometres).
 
 use crate::core::problem::file::{
-    ArcFile, BucketFile, CoastFile, CutoffFile, ProblemFile, RiseEndFile, SteeringFile,
+    ArcFile, BucketFile, CoastFile, CutoffFile, ProblemFile, RiseEndFile,
 };
 use crate::core::problem::Problem;
-use crate::core::steering::{Arc, CoastEnd, Cutoff, RiseEnd, Steering};
+use crate::core::steering::{Arc, CoastEnd, Cutoff, LawParam, RiseEnd, Steering, SteeringLaw};
 
 /// One variable parameter of a problem. Values are SI (radians, seconds, metres, kilograms).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -41,14 +41,15 @@ pub enum Param {
     RiseTime,
     /// Launch azimuth, rad.
     Azimuth,
-    /// Initial pitch of the linear tangent law of arc `usize`, rad.
-    Pitch0(usize),
-    /// Tangent rate of the law of arc `usize`, 1/s.
-    TanRate(usize),
-    /// Heading of the law of arc `usize`, rad.
-    Heading(usize),
-    /// Out-of-plane (yaw) rate of the law of arc `usize`, 1/s.
-    YawRate(usize),
+    /// A tunable parameter of the steering law of an arc (declared by the law).
+    Law {
+        /// Arc index.
+        arc: usize,
+        /// The law's key in the problem file (`linear_tangent`).
+        law: &'static str,
+        /// Which parameter.
+        param: LawParam,
+    },
     /// Apogee-altitude cutoff value of arc `usize`, m.
     ApogeeCutoff(usize),
     /// Duration of coast arc `usize`, s.
@@ -63,22 +64,16 @@ pub enum Param {
     Payload,
 }
 
-fn lt_mut(p: &mut Problem, arc: usize) -> Option<&mut crate::core::steering::LinearTangent> {
-    match p.program.arcs.get_mut(arc) {
-        Some(Arc::Burn {
-            steering: Steering::LinearTangent(lt),
-            ..
-        }) => Some(lt),
+fn law(p: &Problem, arc: usize) -> Option<&dyn SteeringLaw> {
+    match p.program.arcs.get(arc) {
+        Some(Arc::Burn { steering, .. }) => Some(steering.law()),
         _ => None,
     }
 }
 
-fn lt(p: &Problem, arc: usize) -> Option<&crate::core::steering::LinearTangent> {
-    match p.program.arcs.get(arc) {
-        Some(Arc::Burn {
-            steering: Steering::LinearTangent(lt),
-            ..
-        }) => Some(lt),
+fn law_mut(p: &mut Problem, arc: usize) -> Option<&mut dyn SteeringLaw> {
+    match p.program.arcs.get_mut(arc) {
+        Some(Arc::Burn { steering, .. }) => steering.law_mut(),
         _ => None,
     }
 }
@@ -93,11 +88,10 @@ impl Param {
             Param::TargetInclination => 1f64.to_radians(),
             Param::CircularAltitude => 10e3,
             Param::DragScale => 0.01,
-            Param::Kick | Param::Azimuth | Param::Heading(_) => 1f64.to_radians(),
+            Param::Kick | Param::Azimuth => 1f64.to_radians(),
+            Param::Law { param, .. } => param.scale(),
             Param::PitchRate => 0.1f64.to_radians(),
             Param::RiseTime => 1.0,
-            Param::Pitch0(_) => 10f64.to_radians(),
-            Param::TanRate(_) | Param::YawRate(_) => 1e-3,
             Param::ApogeeCutoff(_) => 10e3,
             Param::Coast(_) | Param::BucketStart | Param::BucketDuration => 10.0,
             Param::BucketThrottle => 0.1,
@@ -119,9 +113,7 @@ impl Param {
             Param::PitchRate => (d(0.05), d(10.0)),
             Param::RiseTime => (1.0, 60.0),
             Param::Azimuth => (d(-720.0), d(720.0)),
-            Param::Pitch0(_) => (d(-60.0), d(80.0)),
-            Param::TanRate(_) | Param::YawRate(_) => (-0.05, 0.05),
-            Param::Heading(_) => (d(-720.0), d(720.0)),
+            Param::Law { param, .. } => param.bounds(),
             Param::ApogeeCutoff(_) => (80e3, 1e8),
             Param::Coast(_) => (0.5, 1e5),
             Param::BucketStart => (0.0, 1e4),
@@ -153,10 +145,7 @@ impl Param {
                 _ => None,
             },
             Param::Azimuth => Some(p.azimuth_rad),
-            Param::Pitch0(a) => lt(p, a).map(|l| l.pitch0_rad),
-            Param::TanRate(a) => lt(p, a).map(|l| l.tan_rate_per_s),
-            Param::Heading(a) => lt(p, a).and_then(|l| l.heading_rad),
-            Param::YawRate(a) => lt(p, a).map(|l| l.yaw_rate_per_s),
+            Param::Law { arc, param, .. } => law(p, arc).and_then(|l| l.get(param)),
             Param::ApogeeCutoff(a) => match p.program.arcs.get(a) {
                 Some(Arc::Burn {
                     cutoff: Cutoff::ApogeeAlt(h),
@@ -230,24 +219,9 @@ impl Param {
                 }
             }
             Param::Azimuth => p.azimuth_rad = v.rem_euclid(std::f64::consts::TAU),
-            Param::Pitch0(a) => {
-                if let Some(l) = lt_mut(p, a) {
-                    l.pitch0_rad = v;
-                }
-            }
-            Param::TanRate(a) => {
-                if let Some(l) = lt_mut(p, a) {
-                    l.tan_rate_per_s = v;
-                }
-            }
-            Param::Heading(a) => {
-                if let Some(l) = lt_mut(p, a) {
-                    l.heading_rad = Some(v);
-                }
-            }
-            Param::YawRate(a) => {
-                if let Some(l) = lt_mut(p, a) {
-                    l.yaw_rate_per_s = v;
+            Param::Law { arc, param, .. } => {
+                if let Some(l) = law_mut(p, arc) {
+                    l.set(param, v);
                 }
             }
             Param::ApogeeCutoff(a) => {
@@ -288,15 +262,11 @@ impl Param {
             Param::PitchRate => "ascent.liftoff.pitch_rate_deg_s".into(),
             Param::RiseTime => "ascent.liftoff.vertical_rise.time_s".into(),
             Param::Azimuth => "launch.azimuth_deg".into(),
-            Param::Pitch0(a) => format!("ascent.arcs[{a}].burn.steering.linear_tangent.pitch0_deg"),
-            Param::TanRate(a) => {
-                format!("ascent.arcs[{a}].burn.steering.linear_tangent.tan_rate_per_s")
-            }
-            Param::Heading(a) => {
-                format!("ascent.arcs[{a}].burn.steering.linear_tangent.heading_deg")
-            }
-            Param::YawRate(a) => {
-                format!("ascent.arcs[{a}].burn.steering.linear_tangent.yaw_rate_per_s")
+            Param::Law { arc, law, param } => {
+                format!(
+                    "ascent.arcs[{arc}].burn.steering.{law}.{}",
+                    param.file_key()
+                )
             }
             Param::ApogeeCutoff(a) => format!("ascent.arcs[{a}].burn.cutoff.apogee_alt_km"),
             Param::Coast(a) => format!("ascent.arcs[{a}].coast.duration_s"),
@@ -310,27 +280,17 @@ impl Param {
     /// Value (SI) in the problem file's unit.
     pub fn to_file_unit(&self, v: f64) -> f64 {
         match self {
-            Param::Heading(_) => {
-                // (−180°, 180°]
-                let w = (v.to_degrees() + 180.0).rem_euclid(360.0) - 180.0;
-                if w <= -180.0 {
-                    180.0
-                } else {
-                    w
-                }
+            Param::Law { param, .. } => param.to_file_unit(v),
+            Param::Kick | Param::PitchRate | Param::Azimuth | Param::TargetInclination => {
+                v.to_degrees()
             }
-            Param::Kick
-            | Param::PitchRate
-            | Param::Azimuth
-            | Param::Pitch0(_)
-            | Param::TargetInclination => v.to_degrees(),
             Param::ApogeeCutoff(_) | Param::CircularAltitude => v / 1e3,
             Param::DryMass(_)
             | Param::Propellant(_)
             | Param::IspVac(_)
             | Param::ThrustVac(_)
             | Param::DragScale => v,
-            Param::RiseTime | Param::TanRate(_) | Param::YawRate(_) | Param::Coast(_) => v,
+            Param::RiseTime | Param::Coast(_) => v,
             Param::BucketStart | Param::BucketDuration | Param::BucketThrottle | Param::Payload => {
                 v
             }
@@ -340,12 +300,10 @@ impl Param {
     /// Value in the problem file's unit, SI (the inverse of [`Param::to_file_unit`]).
     pub fn from_file_unit(&self, u: f64) -> f64 {
         match self {
-            Param::Kick
-            | Param::PitchRate
-            | Param::Azimuth
-            | Param::Pitch0(_)
-            | Param::Heading(_)
-            | Param::TargetInclination => u.to_radians(),
+            Param::Law { param, .. } => param.from_file_unit(u),
+            Param::Kick | Param::PitchRate | Param::Azimuth | Param::TargetInclination => {
+                u.to_radians()
+            }
             Param::ApogeeCutoff(_) | Param::CircularAltitude => u * 1e3,
             _ => u,
         }
@@ -442,16 +400,9 @@ impl Param {
                 f.launch.branch = None;
                 f.launch.allow_dog_leg = None;
             }
-            Param::Pitch0(a) | Param::TanRate(a) | Param::Heading(a) | Param::YawRate(a) => {
-                if let Some(ArcFile::Burn(b)) = f.ascent.arcs.get_mut(a) {
-                    if let SteeringFile::LinearTangent(l) = &mut b.steering {
-                        match *self {
-                            Param::Pitch0(_) => l.pitch0_deg = u,
-                            Param::TanRate(_) => l.tan_rate_per_s = u,
-                            Param::YawRate(_) => l.yaw_rate_per_s = Some(u),
-                            _ => l.heading_deg = Some(u),
-                        }
-                    }
+            Param::Law { arc, param, .. } => {
+                if let Some(ArcFile::Burn(b)) = f.ascent.arcs.get_mut(arc) {
+                    Steering::write_file(&mut b.steering, param, u);
                 }
             }
             Param::ApogeeCutoff(a) => {

@@ -27,7 +27,7 @@ fn bad<T>(field: &str, reason: impl Into<String>) -> R<T> {
 }
 
 /// Requires `lo < x < hi` (open) or `lo <= x <= hi` (closed) and finite.
-fn range(field: &str, x: f64, lo: f64, hi: f64, closed: bool) -> R<f64> {
+pub fn range(field: &str, x: f64, lo: f64, hi: f64, closed: bool) -> R<f64> {
     let ok = x.is_finite()
         && if closed {
             x >= lo && x <= hi
@@ -347,65 +347,6 @@ fn liftoff(l: &LiftoffFile) -> R<Liftoff> {
     })
 }
 
-fn steering(path: &str, s: &SteeringFile) -> R<Steering> {
-    Ok(match s {
-        SteeringFile::GravityTurn => Steering::GravityTurn,
-        SteeringFile::LinearTangent(l) => {
-            let p0 = range(
-                &format!("{path}.pitch0_deg"),
-                l.pitch0_deg,
-                -89.0,
-                89.0,
-                true,
-            )?;
-            let c = range(
-                &format!("{path}.tan_rate_per_s"),
-                l.tan_rate_per_s,
-                -1.0,
-                1.0,
-                true,
-            )?;
-            let h = l
-                .heading_deg
-                .map(|h| range(&format!("{path}.heading_deg"), h, -360.0, 360.0, true))
-                .transpose()?;
-            let w = range(
-                &format!("{path}.yaw_rate_per_s"),
-                l.yaw_rate_per_s.unwrap_or(0.0),
-                -1.0,
-                1.0,
-                true,
-            )?;
-            Steering::LinearTangent(LinearTangent {
-                pitch0_rad: p0.to_radians(),
-                tan_rate_per_s: c,
-                yaw_rate_per_s: w,
-                heading_rad: h.map(f64::to_radians),
-            })
-        }
-        SteeringFile::PitchTable(pts) => pitch_table(path, pts)?,
-        SteeringFile::LinearTangentContinued => Steering::LinearTangentContinued,
-    })
-}
-
-fn pitch_table(path: &str, pts: &[[f64; 2]]) -> R<Steering> {
-    if pts.is_empty() {
-        return bad(path, "needs at least one [time_s, pitch_deg] pair");
-    }
-    for (i, p) in pts.iter().enumerate() {
-        let fp = format!("{path}[{i}]");
-        range(&fp, p[0], 0.0, 1e5, true)?;
-        range(&fp, p[1], -90.0, 90.0, true)?;
-        if i > 0 && p[0] <= pts[i - 1][0] {
-            return bad(&fp, "times must be strictly increasing");
-        }
-    }
-    Ok(Steering::PitchTable(PitchTable {
-        t_s: pts.iter().map(|p| p[0]).collect(),
-        pitch_rad: pts.iter().map(|p| p[1].to_radians()).collect(),
-    }))
-}
-
 fn cutoff(path: &str, c: Option<CutoffFile>, has_target: bool) -> R<Cutoff> {
     Ok(match c.unwrap_or(CutoffFile::Depletion) {
         CutoffFile::Depletion => Cutoff::Depletion,
@@ -427,7 +368,7 @@ fn arc(i: usize, a: &ArcFile, has_target: bool) -> R<Arc> {
     let p = format!("ascent.arcs[{i}]");
     Ok(match a {
         ArcFile::Burn(b) => Arc::Burn {
-            steering: steering(&format!("{p}.burn.steering"), &b.steering)?,
+            steering: Steering::from_file(&format!("{p}.burn.steering"), &b.steering)?,
             cutoff: cutoff(&format!("{p}.burn.cutoff"), b.cutoff, has_target)?,
         },
         ArcFile::Coast(CoastFile::DurationS(t)) => Arc::Coast(CoastEnd::Duration(positive(

@@ -12,9 +12,37 @@
 
 use nalgebra::{SVector, Vector3};
 
-use crate::core::physics::environment::Local;
-use crate::core::problem::Problem;
-use crate::core::steering::Steering;
+use crate::core::physics::environment::{Environment, Local};
+use crate::core::problem::{Limits, Problem, Site};
+use crate::core::steering::{pitch_heading_dir, unit_or, ActiveLaw};
+use crate::core::vehicle::Vehicle;
+
+/// What the equations of motion need of a problem: the vehicle, the environment, the path
+/// limits and the site (for downrange). The program is not here: the thrust direction comes from
+/// the arc's active steering law.
+#[derive(Debug, Clone, Copy)]
+pub struct FlightModel<'a> {
+    /// The vehicle.
+    pub vehicle: &'a Vehicle,
+    /// Earth, gravity and atmosphere.
+    pub environment: &'a Environment,
+    /// Path limits (the axial-acceleration limit sets the throttle).
+    pub limits: &'a Limits,
+    /// Launch site.
+    pub site: &'a Site,
+}
+
+impl Problem {
+    /// The flight model of this problem.
+    pub fn flight_model(&self) -> FlightModel<'_> {
+        FlightModel {
+            vehicle: &self.vehicle,
+            environment: &self.environment,
+            limits: &self.limits,
+            site: &self.site,
+        }
+    }
+}
 
 /// Number of states.
 pub const N: usize = 16;
@@ -49,40 +77,32 @@ pub mod ix {
     pub const CENTRIF: usize = 15;
 }
 
-/// Attitude law of the current mode.
+/// Attitude of the current mode: the liftoff manoeuvre's phases, flown by the simulator, or the
+/// arc's steering law.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Attitude {
     /// Along the local vertical.
     Vertical,
-    /// Pitching over at the program rate since `start_s`.
+    /// Pitching over at `rate_rad_s` since `start_s`, in the plane of `heading_rad`.
     PitchOver {
         /// Time the pitch-over began, s.
         start_s: f64,
+        /// Pitch-over rate, rad/s.
+        rate_rad_s: f64,
+        /// Heading (the launch azimuth), rad.
+        heading_rad: f64,
     },
-    /// Fixed pitch in the launch-azimuth plane.
+    /// Fixed pitch in the plane of `heading_rad`.
     Hold {
         /// Pitch above the local horizontal, rad.
         pitch_rad: f64,
+        /// Heading (the launch azimuth), rad.
+        heading_rad: f64,
     },
-    /// Along the Earth-relative velocity (zero angle of attack).
+    /// Along the Earth-relative velocity (zero angle of attack): coasts.
     ZeroAlpha,
-    /// Linear tangent law in a frame frozen at `start_s`.
-    LinearTangent {
-        /// Frozen vertical (integration frame), unit.
-        up0: Vector3<f64>,
-        /// Frozen horizontal thrust-plane direction, unit.
-        hor0: Vector3<f64>,
-        /// tan θ0.
-        tan0: f64,
-        /// Rate of the tangent, 1/s.
-        rate_per_s: f64,
-        /// Out-of-plane rate times the frozen normal n̂0 = ĥ0 × Û0, 1/s.
-        yaw_rate: Vector3<f64>,
-        /// Arc start, s.
-        start_s: f64,
-    },
-    /// Tabulated pitch of the current arc.
-    Table,
+    /// The arc's active steering law.
+    Law,
 }
 
 /// Throttle law of the current mode.
@@ -139,66 +159,30 @@ pub struct Forces {
     pub mach: f64,
 }
 
-/// Unit thrust direction for pitch θ and heading ψ in the local frame.
-pub fn pitch_heading_dir(loc: &Local, pitch_rad: f64, heading_rad: f64) -> Vector3<f64> {
-    let (sp, cp) = pitch_rad.sin_cos();
-    let (sh, ch) = heading_rad.sin_cos();
-    (loc.east * sh + loc.north * ch) * cp + loc.up * sp
-}
-
-fn unit_or(v: &Vector3<f64>, fallback: &Vector3<f64>) -> Vector3<f64> {
-    let n = v.norm();
-    if n > 1e-9 {
-        v / n
-    } else {
-        *fallback
-    }
-}
-
-/// Thrust direction of `mode` at time `t_s`.
-pub fn attitude_dir(p: &Problem, mode: &Mode, t_s: f64, loc: &Local) -> Vector3<f64> {
-    let az = p.azimuth_rad;
+/// Thrust direction of `mode` at time `t_s` (`law`: the arc's active steering law).
+pub fn attitude_dir(mode: &Mode, law: &dyn ActiveLaw, t_s: f64, loc: &Local) -> Vector3<f64> {
     match mode.attitude {
         Attitude::Vertical => loc.up,
-        Attitude::PitchOver { start_s } => {
-            let rate = p.program.liftoff.map_or(0.0, |l| l.pitch_rate_rad_s);
-            pitch_heading_dir(
-                loc,
-                std::f64::consts::FRAC_PI_2 - rate * (t_s - start_s),
-                az,
-            )
-        }
-        Attitude::Hold { pitch_rad } => pitch_heading_dir(loc, pitch_rad, az),
-        Attitude::ZeroAlpha => unit_or(&loc.v_rel_mps, &loc.up),
-        Attitude::LinearTangent {
-            up0,
-            hor0,
-            tan0,
-            rate_per_s,
-            yaw_rate,
+        Attitude::PitchOver {
             start_s,
-        } => {
-            let tau = t_s - start_s;
-            unit_or(
-                &(hor0 + up0 * (tan0 - rate_per_s * tau) + yaw_rate * tau),
-                &hor0,
-            )
-        }
-        Attitude::Table => {
-            let pitch = match p.program.arcs.get(mode.arc) {
-                Some(crate::core::steering::Arc::Burn {
-                    steering: Steering::PitchTable(tab),
-                    ..
-                }) => tab.pitch_rad(t_s),
-                _ => std::f64::consts::FRAC_PI_2,
-            };
-            pitch_heading_dir(loc, pitch, az)
-        }
+            rate_rad_s,
+            heading_rad,
+        } => pitch_heading_dir(
+            loc,
+            std::f64::consts::FRAC_PI_2 - rate_rad_s * (t_s - start_s),
+            heading_rad,
+        ),
+        Attitude::Hold {
+            pitch_rad,
+            heading_rad,
+        } => pitch_heading_dir(loc, pitch_rad, heading_rad),
+        Attitude::ZeroAlpha => unit_or(&loc.v_rel_mps, &loc.up),
+        Attitude::Law => law.direction(t_s, loc),
     }
 }
 
 /// Mass of the strap-on boosters at `t_s` (they ignite at t = 0), kg.
-pub fn booster_mass_kg(p: &Problem, mode: &Mode, t_s: f64) -> f64 {
+pub fn booster_mass_kg(p: &FlightModel, mode: &Mode, t_s: f64) -> f64 {
     match (&p.vehicle.boosters, mode.boosters_attached) {
         (Some(b), true) => b.mass_at_kg(t_s),
         _ => 0.0,
@@ -206,7 +190,7 @@ pub fn booster_mass_kg(p: &Problem, mode: &Mode, t_s: f64) -> f64 {
 }
 
 /// Propellant left in the current stage, kg.
-pub fn stage_propellant_kg(p: &Problem, mode: &Mode, t_s: f64, m_kg: f64) -> f64 {
+pub fn stage_propellant_kg(p: &FlightModel, mode: &Mode, t_s: f64, m_kg: f64) -> f64 {
     m_kg - mode.other_mass_kg - booster_mass_kg(p, mode, t_s)
 }
 
@@ -224,8 +208,15 @@ pub fn limit_throttle(
 }
 
 /// Thrust, drag and related quantities at one state.
-pub fn forces(p: &Problem, mode: &Mode, t_s: f64, m: f64, loc: &Local) -> Forces {
-    let dir = attitude_dir(p, mode, t_s, loc);
+pub fn forces(
+    p: &FlightModel,
+    mode: &Mode,
+    law: &dyn ActiveLaw,
+    t_s: f64,
+    m: f64,
+    loc: &Local,
+) -> Forces {
+    let dir = attitude_dir(mode, law, t_s, loc);
     let vr = loc.v_rel_mps.norm();
     let q_pa = 0.5 * loc.air.density_kg_m3 * vr * vr;
     let mach = vr / loc.air.speed_of_sound_mps.max(1e-3);
@@ -279,13 +270,20 @@ pub fn forces(p: &Problem, mode: &Mode, t_s: f64, m: f64, loc: &Local) -> Forces
     }
 }
 
-/// The right-hand side: `dy = f(t, y)` for `mode`. No allocation.
-pub fn derivative(p: &Problem, mode: &Mode, t_s: f64, y: &State, dy: &mut State) {
+/// The right-hand side: `dy = f(t, y)` for `mode` and the arc's active law. No allocation.
+pub fn derivative(
+    p: &FlightModel,
+    mode: &Mode,
+    law: &dyn ActiveLaw,
+    t_s: f64,
+    y: &State,
+    dy: &mut State,
+) {
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);
     let m = y[ix::M];
     let loc = p.environment.local(t_s, &r, &v);
-    let f = forces(p, mode, t_s, m, &loc);
+    let f = forces(p, mode, law, t_s, m, &loc);
     let a = f.dir * (f.thrust_n / m) + f.aero_n / m + loc.gravity_mps2;
     let vhat = unit_or(&v, &f.dir);
     let vrhat = unit_or(&loc.v_rel_mps, &f.dir);

@@ -11,11 +11,12 @@ use argmin::solver::brent::BrentRoot;
 use nalgebra::Vector3;
 use ode_solvers::continuous_output_model::ContinuousOutputModel;
 
+use super::dynamics::FlightModel;
 use super::dynamics::{forces, limit_throttle, stage_propellant_kg, Mode, State, Throttle};
 use crate::core::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
 use crate::core::physics::environment::Local;
 use crate::core::physics::orbit::Elements;
-use crate::core::problem::Problem;
+use crate::core::steering::ActiveLaw;
 
 /// Time tolerance of event location, s.
 pub const EVENT_TIME_TOL_S: f64 = 1e-10;
@@ -75,13 +76,28 @@ fn rv(y: &State) -> (Vector3<f64>, Vector3<f64>) {
 }
 
 /// Switching function of `ev` at (t, y) under `mode`.
-pub fn value(p: &Problem, mode: &Mode, ev: &StateEvent, t: f64, y: &State) -> f64 {
+pub fn value(
+    p: &FlightModel,
+    mode: &Mode,
+    law: &dyn ActiveLaw,
+    ev: &StateEvent,
+    t: f64,
+    y: &State,
+) -> f64 {
     let (r, v) = rv(y);
-    value_at(p, mode, ev, t, y, &p.environment.local(t, &r, &v))
+    value_at(p, mode, law, ev, t, y, &p.environment.local(t, &r, &v))
 }
 
 /// [`value`] with the local conditions at (t, y) already computed.
-pub fn value_at(p: &Problem, mode: &Mode, ev: &StateEvent, t: f64, y: &State, loc: &Local) -> f64 {
+pub fn value_at(
+    p: &FlightModel,
+    mode: &Mode,
+    law: &dyn ActiveLaw,
+    ev: &StateEvent,
+    t: f64,
+    y: &State,
+    loc: &Local,
+) -> f64 {
     let (r, v) = rv(y);
     let vrel = loc.v_rel_mps.norm();
     match *ev {
@@ -103,12 +119,12 @@ pub fn value_at(p: &Problem, mode: &Mode, ev: &StateEvent, t: f64, y: &State, lo
                 throttle: Throttle::Fixed(nominal),
                 ..*mode
             };
-            let f = forces(p, &m, t, y[6], loc);
+            let f = forces(p, &m, law, t, y[6], loc);
             let a_max = p.limits.max_axial_accel_mps2.unwrap_or(f64::INFINITY);
             ((f.thrust_n + f.aero_n.dot(&f.dir)) / y[6] - a_max) / a_max
         }
         StateEvent::MinThrottle => {
-            let f = forces(p, mode, t, y[6], loc);
+            let f = forces(p, mode, law, t, y[6], loc);
             let s = &p.vehicle.stages[mode.stage];
             let p_a = loc.air.pressure_pa;
             let core_net = f.throttle * s.engine.thrust_vac_n - p_a * s.engine.exit_area_m2;
@@ -147,8 +163,9 @@ pub fn value_at(p: &Problem, mode: &Mode, ev: &StateEvent, t: f64, y: &State, lo
 }
 
 struct Switching<'a> {
-    p: &'a Problem,
+    p: &'a FlightModel<'a>,
     mode: &'a Mode,
+    law: &'a dyn ActiveLaw,
     ev: &'a StateEvent,
     com: &'a ContinuousOutputModel<f64, State>,
 }
@@ -161,21 +178,28 @@ impl CostFunction for Switching<'_> {
             .com
             .evaluate(*t)
             .ok_or_else(|| argmin::core::Error::msg("time outside the dense output"))?;
-        Ok(value(self.p, self.mode, self.ev, *t, &y))
+        Ok(value(self.p, self.mode, self.law, self.ev, *t, &y))
     }
 }
 
 /// Locates the root of `ev` in `[t_lo, t_hi]` on the dense output (g(t_lo) < 0 ≤ g(t_hi)).
 /// Falls back to `t_hi` if the bracket is lost to round-off.
 pub fn locate(
-    p: &Problem,
+    p: &FlightModel,
     mode: &Mode,
+    law: &dyn ActiveLaw,
     ev: &StateEvent,
     com: &ContinuousOutputModel<f64, State>,
     t_lo: f64,
     t_hi: f64,
 ) -> f64 {
-    let problem = Switching { p, mode, ev, com };
+    let problem = Switching {
+        p,
+        mode,
+        law,
+        ev,
+        com,
+    };
     let solver = BrentRoot::new(t_lo, t_hi, EVENT_TIME_TOL_S);
     Executor::new(problem, solver)
         .configure(|s| s.param(t_hi).max_iters(100))

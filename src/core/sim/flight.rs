@@ -5,12 +5,13 @@ use ode_solvers::continuous_output_model::ContinuousOutputModel;
 use ode_solvers::{Dopri5, System};
 use serde::Serialize;
 
-use super::dynamics::{derivative, ix, Attitude, Mode, State, Throttle};
+use super::dynamics::{derivative, ix, Attitude, FlightModel, Mode, State, Throttle};
 use super::events::{self, StateEvent};
 use super::record::{snapshot, Snapshot};
 use crate::core::physics::earth::WGS84_A_M;
 use crate::core::problem::Problem;
-use crate::core::steering::{Arc, CoastEnd, Cutoff, RiseEnd, Steering};
+use crate::core::steering::gravity_turn::ZeroAlpha;
+use crate::core::steering::{ActiveLaw, Arc, ArcStart, CoastEnd, Cutoff, GuidanceInput, RiseEnd};
 use crate::core::vehicle::JettisonWhen;
 
 /// Segments allowed in one flight before it is stopped as runaway.
@@ -210,7 +211,10 @@ enum TimeEvent {
     BoosterSeparation,
     BucketStart,
     BucketEnd,
-    TableNode,
+    /// A kink of the active law's direction (a pitch-table node).
+    LawNode,
+    /// A guidance cycle of a closed-loop law.
+    GuidanceCycle,
     Jettison(usize),
     BurnDuration,
     CoastDuration,
@@ -225,13 +229,16 @@ struct Flags {
     bucket_done: bool,
     stage_spent: bool,
     arc_start_s: f64,
-    /// The last linear tangent law flown (for `LinearTangentContinued`).
-    last_law: Option<Attitude>,
+    /// The latest law flown that a later arc may continue.
+    last_law: Option<Box<dyn ActiveLaw>>,
+    /// Time of the next guidance cycle of a closed-loop law, s.
+    next_guidance_s: Option<f64>,
 }
 
 /// ODE system handed to the integrator; watches state events after each accepted step.
 struct Sys<'a> {
-    p: &'a Problem,
+    p: &'a FlightModel<'a>,
+    law: &'a dyn ActiveLaw,
     mode: Mode,
     evs: &'a [StateEvent],
     watch: &'a mut Watch,
@@ -246,7 +253,7 @@ struct Watch {
 
 impl System<f64, State> for Sys<'_> {
     fn system(&self, t: f64, y: &State, dy: &mut State) {
-        derivative(self.p, &self.mode, t, y, dy);
+        derivative(self.p, &self.mode, self.law, t, y, dy);
     }
 
     fn solout(&mut self, t: f64, y: &State, _dy: &State) -> bool {
@@ -256,7 +263,7 @@ impl System<f64, State> for Sys<'_> {
         let v = Vector3::new(y[3], y[4], y[5]);
         let loc = self.p.environment.local(t, &r, &v);
         for (i, ev) in self.evs.iter().enumerate() {
-            let g = events::value_at(self.p, &self.mode, ev, t, y, &loc);
+            let g = events::value_at(self.p, &self.mode, self.law, ev, t, y, &loc);
             if self.watch.g_prev[i] < 0.0 && g >= 0.0 {
                 self.watch.fired[i] = true;
                 any = true;
@@ -269,6 +276,10 @@ impl System<f64, State> for Sys<'_> {
 
 struct Flyer<'a> {
     p: &'a Problem,
+    /// The flight model of `p`.
+    m: FlightModel<'a>,
+    /// The active steering law of the current burn arc.
+    law: Box<dyn ActiveLaw>,
     opts: FlyOptions,
     t: f64,
     y: State,
@@ -338,6 +349,8 @@ impl<'a> Flyer<'a> {
         };
         Flyer {
             p,
+            m: p.flight_model(),
+            law: Box::new(ZeroAlpha),
             opts,
             t,
             y,
@@ -350,6 +363,7 @@ impl<'a> Flyer<'a> {
                 stage_spent: false,
                 arc_start_s: t,
                 last_law: None,
+                next_guidance_s: None,
             },
             out,
             arc_done: false,
@@ -359,7 +373,7 @@ impl<'a> Flyer<'a> {
     }
 
     fn event(&mut self, kind: EventKind, label: impl Into<String>) {
-        let at = snapshot(self.p, &self.mode, self.t, &self.y);
+        let at = snapshot(&self.m, &self.mode, self.law.as_ref(), self.t, &self.y);
         self.out.events.push(EventRecord {
             kind,
             label: label.into(),
@@ -410,6 +424,7 @@ impl<'a> Flyer<'a> {
     fn start_arc(&mut self, i: usize) -> bool {
         self.arc_done = false;
         self.flags.arc_start_s = self.t;
+        self.flags.next_guidance_s = None;
         self.mode.arc = i;
         match &self.p.program.arcs[i] {
             Arc::Coast(_) => {
@@ -424,10 +439,7 @@ impl<'a> Flyer<'a> {
                 }
                 self.mode.thrusting = true;
                 self.mode.throttle = Throttle::Fixed(self.nominal_throttle());
-                self.mode.attitude = self.initial_attitude(i, steering);
-                if matches!(self.mode.attitude, Attitude::LinearTangent { .. }) {
-                    self.flags.last_law = Some(self.mode.attitude);
-                }
+                self.start_law(i, steering.law());
                 if i > 0 {
                     let name = self.p.vehicle.stages[self.mode.stage].name.clone();
                     self.event(EventKind::Ignition, format!("ignition: {name}"));
@@ -437,40 +449,38 @@ impl<'a> Flyer<'a> {
         }
     }
 
-    fn initial_attitude(&self, i: usize, steering: &Steering) -> Attitude {
-        match steering {
-            Steering::GravityTurn if i == 0 && self.opts.initial.is_none() => {
-                match self.p.program.liftoff.map(|l| l.rise) {
-                    Some(RiseEnd::Time(t)) if t <= 0.0 => Attitude::PitchOver { start_s: self.t },
-                    _ => Attitude::Vertical,
-                }
+    /// Starts arc `i`'s law; the first arc's gravity turn begins with the liftoff manoeuvre.
+    fn start_law(&mut self, i: usize, law: &dyn crate::core::steering::SteeringLaw) {
+        let r = Vector3::new(self.y[0], self.y[1], self.y[2]);
+        let v = Vector3::new(self.y[3], self.y[4], self.y[5]);
+        let loc = self.p.environment.local(self.t, &r, &v);
+        self.law = law.start(&ArcStart {
+            arc: i,
+            t_s: self.t,
+            v_mps: v,
+            loc: &loc,
+            azimuth_rad: self.p.azimuth_rad,
+            previous: self.flags.last_law.as_deref(),
+        });
+        if let Some(c) = self.law.continuable() {
+            self.flags.last_law = Some(c);
+        }
+        self.flags.next_guidance_s = self.law.guidance_period_s().map(|dt| self.t + dt);
+        self.mode.attitude = match self.p.program.liftoff.map(|l| l.rise) {
+            _ if !(law.starts_with_liftoff() && i == 0 && self.opts.initial.is_none()) => {
+                Attitude::Law
             }
-            Steering::GravityTurn => Attitude::ZeroAlpha,
-            Steering::PitchTable(_) => Attitude::Table,
-            // Validation guarantees an earlier law; vertical is only a defensive fallback.
-            Steering::LinearTangentContinued => self.flags.last_law.unwrap_or(Attitude::Vertical),
-            Steering::LinearTangent(lt) => {
-                let r = Vector3::new(self.y[0], self.y[1], self.y[2]);
-                let v = Vector3::new(self.y[3], self.y[4], self.y[5]);
-                let loc = self.p.environment.local(self.t, &r, &v);
-                let heading = lt.heading_rad.unwrap_or_else(|| {
-                    if i == 0 {
-                        self.p.azimuth_rad
-                    } else {
-                        v.dot(&loc.east).atan2(v.dot(&loc.north))
-                    }
-                });
-                let (sh, ch) = heading.sin_cos();
-                let hor0 = loc.east * sh + loc.north * ch;
-                Attitude::LinearTangent {
-                    up0: loc.up,
-                    hor0,
-                    tan0: lt.pitch0_rad.tan(),
-                    rate_per_s: lt.tan_rate_per_s,
-                    yaw_rate: hor0.cross(&loc.up) * lt.yaw_rate_per_s,
-                    start_s: self.t,
-                }
-            }
+            Some(RiseEnd::Time(t)) if t <= 0.0 => self.pitch_over(),
+            _ => Attitude::Vertical,
+        };
+    }
+
+    /// The pitch-over attitude starting now.
+    fn pitch_over(&self) -> Attitude {
+        Attitude::PitchOver {
+            start_s: self.t,
+            rate_rad_s: self.p.program.liftoff.map_or(0.0, |l| l.pitch_rate_rad_s),
+            heading_rad: self.p.azimuth_rad,
         }
     }
 
@@ -505,7 +515,7 @@ impl<'a> Flyer<'a> {
                     evs.push(StateEvent::RiseSpeed(s));
                 }
             }
-            Attitude::Hold { pitch_rad } => evs.push(StateEvent::AlphaZero(pitch_rad)),
+            Attitude::Hold { pitch_rad, .. } => evs.push(StateEvent::AlphaZero(pitch_rad)),
             _ => {}
         }
         for (i, j) in p.vehicle.jettisons.iter().enumerate() {
@@ -557,19 +567,16 @@ impl<'a> Flyer<'a> {
                     tv.push((TimeEvent::RiseEnd, t));
                 }
             }
-            (Attitude::PitchOver { start_s }, Some(l)) => tv.push((
+            (Attitude::PitchOver { start_s, .. }, Some(l)) => tv.push((
                 TimeEvent::PitchOverEnd,
                 start_s + l.kick_rad / l.pitch_rate_rad_s,
             )),
-            (Attitude::Table, _) => {
-                if let Arc::Burn {
-                    steering: Steering::PitchTable(tab),
-                    ..
-                } = &p.program.arcs[self.mode.arc]
-                {
-                    if let Some(t) = tab.t_s.iter().find(|t| **t > self.t + TIME_EPS_S) {
-                        tv.push((TimeEvent::TableNode, *t));
-                    }
+            (Attitude::Law, _) => {
+                if let Some(t) = self.law.next_node_s(self.t + TIME_EPS_S) {
+                    tv.push((TimeEvent::LawNode, t));
+                }
+                if let Some(t) = self.flags.next_guidance_s {
+                    tv.push((TimeEvent::GuidanceCycle, t));
                 }
             }
             _ => {}
@@ -612,7 +619,7 @@ impl<'a> Flyer<'a> {
         let tevs = self.time_events();
         // Conditions already true at the segment start fire at once.
         for ev in evs.iter().filter(|e| !e.crossing_only()) {
-            if events::value(self.p, &self.mode, ev, self.t, &self.y) >= 0.0 {
+            if events::value(&self.m, &self.mode, self.law.as_ref(), ev, self.t, &self.y) >= 0.0 {
                 return self.apply(Stop::State(*ev));
             }
         }
@@ -645,14 +652,15 @@ impl<'a> Flyer<'a> {
         let mut watch = Watch {
             g_prev: evs
                 .iter()
-                .map(|e| events::value(self.p, &self.mode, e, self.t, &self.y))
+                .map(|e| events::value(&self.m, &self.mode, self.law.as_ref(), e, self.t, &self.y))
                 .collect(),
             fired: vec![false; evs.len()],
             step_t: vec![self.t],
         };
         let ig = self.p.integrator;
         let sys = Sys {
-            p: self.p,
+            p: &self.m,
+            law: self.law.as_ref(),
             mode: self.mode,
             evs,
             watch: &mut watch,
@@ -678,7 +686,15 @@ impl<'a> Flyer<'a> {
             .map(|(e, _)| {
                 (
                     *e,
-                    events::locate(self.p, &self.mode, e, &com, t_prev, t_last),
+                    events::locate(
+                        &self.m,
+                        &self.mode,
+                        self.law.as_ref(),
+                        e,
+                        &com,
+                        t_prev,
+                        t_last,
+                    ),
                 )
             })
             .min_by(|a, b| a.1.total_cmp(&b.1));
@@ -693,7 +709,7 @@ impl<'a> Flyer<'a> {
     }
 
     fn integration_message(&self, e: &str) -> String {
-        let s = snapshot(self.p, &self.mode, self.t, &self.y);
+        let s = snapshot(&self.m, &self.mode, self.law.as_ref(), self.t, &self.y);
         format!(
             "integrator stopped ({e}); segment started at t = {:.3} s, altitude {:.1} km, \
              speed {:.1} m/s, mass {:.1} kg",
@@ -706,10 +722,10 @@ impl<'a> Flyer<'a> {
 
     /// Max-Q, max acceleration and the time history over the segment just integrated.
     fn track(&mut self, com: &ContinuousOutputModel<f64, State>, steps: &[f64], t_stop: f64) {
-        let (p, mode) = (self.p, self.mode);
+        let (p, mode, law) = (&self.m, self.mode, self.law.as_ref());
         let mut ts: Vec<f64> = steps.iter().copied().filter(|t| *t < t_stop).collect();
         ts.push(t_stop);
-        let qa = |t: f64| com.evaluate(t).map(|y| q_and_accel(p, &mode, t, &y));
+        let qa = |t: f64| com.evaluate(t).map(|y| q_and_accel(p, &mode, law, t, &y));
         let samples: Vec<(f64, f64)> = ts
             .iter()
             .map(|t| qa(*t).unwrap_or((f64::NEG_INFINITY, f64::NEG_INFINITY)))
@@ -722,7 +738,7 @@ impl<'a> Flyer<'a> {
             if let Some((v, t)) = q.filter(|(v, _)| *v > best_q) {
                 self.out.max_q = com.evaluate(t).map(|y| Extremum {
                     value: v,
-                    at: snapshot(p, &mode, t, &y),
+                    at: snapshot(p, &mode, law, t, &y),
                 });
             }
         }
@@ -737,7 +753,7 @@ impl<'a> Flyer<'a> {
             if let Some((v, t)) = a.filter(|(v, _)| *v > best_a) {
                 self.out.max_axial_accel = com.evaluate(t).map(|y| Extremum {
                     value: v,
-                    at: snapshot(p, &mode, t, &y),
+                    at: snapshot(p, &mode, law, t, &y),
                 });
             }
         }
@@ -746,7 +762,7 @@ impl<'a> Flyer<'a> {
                 if let Some(y) = com.evaluate(self.next_record_s) {
                     self.out
                         .history
-                        .push(snapshot(p, &mode, self.next_record_s, &y));
+                        .push(snapshot(p, &mode, law, self.next_record_s, &y));
                 }
                 self.next_record_s += dt;
             }
@@ -759,7 +775,7 @@ impl<'a> Flyer<'a> {
             Stop::State(se) => self.apply_state(se),
         }
         if self.opts.record_step_s.is_some() {
-            let s = snapshot(self.p, &self.mode, self.t, &self.y);
+            let s = snapshot(&self.m, &self.mode, self.law.as_ref(), self.t, &self.y);
             self.out.history.push(s);
         }
     }
@@ -776,6 +792,7 @@ impl<'a> Flyer<'a> {
                 );
                 self.mode.attitude = Attitude::Hold {
                     pitch_rad: std::f64::consts::FRAC_PI_2 - kick,
+                    heading_rad: p.azimuth_rad,
                 };
             }
             TimeEvent::BoosterSeparation => self.separate_boosters(),
@@ -790,7 +807,8 @@ impl<'a> Flyer<'a> {
                 self.flags.bucket_done = true;
                 self.set_nominal(1.0);
             }
-            TimeEvent::TableNode => {}
+            TimeEvent::LawNode => {}
+            TimeEvent::GuidanceCycle => self.guidance_cycle(),
             TimeEvent::Jettison(i) => self.jettison(i),
             TimeEvent::BurnDuration => self.cutoff(),
             TimeEvent::CoastDuration => {
@@ -809,7 +827,7 @@ impl<'a> Flyer<'a> {
             StateEvent::RiseSpeed(_) => self.start_pitch_over(),
             StateEvent::AlphaZero(_) => {
                 self.event(EventKind::GravityTurnStart, "gravity turn begins (α = 0)");
-                self.mode.attitude = Attitude::ZeroAlpha;
+                self.mode.attitude = Attitude::Law;
             }
             StateEvent::Depletion => self.burnout(),
             StateEvent::AccelLimitOnset => {
@@ -853,7 +871,29 @@ impl<'a> Flyer<'a> {
             EventKind::PitchOverStart,
             "end of vertical rise: pitch-over begins",
         );
-        self.mode.attitude = Attitude::PitchOver { start_s: self.t };
+        self.mode.attitude = self.pitch_over();
+    }
+
+    /// A guidance cycle: the closed-loop law re-solves from the current state.
+    fn guidance_cycle(&mut self) {
+        let s = &self.p.vehicle.stages[self.mode.stage];
+        let now = GuidanceInput {
+            t_s: self.t,
+            r_m: Vector3::new(self.y[0], self.y[1], self.y[2]),
+            v_mps: Vector3::new(self.y[3], self.y[4], self.y[5]),
+            mass_kg: self.y[ix::M],
+            thrust_vac_n: s.engine.thrust_vac_n,
+            exhaust_velocity_mps: s.engine.exhaust_velocity_mps(),
+            propellant_kg: super::dynamics::stage_propellant_kg(
+                &self.m,
+                &self.mode,
+                self.t,
+                self.y[ix::M],
+            )
+            .max(0.0),
+        };
+        self.law.update(&now);
+        self.flags.next_guidance_s = self.law.guidance_period_s().map(|dt| self.t + dt);
     }
 
     fn separate_boosters(&mut self) {
@@ -912,7 +952,14 @@ impl<'a> Flyer<'a> {
         if self.mode.boosters_attached {
             self.separate_boosters();
         }
-        let residual = events::value(p, &self.mode, &StateEvent::Depletion, self.t, &self.y);
+        let residual = events::value(
+            &self.m,
+            &self.mode,
+            self.law.as_ref(),
+            &StateEvent::Depletion,
+            self.t,
+            &self.y,
+        );
         self.y[ix::M] -= p.vehicle.stages[s].dry_mass_kg;
         self.mode.stage = s + 1;
         self.mode.throttle = Throttle::Fixed(1.0);
@@ -929,7 +976,8 @@ impl<'a> Flyer<'a> {
         let current = if spent {
             0.0
         } else {
-            super::dynamics::stage_propellant_kg(self.p, &self.mode, self.t, self.y[ix::M]).max(0.0)
+            super::dynamics::stage_propellant_kg(&self.m, &self.mode, self.t, self.y[ix::M])
+                .max(0.0)
         };
         let later: f64 = self
             .p
@@ -956,11 +1004,11 @@ impl<'a> Flyer<'a> {
 }
 
 /// Dynamic pressure (Pa) and sensed axial acceleration (g0) at (t, y).
-fn q_and_accel(p: &Problem, mode: &Mode, t: f64, y: &State) -> (f64, f64) {
+fn q_and_accel(p: &FlightModel, mode: &Mode, law: &dyn ActiveLaw, t: f64, y: &State) -> (f64, f64) {
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);
     let loc = p.environment.local(t, &r, &v);
-    let f = super::dynamics::forces(p, mode, t, y[ix::M], &loc);
+    let f = super::dynamics::forces(p, mode, law, t, y[ix::M], &loc);
     let accel =
         (f.thrust_n + f.aero_n.dot(&f.dir)) / y[ix::M] / crate::core::physics::earth::G0_MPS2;
     (f.q_pa, accel)

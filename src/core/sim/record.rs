@@ -3,10 +3,11 @@
 use nalgebra::Vector3;
 use serde::Serialize;
 
+use super::dynamics::FlightModel;
 use super::dynamics::{forces, ix, Mode, State};
 use crate::core::physics::earth::{self, G0_MPS2};
 use crate::core::physics::environment::EarthModel;
-use crate::core::problem::Problem;
+use crate::core::steering::ActiveLaw;
 
 /// Flight quantities at one instant. Angles in degrees, as reported.
 #[derive(Debug, Clone, Copy, Serialize, PartialEq)]
@@ -69,7 +70,7 @@ fn elevation_deg(v: &Vector3<f64>, up: &Vector3<f64>) -> f64 {
 }
 
 /// Ground distance from the pad, m.
-fn downrange_m(p: &Problem, t: f64, r: &Vector3<f64>) -> f64 {
+fn downrange_m(p: &FlightModel, t: f64, r: &Vector3<f64>) -> f64 {
     match p.environment.earth {
         EarthModel::Flat { .. } => r.x.hypot(r.y),
         EarthModel::Wgs84 { .. } => {
@@ -80,13 +81,13 @@ fn downrange_m(p: &Problem, t: f64, r: &Vector3<f64>) -> f64 {
     }
 }
 
-/// Flight quantities at (t, y) under `mode`.
-pub fn snapshot(p: &Problem, mode: &Mode, t: f64, y: &State) -> Snapshot {
+/// Flight quantities at (t, y) under `mode` and the arc's active law.
+pub fn snapshot(p: &FlightModel, mode: &Mode, law: &dyn ActiveLaw, t: f64, y: &State) -> Snapshot {
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);
     let m = y[ix::M];
     let loc = p.environment.local(t, &r, &v);
-    let f = forces(p, mode, t, m, &loc);
+    let f = forces(p, mode, law, t, m, &loc);
     let thrusting = f.thrust_vac_n > 0.0;
     let axis = if thrusting { f.dir } else { loc.v_rel_mps };
     Snapshot {

@@ -1,0 +1,92 @@
+//! Tabulated pitch against time since liftoff, in the launch-azimuth plane: linear between nodes,
+//! held beyond the ends. The simulator stops at every node (the direction has a kink there).
+
+use nalgebra::Vector3;
+
+use super::{pitch_heading_dir, ActiveLaw, ArcStart, SteeringLaw};
+use crate::core::error::ProblemError;
+use crate::core::physics::environment::Local;
+
+/// Pitch against time since liftoff, linear between nodes, held beyond the ends.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PitchTable {
+    /// Node times, s, strictly increasing.
+    pub t_s: Vec<f64>,
+    /// Pitch at the nodes, rad.
+    pub pitch_rad: Vec<f64>,
+}
+
+impl PitchTable {
+    /// Pitch at time `t_s`, rad.
+    pub fn pitch_rad(&self, t_s: f64) -> f64 {
+        let n = self.t_s.len();
+        if n == 0 {
+            return std::f64::consts::FRAC_PI_2;
+        }
+        if t_s <= self.t_s[0] {
+            return self.pitch_rad[0];
+        }
+        for i in 1..n {
+            if t_s <= self.t_s[i] {
+                let f = (t_s - self.t_s[i - 1]) / (self.t_s[i] - self.t_s[i - 1]);
+                return self.pitch_rad[i - 1] + f * (self.pitch_rad[i] - self.pitch_rad[i - 1]);
+            }
+        }
+        self.pitch_rad[n - 1]
+    }
+
+    /// Validates `[time_s, pitch_deg]` pairs at JSON path `path`.
+    pub fn from_file(path: &str, pts: &[[f64; 2]]) -> Result<PitchTable, ProblemError> {
+        if pts.is_empty() {
+            return Err(ProblemError::invalid(
+                path,
+                "needs at least one [time_s, pitch_deg] pair",
+            ));
+        }
+        for (i, p) in pts.iter().enumerate() {
+            let fp = format!("{path}[{i}]");
+            crate::core::problem::validate::range(&fp, p[0], 0.0, 1e5, true)?;
+            crate::core::problem::validate::range(&fp, p[1], -90.0, 90.0, true)?;
+            if i > 0 && p[0] <= pts[i - 1][0] {
+                return Err(ProblemError::invalid(
+                    fp,
+                    "times must be strictly increasing",
+                ));
+            }
+        }
+        Ok(PitchTable {
+            t_s: pts.iter().map(|p| p[0]).collect(),
+            pitch_rad: pts.iter().map(|p| p[1].to_radians()).collect(),
+        })
+    }
+}
+
+impl SteeringLaw for PitchTable {
+    fn file_key(&self) -> &'static str {
+        "pitch_table"
+    }
+
+    fn start(&self, s: &ArcStart) -> Box<dyn ActiveLaw> {
+        Box::new(ActiveTable {
+            table: self.clone(),
+            heading_rad: s.azimuth_rad,
+        })
+    }
+}
+
+/// A pitch table in flight, in the launch-azimuth plane.
+#[derive(Debug, Clone)]
+struct ActiveTable {
+    table: PitchTable,
+    heading_rad: f64,
+}
+
+impl ActiveLaw for ActiveTable {
+    fn direction(&self, t_s: f64, loc: &Local) -> Vector3<f64> {
+        pitch_heading_dir(loc, self.table.pitch_rad(t_s), self.heading_rad)
+    }
+
+    fn next_node_s(&self, t_s: f64) -> Option<f64> {
+        self.table.t_s.iter().find(|t| **t > t_s).copied()
+    }
+}
