@@ -20,7 +20,8 @@ fn bench_fly(c: &mut Criterion) {
         let path = Path::new(env!("CARGO_MANIFEST_DIR"))
             .join("problems")
             .join(format!("{name}.json"));
-        let problem = match Problem::from_path(&path) {
+        let problem = match Problem::from_json(&std::fs::read_to_string(&path).unwrap_or_default())
+        {
             Ok(p) => p,
             Err(e) => panic!("demo problem {name} does not load: {e}"),
         };

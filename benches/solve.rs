@@ -6,7 +6,7 @@ use std::path::Path;
 use std::time::Duration;
 
 use criterion::{criterion_group, criterion_main, Criterion};
-use kickturn::optimize::{solve, SolveOptions};
+use kickturn::optimize::{tune, SolveOptions};
 use kickturn::problem::Problem;
 
 const DEMOS: [&str; 3] = [
@@ -23,12 +23,13 @@ fn bench_solve(c: &mut Criterion) {
         let path = Path::new(env!("CARGO_MANIFEST_DIR"))
             .join("problems")
             .join(format!("{name}.json"));
-        let problem = match Problem::from_path(&path) {
+        let problem = match Problem::from_json(&std::fs::read_to_string(&path).unwrap_or_default())
+        {
             Ok(p) => p,
             Err(e) => panic!("demo problem {name} does not load: {e}"),
         };
         let opts = SolveOptions::default();
-        group.bench_function(name, |b| b.iter(|| solve(black_box(&problem), &opts)));
+        group.bench_function(name, |b| b.iter(|| tune(black_box(&problem), &opts)));
     }
     group.finish();
 }

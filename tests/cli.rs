@@ -75,8 +75,8 @@ fn every_demo_reaches_orbit_and_both_budgets_close() {
                 );
             }
         }
-        // Plausible losses for an ascent to low orbit (../shared/domain.md §2 table, common
-        // practice): gravity 0.6–2.5 km/s, drag under 0.5 km/s, ideal 8.5–12 km/s.
+        // Plausible losses for an ascent to low orbit (common practice; handbook tables
+        // of historical launchers, from memory): gravity 0.6–2.5 km/s, drag under 0.5 km/s, ideal 8.5–12 km/s.
         let b = &r["budget"];
         let g = b["gravity_loss_mps"].as_f64().unwrap_or(0.0);
         let dr = b["drag_loss_mps"].as_f64().unwrap_or(-1.0);

@@ -17,7 +17,7 @@ mod common;
 use std::f64::consts::{FRAC_PI_2, PI};
 
 use approx::assert_relative_eq;
-use kickturn::budget::{phase_budgets, Bookkeeping, Budget};
+use kickturn::budget::{arc_budgets, Bookkeeping, Budget};
 use kickturn::physics::environment::{AtmosphereModel, EarthModel};
 use kickturn::problem::Problem;
 use kickturn::sim::{EndReason, Flight};
@@ -342,8 +342,8 @@ fn ideal_dv_of_two_stage_vehicle_is_tsiolkovsky() {
     let dv2 = G0_MPS2 * 340.0 * (19.0f64 / 3.0).ln();
     assert_relative_eq!(dv1, 4186.14, epsilon = 5e-3);
     assert_relative_eq!(dv2, 6154.47, epsilon = 5e-3);
-    assert_eq!(f.phases.len(), 2);
-    let ph = phase_budgets(&p.environment, &f.phases);
+    assert_eq!(f.arcs.len(), 2);
+    let ph = arc_budgets(&p.environment, &f.arcs);
     println!(
         "Tsiolkovsky: stage 1 {:.9} vs {dv1:.9}; stage 2 {:.9} vs {dv2:.9}; total {:.9} vs {:.9}",
         ph[0].ideal_mps,
@@ -382,7 +382,7 @@ fn demo_budgets_close() {
         assert!(f.t1_s > f.t0_s, "{name}: the flight must advance");
         assert!(rel.closure_error_mps.abs() < 1e-3, "{name}: {rel:?}");
         assert!(ine.closure_error_mps.abs() < 1e-3, "{name}: {ine:?}");
-        for ph in phase_budgets(&p.environment, &f.phases) {
+        for ph in arc_budgets(&p.environment, &f.arcs) {
             assert!(ph.closure_error_mps.abs() < 1e-3, "{name}: {ph:?}");
         }
     }

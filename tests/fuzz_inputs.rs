@@ -185,7 +185,7 @@ fn mutated_problems_solve_within_their_budget() {
                 ..kickturn::optimize::SolveOptions::default()
             };
             let start = std::time::Instant::now();
-            if let Ok(s) = kickturn::optimize::solve(&p, &opts) {
+            if let Ok(s) = kickturn::optimize::tune(&p, &opts) {
                 assert!(
                     s.convergence.trajectories <= 300 + 64,
                     "budget: {}",

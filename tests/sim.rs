@@ -9,7 +9,7 @@ fn demo(name: &str) -> Problem {
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("problems")
         .join(name);
-    match Problem::from_path(&path) {
+    match Problem::from_json(&std::fs::read_to_string(&path).unwrap_or_default()) {
         Ok(p) => p,
         Err(e) => panic!("{name}: {e}"),
     }
@@ -133,7 +133,8 @@ fn an_unreachable_inclination_reports_its_plane_change() {
         northerly: true,
     };
     let u = p.unreachable_inclination();
-    // Source: ../shared/domain.md §4, Δv = 2v sin(Δi/2): 679 m/s for 5° at 7784 m/s (200 km).
+    // Source: plane change Δv = 2v sin(Δi/2) (Curtis, Orbital Mechanics for Engineering
+    // Students, ch. 6, from memory): 679 m/s for 5° at 7784 m/s (200 km), computed.
     let dv = u.map_or(0.0, |u| u.plane_change_mps);
     assert!((dv - 679.09).abs() < 0.05, "{dv}");
     // Reachable inclinations report nothing.
@@ -144,7 +145,9 @@ fn an_unreachable_inclination_reports_its_plane_change() {
 
 #[test]
 fn launch_azimuth_from_inclination_uses_the_rotating_earth_correction() {
-    // Source: ../shared/domain.md §3(c): φ = 28.5°, i = 51.65°, 200 km: β_R = 42.701° (spherical
+    // Source: sin β_I = cos i / cos φ (Kluever, Space Flight Dynamics, Ex. 3.3) with the
+    // rotating-Earth correction (Vallado §6.4.1, from memory), computed for φ = 28.5°,
+    // i = 51.65°, 200 km: β_R = 42.701° (spherical
     // rotation speed 408.74 m/s). The site here is at 28.2° geodetic with WGS-84 rotation speed
     // and geocentric latitude, so only the order of magnitude and the branch are checked:
     let p = demo("medium-2stage-leo200.json");
@@ -193,8 +196,8 @@ fn a_core_cutoff_drops_boosters_that_still_burn() {
     assert!(sep.label.contains("propellant left"), "{}", sep.label);
     let r = FlightReport::new(&p, &f);
     assert!(
-        r.phases[1].ideal_mps.abs() < 1e-12,
+        r.arcs[1].ideal_mps.abs() < 1e-12,
         "coast ideal ΔV {}",
-        r.phases[1].ideal_mps
+        r.arcs[1].ideal_mps
     );
 }

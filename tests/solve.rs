@@ -6,7 +6,7 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 
 use kickturn::app::outcome::FlightReport;
-use kickturn::optimize::{objective, solve, Param, SolveOptions, SolveStatus};
+use kickturn::optimize::{objective, tune, Param, SolveOptions, SolveStatus};
 use kickturn::physics::environment::{AtmosphereModel, EarthModel, Environment};
 use kickturn::problem::{Insertion, Problem, Target};
 use kickturn::sim::{fly, FlyOptions};
@@ -17,7 +17,8 @@ fn root() -> PathBuf {
 }
 
 fn demo(name: &str) -> Problem {
-    match Problem::from_path(&root().join("problems").join(name)) {
+    let path = root().join("problems").join(name);
+    match Problem::from_json(&std::fs::read_to_string(&path).unwrap_or_default()) {
         Ok(p) => p,
         Err(e) => panic!("{name}: {e}"),
     }
@@ -30,7 +31,7 @@ const DEMOS: [&str; 3] = [
 ];
 
 /// Linear tangent closed form (flat Earth, uniform g, vacuum, constant thrust acceleration a),
-/// ../shared/domain.md §3(b): with L = ln[(secθ0 + tanθ0)/(secθ + tanθ)], tanθ = tanθ0 − c t,
+/// Bryson & Ho, Applied Optimal Control (1975) §2.4 (from memory), integrated in closed form: with L = ln[(secθ0 + tanθ0)/(secθ + tanθ)], tanθ = tanθ0 − c t,
 /// returns (vx, vy, y) at time t from rest.
 fn lt_closed_form(tan0: f64, c: f64, t: f64, a: f64, g: f64) -> (f64, f64, f64) {
     let tan = tan0 - c * t;
@@ -74,8 +75,8 @@ fn lt_optimum(a: f64, g: f64) -> [f64; 3] {
 
 #[test]
 fn linear_tangent_optimum_matches_the_closed_form() {
-    // Source: Bryson & Ho, Applied Optimal Control (1975) §2.4 (from memory), worked example of
-    // ../shared/domain.md §3(b): g = 1.61544, a = 3g, from rest to y = 185 km, vx = 1627 m/s,
+    // Source: Bryson & Ho, Applied Optimal Control (1975) §2.4 (from memory), a worked example
+    // computed from that closed form: g = 1.61544, a = 3g, from rest to y = 185 km, vx = 1627 m/s,
     // vy = 0: tanθ0 = 2.74497, c = 0.0082687 s⁻¹, tf = 481.948 s, xf = 338.171 km [der].
     let g = 1.61544;
     let a = 3.0 * g;
@@ -118,7 +119,7 @@ fn linear_tangent_optimum_matches_the_closed_form() {
         apogee_alt_m: 185e3,
         inclination_rad: None,
     });
-    let sol = match solve(
+    let sol = match tune(
         &p,
         &SolveOptions {
             scan: false,
@@ -161,7 +162,7 @@ fn linear_tangent_optimum_matches_the_closed_form() {
 }
 
 fn solved(name: &str, o: &SolveOptions) -> kickturn::optimize::Solution {
-    match solve(&demo(name), o) {
+    match tune(&demo(name), o) {
         Ok(s) => s,
         Err(e) => panic!("{name}: {e}"),
     }
@@ -242,7 +243,7 @@ fn the_optimum_is_a_minimum_along_the_kick() {
     for dk_deg in [-0.2, -0.05, 0.05, 0.2] {
         let mut p = sol.problem.clone();
         Param::Kick.set(&mut p, k + f64::to_radians(dk_deg));
-        let s = match solve(
+        let s = match tune(
             &p,
             &SolveOptions {
                 scan: false,
@@ -345,7 +346,7 @@ fn an_infeasible_target_is_reported_with_exit_1() {
 #[test]
 fn a_dog_leg_reaches_an_inclination_below_the_site_latitude_at_a_steering_cost() {
     // Site at 28.2° N: 26° is out of direct reach. Allowed as a dog-leg, the solve yaws the upper
-    // stage; the plane change shows as steering loss (common practice: ../shared/domain.md §4).
+    // stage; the plane change shows as steering loss (common practice).
     let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
         .unwrap_or_default();
     let direct = text.replace("\"inclination_deg\": 51.6", "\"inclination_deg\": 30.0");
@@ -357,7 +358,7 @@ fn a_dog_leg_reaches_an_inclination_below_the_site_latitude_at_a_steering_cost()
         .replace("\"inclination_deg\": 51.6", "\"inclination_deg\": 26.0");
     let run = |t: &str| {
         let p = Problem::from_json(t).unwrap_or_else(|e| panic!("{e}"));
-        let s = solve(&p, &SolveOptions::default()).unwrap_or_else(|e| panic!("{e}"));
+        let s = tune(&p, &SolveOptions::default()).unwrap_or_else(|e| panic!("{e}"));
         let f = fly(&s.problem, &FlyOptions::default());
         (s, FlightReport::new(&p, &f))
     };
@@ -388,7 +389,7 @@ fn a_dynamic_pressure_limit_is_held_by_a_throttle_bucket_and_costed() {
     let mut p = demo("medium-2stage-leo200.json");
     p.limits.max_dynamic_pressure_pa = Some(32_000.0);
     let free = solved("medium-2stage-leo200.json", &SolveOptions::default());
-    let s = solve(&p, &SolveOptions::default()).unwrap_or_else(|e| panic!("{e}"));
+    let s = tune(&p, &SolveOptions::default()).unwrap_or_else(|e| panic!("{e}"));
     assert_eq!(
         s.convergence.status,
         SolveStatus::Converged,

@@ -17,7 +17,7 @@ fn demo(name: &str) -> Problem {
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("problems")
         .join(name);
-    match Problem::from_path(&path) {
+    match Problem::from_json(&std::fs::read_to_string(&path).unwrap_or_default()) {
         Ok(p) => p,
         Err(e) => panic!("{name}: {e}"),
     }
@@ -108,7 +108,7 @@ fn a_program_supplied_law_flies_exactly_like_the_law_it_wraps() {
 fn a_closed_loop_law_is_updated_every_guidance_cycle_of_its_arc() {
     let period_s = 10.0;
     let (_, f, updates) = fly_wrapped(Some(period_s));
-    let arc = &f.phases[2];
+    let arc = &f.arcs[2];
     let expected = ((arc.t1_s - arc.t0_s) / period_s).floor() as usize;
     assert!(
         expected >= 10,
@@ -161,7 +161,7 @@ fn the_optimizer_refuses_a_last_burn_whose_law_cannot_steer_to_the_insertion() {
     if let Some(Arc::Burn { steering, .. }) = p.program.arcs.get_mut(2) {
         *steering = Steering::GravityTurn;
     }
-    match kickturn::optimize::solve(&p, &kickturn::optimize::SolveOptions::default()) {
+    match kickturn::optimize::tune(&p, &kickturn::optimize::SolveOptions::default()) {
         Err(e) => assert!(
             e.to_string()
                 .starts_with("ascent.arcs[2].burn.steering: the last burn must use a law"),

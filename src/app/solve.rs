@@ -10,7 +10,7 @@ use serde::Serialize;
 use super::outcome::{FlightReport, Status};
 use super::{check_step, Case, Error};
 use crate::core::observe::Observer;
-use crate::core::optimize::{solve_observed, Convergence, SolveOptions, SolveStatus};
+use crate::core::optimize::{tune_observed, Convergence, SolveOptions, SolveStatus};
 use crate::core::problem::file::{AscentFile, LaunchFile, ProblemFile};
 use crate::core::problem::{validate, Problem};
 use crate::core::sim::{fly, EventKind, Flight, FlyOptions};
@@ -132,7 +132,7 @@ fn explore(
     variants
         .into_iter()
         .map(|(variant, how, q, o)| {
-            let s = solve_observed(&q, &o, obs);
+            let s = tune_observed(&q, &o, obs);
             let (value, status) = s.as_ref().map_or((base, SolveStatus::Infeasible), |s| {
                 (
                     crate::core::optimize::objective(&s.eval),
@@ -309,7 +309,7 @@ impl SolveReport {
 pub fn solve(case: &Case, s: &SolveSettings, obs: &dyn Observer) -> Result<SolveRun, Error> {
     s.check()?;
     let p = case.reachable()?;
-    let sol = solve_observed(p, &s.solver, obs)?;
+    let sol = tune_observed(p, &s.solver, obs)?;
     let mut tuned_file = case.file.clone();
     for (v, x) in &sol.variables {
         v.write(&mut tuned_file, *x);

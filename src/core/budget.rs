@@ -105,14 +105,14 @@ pub fn budget(env: &Environment, y0: &State, y1: &State, kind: Bookkeeping) -> B
     }
 }
 
-/// Budget of one phase (arc), Earth-relative bookkeeping: the terms accumulated over the arc and
+/// Budget of one arc, Earth-relative bookkeeping: the terms accumulated over the arc and
 /// the change of Earth-relative speed they explain.
 #[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct PhaseBudget {
+pub struct ArcBudget {
     /// Label of the arc.
     pub label: String,
     /// Burn or coast.
-    pub kind: crate::core::sim::PhaseKind,
+    pub kind: crate::core::sim::ArcKind,
     /// Start, s.
     pub t0_s: f64,
     /// End, s.
@@ -136,17 +136,13 @@ pub struct PhaseBudget {
 }
 
 /// Per-arc budgets of a flight (Earth-relative bookkeeping).
-pub fn phase_budgets(
-    env: &Environment,
-    phases: &[crate::core::sim::PhaseRecord],
-) -> Vec<PhaseBudget> {
-    phases
-        .iter()
+pub fn arc_budgets(env: &Environment, arcs: &[crate::core::sim::ArcRecord]) -> Vec<ArcBudget> {
+    arcs.iter()
         .map(|ph| {
             let b = budget(env, &ph.y0, &ph.y1, Bookkeeping::EarthRelative);
             let dv = speeds(env, &ph.y1).1 - speeds(env, &ph.y0).1;
             let explained = b.ideal_mps - b.total_loss_mps() + b.rotating_frame_mps;
-            PhaseBudget {
+            ArcBudget {
                 label: ph.label.clone(),
                 kind: ph.kind,
                 t0_s: ph.t0_s,

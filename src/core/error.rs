@@ -7,9 +7,6 @@ use thiserror::Error;
 #[derive(Debug, Error)]
 #[non_exhaustive]
 pub enum ProblemError {
-    /// The file could not be read.
-    #[error("cannot read problem file: {0}")]
-    Io(#[from] std::io::Error),
     /// The JSON is malformed or does not match the format (unknown or missing field, wrong type).
     #[error("{path}: {message}")]
     Format {

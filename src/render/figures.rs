@@ -150,7 +150,7 @@ fn draw_flight(r: &FlightReport, f: &Flight) -> Result<Vec<FigureFile>, PlotErro
         &as_markers(&mk_d),
     )?);
     out.extend(budget_waterfall(r, &title("ΔV budget (Earth-relative)"))?);
-    out.extend(phase_waterfall(
+    out.extend(arc_waterfall(
         r,
         &title("speed gained per arc (Earth-relative)"),
     )?);
@@ -249,9 +249,9 @@ fn budget_waterfall(r: &FlightReport, title: &str) -> Result<Vec<FigureFile>, Pl
 
 /// Waterfall of the Earth-relative speed gained arc by arc (ideal minus that arc's losses), then
 /// the Earth-rotation term, ending at the inertial speed at cutoff.
-fn phase_waterfall(r: &FlightReport, title: &str) -> Result<Vec<FigureFile>, PlotError> {
+fn arc_waterfall(r: &FlightReport, title: &str) -> Result<Vec<FigureFile>, PlotError> {
     let mut steps: Vec<(&str, f64)> = r
-        .phases
+        .arcs
         .iter()
         .map(|p| (p.label.as_str(), p.speed_change_mps))
         .collect();

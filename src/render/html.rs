@@ -58,7 +58,7 @@ fn tables(r: &FlightReport, s: &mut String) {
     }
     let _ = writeln!(s, "<h2>Per-arc budget (Earth-relative, m/s; on a coast the gravity term is speed traded for altitude)</h2>");
     let _ = writeln!(s, "<table><tr><th>arc</th><th>t0 s</th><th>t1 s</th><th>ideal</th><th>gravity</th><th>drag</th><th>steering</th><th>back-p</th><th>Δspeed</th></tr>");
-    for p in &r.phases {
+    for p in &r.arcs {
         let _ = writeln!(
             s,
             "<tr><td>{}</td><td>{:.2}</td><td>{:.2}</td><td>{:.1}</td><td>{:.1}</td><td>{:.1}</td><td>{:.1}</td><td>{:.1}</td><td>{:+.1}</td></tr>",

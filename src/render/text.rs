@@ -117,7 +117,7 @@ fn budget_table(b: &Budget, s: &mut String) {
     );
 }
 
-fn phase_table(r: &FlightReport, s: &mut String) {
+fn arc_table(r: &FlightReport, s: &mut String) {
     let _ = writeln!(
         s,
         "\nPer-arc budget, Earth-relative bookkeeping, m/s (on a coast the gravity term is speed traded for altitude)"
@@ -127,7 +127,7 @@ fn phase_table(r: &FlightReport, s: &mut String) {
         "  {:<24} {:>8} {:>8} {:>9} {:>9} {:>8} {:>9} {:>8} {:>6} {:>9}",
         "arc", "t0 s", "t1 s", "ideal", "gravity", "drag", "steering", "back-p", "rot", "Δspeed"
     );
-    for p in &r.phases {
+    for p in &r.arcs {
         let _ = writeln!(
             s,
             "  {:<24} {:>8.2} {:>8.2} {:>9.1} {:>9.1} {:>8.1} {:>9.1} {:>8.1} {:>6.1} {:>+9.1}",
@@ -218,7 +218,7 @@ pub fn render(r: &FlightReport) -> String {
     verdict(r, &mut s);
     budget_table(&r.budget, &mut s);
     budget_table(&r.budget_inertial, &mut s);
-    phase_table(r, &mut s);
+    arc_table(r, &mut s);
     extremes(r, &mut s);
     events(r, &mut s);
     let o = &r.orbit;

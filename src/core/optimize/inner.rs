@@ -134,7 +134,12 @@ fn chord(ctx: &Ctx, outer: &[f64], x0: &[f64], jac: &DMatrix<f64>) -> (Vec<f64>,
 /// Solves the terminal conditions for the inner variables from `x0` (normalized), the outer
 /// variables held at `outer` (normalized): chord steps with `jac` when given, then
 /// Levenberg–Marquardt if they do not converge.
-pub fn solve(ctx: &Ctx, outer: &[f64], x0: &[f64], jac: Option<&DMatrix<f64>>) -> InnerResult {
+pub fn solve_terminal(
+    ctx: &Ctx,
+    outer: &[f64],
+    x0: &[f64],
+    jac: Option<&DMatrix<f64>>,
+) -> InnerResult {
     let mut x = x0.to_vec();
     if let Some(j) = jac.filter(|j| j.ncols() == x0.len()) {
         let (xc, e) = chord(ctx, outer, x0, j);

@@ -8,7 +8,8 @@
 //! - *Outer* variables (the kick angle by default, plus any other free law parameters) minimize the
 //!   propellant burned, with the inner solve nested: Brent's method in one dimension, Nelder–Mead
 //!   in several (argmin). A coarse scan of the kick angle first finds a feasible, low-propellant
-//!   region (the kick is the most sensitive parameter; ../shared domain notes, Curtis Ex. 11.3),
+//!   region (the kick is the most sensitive parameter: Curtis, Orbital Mechanics for Engineering
+//!   Students, Ex. 11.3),
 //!   which also makes the start independent of the user's guess.
 //!
 //! Nesting keeps the outer problem smooth and low-dimensional: every outer point is a trajectory
@@ -467,13 +468,14 @@ fn set_aside_reserves(p: &mut Problem, ideal_mps: Option<f64>) {
     last.propellant_kg = usable;
 }
 
-/// Finds the least-propellant program of `p` that reaches its target.
-pub fn solve(p: &Problem, o: &SolveOptions) -> Result<Solution, SolveError> {
-    solve_observed(p, o, &crate::core::observe::Silent)
+/// Tunes the program of `p`: the least-propellant (or largest-payload) program that reaches its
+/// target.
+pub fn tune(p: &Problem, o: &SolveOptions) -> Result<Solution, SolveError> {
+    tune_observed(p, o, &crate::core::observe::Silent)
 }
 
-/// [`solve`], with the search's diagnostics sent to `obs`.
-pub fn solve_observed(
+/// [`tune`], with the search's diagnostics sent to `obs`.
+pub fn tune_observed(
     p: &Problem,
     o: &SolveOptions,
     obs: &dyn Observer,
@@ -510,7 +512,7 @@ fn solve_timed(p: &Problem, o: &SolveOptions, run: &Run) -> Result<Solution, Sol
     };
     let mut free = run_pass(spec, o, run);
     if o.objective == Objective::MaxPayload && p.reserves.fpr_fraction_dv > 0.0 {
-        free = reserve_pass(p, free, target, &inner, &outer, o, run);
+        free = reserve_pass(p, free, target, &inner, o, run);
     }
     let Some(q_lim) = p.limits.max_dynamic_pressure_pa else {
         return Ok(free);
@@ -533,7 +535,7 @@ fn solve_timed(p: &Problem, o: &SolveOptions, run: &Run) -> Result<Solution, Sol
     }
     let mut inner_q = inner;
     inner_q.push(Param::BucketThrottle);
-    // The trajectory budget is for the whole solve: later stages get what is left.
+    // The trajectory budget is for the whole solve: later passes get what is left.
     let held = SolveOptions {
         scan: false,
         max_trajectories: o
@@ -581,7 +583,6 @@ fn reserve_pass(
     first: Solution,
     target: Target,
     inner: &[Param],
-    outer: &[Param],
     o: &SolveOptions,
     run: &Run,
 ) -> Solution {
@@ -598,7 +599,6 @@ fn reserve_pass(
             .saturating_sub(first.convergence.trajectories),
         ..o.clone()
     };
-    let _ = outer;
     let spec = PassSpec {
         base: &base,
         floor: &base,
@@ -684,7 +684,7 @@ fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
     finish(&ctx, best)
 }
 
-fn finish(ctx: &Ctx, best: outer::Point) -> Solution {
+fn finish(ctx: &Ctx, best: outer::Candidate) -> Solution {
     let problem = ctx.problem_with(&best.outer, &best.inner);
     let variables = ctx
         .spec

@@ -28,7 +28,7 @@ const KICK_GRID_DEG: [f64; 12] = [
 
 /// A point of the search: outer and inner variables (normalized) and its evaluation.
 #[derive(Debug, Clone)]
-pub struct Point {
+pub struct Candidate {
     /// Outer variables.
     pub outer: Vec<f64>,
     /// Inner variables solved for these outer ones.
@@ -47,7 +47,7 @@ pub struct Point {
     pub kick_bracket: Option<(f64, f64)>,
 }
 
-impl Point {
+impl Candidate {
     fn cost(&self) -> f64 {
         objective(&self.eval)
     }
@@ -108,7 +108,7 @@ fn heading_guess(ctx: &Ctx, p: &Problem, arc: usize) -> f64 {
         .inclination_rad
         .unwrap_or(std::f64::consts::FRAC_PI_2);
     let f = fly(p, &FlyOptions::default());
-    let Some(ph) = f.phases.get(arc) else {
+    let Some(ph) = f.arcs.get(arc) else {
         return p.azimuth_rad;
     };
     let y = ph.y0;
@@ -142,7 +142,7 @@ impl Jitter {
 
 /// The automatic starting program, then the kick scan when enabled: the starting points of the
 /// outer search.
-pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
+pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Candidate> {
     let mut p = ctx.spec.base.clone();
     if o.scan {
         auto_laws(ctx, &mut p);
@@ -206,7 +206,7 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
         }
     };
     let mut points = solve_points(ctx, &inner0, scan_row(1.0));
-    let met = |pts: &[Point]| {
+    let met = |pts: &[Candidate]| {
         pts.iter()
             .filter(|p| p.eval.max_abs() < inner::INNER_TOL)
             .count()
@@ -216,7 +216,7 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
             points.extend(solve_points(ctx, &inner0, scan_row(level)));
         }
     }
-    let mut starts: Vec<Point> = points
+    let mut starts: Vec<Candidate> = points
         .chunks(if o.scan && kick.is_some() {
             KICK_GRID_DEG.len()
         } else {
@@ -228,7 +228,7 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
     starts.truncate(2);
     if starts.is_empty() {
         let e = ctx.eval(&[], &inner0);
-        starts.push(Point {
+        starts.push(Candidate {
             outer: Vec::new(),
             inner: inner0,
             eval: e,
@@ -244,12 +244,12 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Point> {
 
 /// Inner solves of independent scan points, in parallel; results in input order (deterministic
 /// whatever the thread count).
-fn solve_points(ctx: &Ctx, inner0: &[f64], starts: Vec<Vec<f64>>) -> Vec<Point> {
+fn solve_points(ctx: &Ctx, inner0: &[f64], starts: Vec<Vec<f64>>) -> Vec<Candidate> {
     starts
         .into_par_iter()
         .map(|x| {
-            let r = inner::solve(ctx, &x, inner0, None);
-            Point {
+            let r = inner::solve_terminal(ctx, &x, inner0, None);
+            Candidate {
                 outer: x,
                 inner: r.x,
                 eval: r.eval,
@@ -266,7 +266,7 @@ fn solve_points(ctx: &Ctx, inner0: &[f64], starts: Vec<Vec<f64>>) -> Vec<Point> 
 /// Local minima of the scan (cost no higher than both neighbours), best first, at most two:
 /// the kick can have a lofted and a depressed optimum (multistart keeps both in play). Each
 /// carries its grid neighbours as the kick bracket.
-fn scan_minima(points: &[Point], kick: Option<usize>) -> Vec<Point> {
+fn scan_minima(points: &[Candidate], kick: Option<usize>) -> Vec<Candidate> {
     let n = points.len();
     let cost = |i: usize| points[i].cost();
     let mut minima: Vec<usize> = (0..n)
@@ -296,7 +296,7 @@ struct Outer<'a> {
     ctx: &'a Ctx<'a>,
     warm: Mutex<Vec<f64>>,
     jac: Mutex<Option<nalgebra::DMatrix<f64>>>,
-    best: Mutex<Point>,
+    best: Mutex<Candidate>,
     count: Mutex<usize>,
 }
 
@@ -310,7 +310,7 @@ impl Outer<'_> {
         let warm = self.warm.lock().map(|w| w.clone()).unwrap_or_default();
         let jac = self.jac.lock().ok().and_then(|j| j.clone());
         let before = self.ctx.flights.load(std::sync::atomic::Ordering::Relaxed);
-        let r = inner::solve(self.ctx, x, &warm, jac.as_ref());
+        let r = inner::solve_terminal(self.ctx, x, &warm, jac.as_ref());
         self.ctx.obs.diagnostic(&|| {
             let n = self.ctx.flights.load(std::sync::atomic::Ordering::Relaxed) - before;
             format!(
@@ -334,7 +334,7 @@ impl Outer<'_> {
         }
         if let Ok(mut b) = self.best.lock() {
             if cost < b.cost() {
-                *b = Point {
+                *b = Candidate {
                     outer: x.to_vec(),
                     inner: r.x,
                     eval: r.eval,
@@ -367,8 +367,8 @@ impl CostFunction for OuterN<'_> {
 }
 
 /// Minimizes propellant over the outer variables from each start; keeps the best.
-pub fn search_all(ctx: &Ctx, starts: Vec<Point>) -> Point {
-    let mut best: Option<Point> = None;
+pub fn search_all(ctx: &Ctx, starts: Vec<Candidate>) -> Candidate {
+    let mut best: Option<Candidate> = None;
     let mut iterations = 0;
     for (k, s) in starts.into_iter().enumerate() {
         // A second start is worth its cost only when its scan value is close to the first's.
@@ -393,9 +393,9 @@ pub fn search_all(ctx: &Ctx, starts: Vec<Point>) -> Point {
     b
 }
 
-fn unreachable_point(ctx: &Ctx) -> Point {
+fn unreachable_point(ctx: &Ctx) -> Candidate {
     let e = ctx.eval(&[], &[]);
-    Point {
+    Candidate {
         outer: Vec::new(),
         inner: Vec::new(),
         eval: e,
@@ -408,10 +408,10 @@ fn unreachable_point(ctx: &Ctx) -> Point {
 }
 
 /// Minimizes propellant over the outer variables from `start`.
-fn search(ctx: &Ctx, start: Point) -> Point {
+fn search(ctx: &Ctx, start: Candidate) -> Candidate {
     let n = start.outer.len();
     if n == 0 {
-        return Point {
+        return Candidate {
             reason: "no outer variables: terminal conditions solved".into(),
             ..start
         };
@@ -508,22 +508,17 @@ fn bracket(outer: &Outer, k0: f64) -> Result<(f64, f64), Error> {
     let mut step = (0.2 * k0).max(0.05);
     let fr = outer.run(&[k0 + step])?;
     let dir = if fr < f0 { 1.0 } else { -1.0 };
-    let (mut a, mut fa) = (k0, f0);
+    let mut a = if dir > 0.0 { k0 } else { k0 + step };
     let (mut b, mut fb) = if dir > 0.0 { (k0 + step, fr) } else { (k0, f0) };
-    if dir < 0.0 {
-        a = k0 + step;
-        fa = fr;
-    }
     for _ in 0..12 {
         let c = (b + dir * step).max(lo_bound);
         let fc = outer.run(&[c])?;
         if fc >= fb || c <= lo_bound {
             return Ok(if dir > 0.0 { (a, c) } else { (c, a) });
         }
-        (a, fa, b, fb) = (b, fb, c, fc);
+        (a, b, fb) = (b, c, fc);
         step *= 2.0;
     }
-    let _ = fa;
     Ok(if dir > 0.0 {
         (a, b + step)
     } else {

@@ -1,7 +1,7 @@
 //! Terminal conditions: the scaled residuals of a flown trajectory against the target orbit.
 //!
 //! The last burn cuts off when the orbital energy reaches the target's, so the semi-major axis is
-//! met by construction and the residuals are the remaining conditions (../shared practice, also
+//! met by construction and the residuals are the remaining conditions (common practice;
 //! docs/method.md): insertion at perigee `[(r − r_p)/100 km, γ/1°]`, free insertion
 //! `[(r_p − r_p*)/100 km]`, insertion state `[(r − r*)/100 km, (γ − γ*)/1°]`, then `(i − i*)/1°`
 //! when an inclination is targeted, and last an energy-shortfall term that is zero whenever the

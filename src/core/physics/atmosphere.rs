@@ -247,7 +247,7 @@ fn lower_atmosphere(h_m: f64) -> AtmosphereState {
 ///   memory. The pressures recalled from memory agree with it except at
 ///   350 km (recalled 3.4507e-6 Pa; the reproduction's 3.4498e-6 is used).
 /// - Densities marked `mem`: the standard's Table I values, from memory.
-///   91, 110 and 120 km are confirmed by /work/shared/domain.md §3(f); every
+///   91, 110 and 120 km agree with the table as reproduced in the poliastro documentation; every
 ///   `mem` entry agrees within 0.1 % with ρ = p M/(R* T) using the molecular
 ///   weights M of the same reproduction and T from [`kinetic_temperature_k`].
 /// - Densities marked `der`: derived as ρ = p M/(R* T) in that way, rounded
@@ -420,8 +420,8 @@ mod tests {
     #[test]
     fn layer_bases_at_geopotential_altitudes() {
         // Source: U.S. Standard Atmosphere 1976 (NOAA-S/T 76-1562) layer bases,
-        // /work/shared/domain.md §3(f) table (recomputed there; matches the
-        // standard as reproduced in poliastro docs). Columns: H m', T, p, rho, a.
+        // recomputed from its defining equations; they match the standard as reproduced in
+        // the poliastro documentation. Columns: H m', T, p, rho, a.
         let rows: [Row; 8] = [
             (0.0, 288.150, 101_325.0, 1.22500, 340.294),
             (11_000.0, 216.650, 22_632.1, 0.363_918, 295.070),
@@ -440,8 +440,8 @@ mod tests {
 
     #[test]
     fn geometric_altitudes_differ_from_geopotential() {
-        // Source: /work/shared/domain.md §3(f) "Geometric Z" list (derived from
-        // the standard's equations, NOAA-S/T 76-1562). Columns: Z m, T, p, rho, a.
+        // Source: U.S. Standard Atmosphere 1976 (NOAA-S/T 76-1562), values at geometric
+        // altitudes derived from the standard's equations. Columns: Z m, T, p, rho, a.
         // The 5 km speed of sound is printed to 0.01 m/s only (half a unit is
         // 1.6e-5 relative), hence its own tolerance (last column).
         let rows: [(Row, f64); 7] = [
@@ -456,7 +456,8 @@ mod tests {
         for (row, a_tol) in rows {
             check("Z m", us1976(row.0), row, a_tol);
         }
-        // Source: /work/shared/domain.md §3(f): 5 km geopotential differs.
+        // Source: U.S. Standard Atmosphere 1976 (NOAA-S/T 76-1562), derived from its
+        // equations: 5 km geopotential differs.
         let h5 = us1976_geopotential(5_000.0);
         assert_relative_eq!(h5.temperature_k, 255.650, max_relative = 1e-5);
         assert_relative_eq!(h5.pressure_pa, 54_019.9, max_relative = 1e-5);
@@ -524,8 +525,8 @@ mod tests {
 
     #[test]
     fn densities_above_86km_match_standard() {
-        // Source: U.S. Standard Atmosphere 1976, Table I, via /work/shared/domain.md
-        // §3(f) (poliastro docs).
+        // Source: U.S. Standard Atmosphere 1976, Table I, as reproduced in the poliastro
+        // documentation.
         for (z_m, rho) in [(91e3, 2.860e-6), (110e3, 9.708e-8), (120e3, 2.222e-8)] {
             assert_relative_eq!(us1976(z_m).density_kg_m3, rho, max_relative = 1e-3);
         }

@@ -207,12 +207,6 @@ impl Problem {
             plane_change_mps: 2.0 * v * (0.5 * di).sin(),
         })
     }
-
-    /// Reads, parses and validates a problem file.
-    pub fn from_path(path: &std::path::Path) -> Result<Problem, ProblemError> {
-        let text = std::fs::read_to_string(path)?;
-        Problem::from_json(&text)
-    }
 }
 
 /// Parses problem JSON into the raw file mirror; errors carry the JSON path of the field.

@@ -120,7 +120,7 @@ pub struct EventRecord {
 /// Burn or coast.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
-pub enum PhaseKind {
+pub enum ArcKind {
     /// Powered.
     Burn,
     /// Unpowered.
@@ -129,11 +129,11 @@ pub enum PhaseKind {
 
 /// One arc as flown: its boundary states (ΔV integrals included).
 #[derive(Debug, Clone, PartialEq)]
-pub struct PhaseRecord {
+pub struct ArcRecord {
     /// Label ("burn 1: Core", "coast 1").
     pub label: String,
     /// Burn or coast.
-    pub kind: PhaseKind,
+    pub kind: ArcKind,
     /// Start time, s.
     pub t0_s: f64,
     /// End time, s.
@@ -184,7 +184,7 @@ pub struct Flight {
     /// Events in time order.
     pub events: Vec<EventRecord>,
     /// Arcs as flown.
-    pub phases: Vec<PhaseRecord>,
+    pub arcs: Vec<ArcRecord>,
     /// Maximum dynamic pressure.
     pub max_q: Option<Extremum>,
     /// Maximum sensed axial acceleration, in g0.
@@ -340,7 +340,7 @@ impl<'a> Flyer<'a> {
             y1: y,
             final_mode: mode,
             events: Vec::new(),
-            phases: Vec::new(),
+            arcs: Vec::new(),
             max_q: None,
             max_axial_accel: None,
             propellant_remaining_kg: 0.0,
@@ -393,11 +393,11 @@ impl<'a> Flyer<'a> {
                 Arc::Burn { .. } => {
                     burns += 1;
                     let name = &self.p.vehicle.stages[self.mode.stage].name;
-                    (format!("burn {burns}: {name}"), PhaseKind::Burn)
+                    (format!("burn {burns}: {name}"), ArcKind::Burn)
                 }
                 Arc::Coast(_) => {
                     coasts += 1;
-                    (format!("coast {coasts}"), PhaseKind::Coast)
+                    (format!("coast {coasts}"), ArcKind::Coast)
                 }
             };
             if !self.start_arc(arc_i) {
@@ -406,7 +406,7 @@ impl<'a> Flyer<'a> {
             while !self.arc_done && self.ended.is_none() {
                 self.segment();
             }
-            self.out.phases.push(PhaseRecord {
+            self.out.arcs.push(ArcRecord {
                 label,
                 kind,
                 t0_s: t0,

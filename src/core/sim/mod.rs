@@ -17,7 +17,7 @@ mod flight;
 mod record;
 
 pub use flight::{
-    fly, EndReason, EventKind, EventRecord, Extremum, Flight, FlyOptions, InitialState, PhaseKind,
-    PhaseRecord, SimStats,
+    fly, ArcKind, ArcRecord, EndReason, EventKind, EventRecord, Extremum, Flight, FlyOptions,
+    InitialState, SimStats,
 };
 pub use record::{snapshot, Snapshot};
