@@ -15,6 +15,17 @@
 //! The command line (clap, files, exit codes, progress bars) lives in the binary, not here: the
 //! library never prints, exits or touches a file on its own.
 //!
+//! ```
+//! // Fly the bundled medium demo as written and check that it reaches orbit.
+//! let text = include_str!("../problems/medium-2stage-leo200.json");
+//! let case = kickturn::app::Case::from_json(text).expect("a valid problem");
+//! let run = kickturn::app::fly::fly(&case, &Default::default()).expect("a reachable target");
+//! assert!(run.succeeded());
+//! assert!(run.report.budget.closure_error_mps.abs() < 1e-3);
+//! let text_report = kickturn::render::text::render(&run.report);
+//! assert!(text_report.contains("ORBIT REACHED"));
+//! ```
+//!
 //! Preliminary design only: not for flight software, range safety or licensing.
 #![deny(missing_docs)]
 #![deny(clippy::float_cmp)]

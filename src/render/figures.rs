@@ -63,26 +63,61 @@ fn as_markers(m: &[(f64, String)]) -> Vec<Marker<'_>> {
 
 /// Every flight figure, drawn in memory: PNG and SVG of each.
 pub fn flight_figures(r: &FlightReport, f: &Flight) -> Result<Vec<FigureFile>, PlotError> {
-    draw_flight(r, f)
+    let h = &f.history;
+    let mk = markers(r, false);
+    let ctx = TimeAxis {
+        r,
+        h,
+        t: col(h, |s| s.t_s),
+        markers: as_markers(&mk),
+    };
+    let mut out = altitude_speed(&ctx)?;
+    out.extend(angles(&ctx)?);
+    out.extend(loads(
+        r,
+        h,
+        &ctx.t,
+        &ctx.title("dynamic pressure and axial load"),
+        &ctx.markers,
+    )?);
+    out.extend(profile(r, h)?);
+    out.extend(budget_waterfall(
+        r,
+        &ctx.title("ΔV budget (Earth-relative)"),
+    )?);
+    out.extend(arc_waterfall(
+        r,
+        &ctx.title("speed gained per arc (Earth-relative)"),
+    )?);
+    out.extend(losses(&ctx)?);
+    Ok(out)
 }
 
-fn draw_flight(r: &FlightReport, f: &Flight) -> Result<Vec<FigureFile>, PlotError> {
-    let h = &f.history;
-    let t = col(h, |s| s.t_s);
-    let title = |what: &str| format!("{}: {what}", r.vehicle);
-    let mk = markers(r, false);
-    let m = as_markers(&mk);
-    let mut out = Vec::new();
-    let alt = col(h, |s| s.altitude_m / 1e3);
-    let v_rel = col(h, |s| s.speed_rel_mps / 1e3);
-    let v_in = col(h, |s| s.speed_inertial_mps / 1e3);
-    out.extend(dual_axis_chart(
+/// What every time-history figure shares: the report, the history, its times and event markers.
+struct TimeAxis<'a> {
+    r: &'a FlightReport,
+    h: &'a [Snapshot],
+    t: Vec<f64>,
+    markers: Vec<Marker<'a>>,
+}
+
+impl TimeAxis<'_> {
+    fn title(&self, what: &str) -> String {
+        format!("{}: {what}", self.r.vehicle)
+    }
+}
+
+fn altitude_speed(c: &TimeAxis) -> Result<Vec<FigureFile>, PlotError> {
+    let alt = col(c.h, |s| s.altitude_m / 1e3);
+    let v_rel = col(c.h, |s| s.speed_rel_mps / 1e3);
+    let v_in = col(c.h, |s| s.speed_inertial_mps / 1e3);
+    dual_axis_chart(
         "altitude_speed",
-        &title("altitude and speed"),
+        &c.title("altitude and speed"),
         "time since liftoff [s]",
         "geodetic altitude [km]",
         "speed [km/s]",
-        &t,
+        &c.t,
         &[Series {
             label: "altitude",
             y: &alt,
@@ -99,17 +134,20 @@ fn draw_flight(r: &FlightReport, f: &Flight) -> Result<Vec<FigureFile>, PlotErro
         ],
         &[],
         &[],
-        &m,
-    )?);
-    let gamma = col(h, |s| s.flight_path_rel_deg);
-    let pitch = col(h, |s| s.pitch_deg);
-    let alpha = col(h, |s| s.alpha_deg);
-    out.extend(line_chart(
+        &c.markers,
+    )
+}
+
+fn angles(c: &TimeAxis) -> Result<Vec<FigureFile>, PlotError> {
+    let gamma = col(c.h, |s| s.flight_path_rel_deg);
+    let pitch = col(c.h, |s| s.pitch_deg);
+    let alpha = col(c.h, |s| s.alpha_deg);
+    line_chart(
         "angles",
-        &title("attitude angles"),
+        &c.title("attitude angles"),
         "time since liftoff [s]",
         "angle [deg]",
-        &t,
+        &c.t,
         &[
             Series {
                 label: "flight-path angle (Earth-relative)",
@@ -125,20 +163,17 @@ fn draw_flight(r: &FlightReport, f: &Flight) -> Result<Vec<FigureFile>, PlotErro
             },
         ],
         &[],
-        &m,
-    )?);
-    out.extend(loads(
-        r,
-        h,
-        &t,
-        &title("dynamic pressure and axial load"),
-        &m,
-    )?);
+        &c.markers,
+    )
+}
+
+fn profile(r: &FlightReport, h: &[Snapshot]) -> Result<Vec<FigureFile>, PlotError> {
+    let alt = col(h, |s| s.altitude_m / 1e3);
     let down = col(h, |s| s.downrange_m / 1e3);
-    let mk_d = markers(r, true);
-    out.extend(line_chart(
+    let mk = markers(r, true);
+    line_chart(
         "profile",
-        &title("altitude against downrange"),
+        &format!("{}: altitude against downrange", r.vehicle),
         "downrange [km]",
         "geodetic altitude [km]",
         &down,
@@ -147,23 +182,21 @@ fn draw_flight(r: &FlightReport, f: &Flight) -> Result<Vec<FigureFile>, PlotErro
             y: &alt,
         }],
         &[],
-        &as_markers(&mk_d),
-    )?);
-    out.extend(budget_waterfall(r, &title("ΔV budget (Earth-relative)"))?);
-    out.extend(arc_waterfall(
-        r,
-        &title("speed gained per arc (Earth-relative)"),
-    )?);
-    let g = col(h, |s| s.gravity_loss_rel_mps);
-    let d = col(h, |s| s.drag_loss_rel_mps);
-    let st = col(h, |s| s.steering_loss_rel_mps);
-    let bp = col(h, |s| s.back_pressure_loss_mps);
-    out.extend(line_chart(
+        &as_markers(&mk),
+    )
+}
+
+fn losses(c: &TimeAxis) -> Result<Vec<FigureFile>, PlotError> {
+    let g = col(c.h, |s| s.gravity_loss_rel_mps);
+    let d = col(c.h, |s| s.drag_loss_rel_mps);
+    let st = col(c.h, |s| s.steering_loss_rel_mps);
+    let bp = col(c.h, |s| s.back_pressure_loss_mps);
+    line_chart(
         "losses",
-        &title("cumulative losses (Earth-relative)"),
+        &c.title("cumulative losses (Earth-relative)"),
         "time since liftoff [s]",
         "loss [m/s]",
-        &t,
+        &c.t,
         &[
             Series {
                 label: "gravity",
@@ -183,9 +216,8 @@ fn draw_flight(r: &FlightReport, f: &Flight) -> Result<Vec<FigureFile>, PlotErro
             },
         ],
         &[],
-        &m,
-    )?);
-    Ok(out)
+        &c.markers,
+    )
 }
 
 fn loads(

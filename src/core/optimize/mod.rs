@@ -318,12 +318,16 @@ fn circularization(p: &Problem, last: usize) -> Option<usize> {
     })
 }
 
-/// Chooses inner and outer variables from the program's structure and the options.
-fn choose_vars(
-    p: &Problem,
-    t: &Target,
-    o: &SolveOptions,
-) -> Result<(Vec<Param>, Vec<Param>), SolveError> {
+/// Which arcs' laws the optimizer tunes: the owner of the last burn's law (it steers to the
+/// insertion), every arc that owns a tunable law, and the first law that steers the plane.
+struct LawRoles {
+    last: usize,
+    owner: usize,
+    owners: Vec<usize>,
+    plane: usize,
+}
+
+fn law_roles(p: &Problem) -> Result<LawRoles, SolveError> {
     let arcs = &p.program.arcs;
     let last = (0..arcs.len())
         .rev()
@@ -341,24 +345,49 @@ fn choose_vars(
     let owners: Vec<usize> = (0..arcs.len())
         .filter(|i| law_owner(p, *i) == Some(*i))
         .collect();
-    // The plane is steered by the first law that can (its heading, and its yaw term for a
-    // dog-leg).
-    let first_law = owners
+    let plane = owners
         .iter()
         .copied()
         .find(|i| controls(p, *i, Control::Plane))
         .unwrap_or(owner);
-    let shape = law_params(p, owner, false);
-    let plane = law_params(p, first_law, true);
-    let has = |g: &str| o.free.iter().any(|f| f == g);
+    Ok(LawRoles {
+        last,
+        owner,
+        owners,
+        plane,
+    })
+}
+
+/// Chooses inner and outer variables from the program's structure and the options.
+fn choose_vars(
+    p: &Problem,
+    t: &Target,
+    o: &SolveOptions,
+) -> Result<(Vec<Param>, Vec<Param>), SolveError> {
+    let roles = law_roles(p)?;
+    let (inner, mut outer) = terminal_vars(p, t, o, &roles);
+    free_vars(p, t, o, &roles, &mut outer);
+    Ok((inner, outer))
+}
+
+/// The variables that meet the terminal conditions (inner), and the law parameters those
+/// conditions leave free (outer).
+fn terminal_vars(
+    p: &Problem,
+    t: &Target,
+    o: &SolveOptions,
+    roles: &LawRoles,
+) -> (Vec<Param>, Vec<Param>) {
     let fixed = |g: &str| o.fix.iter().any(|f| f == g);
+    let shape = law_params(p, roles.owner, false);
+    let plane = law_params(p, roles.plane, true);
     let mut inner = Vec::new();
     let mut outer = Vec::new();
     // The law's first shape parameter (the initial pitch) meets the radius or perigee condition;
     // its second (the pitch rate) the flight-path angle, or it is tuned outside for a free
     // insertion.
     let (first, second) = (shape.first().copied(), shape.get(1).copied());
-    match (circularization(p, last), t.insertion) {
+    match (circularization(p, roles.last), t.insertion) {
         (Some(transfer), _) => {
             inner.push(Param::ApogeeCutoff(transfer));
             inner.extend(first);
@@ -387,11 +416,19 @@ fn choose_vars(
             inner.extend(heading);
         }
     }
+    (inner, outer)
+}
+
+/// The outer variables the program and the options free: kick, the other laws' shapes, the
+/// `--free` groups, the azimuth and the timed coasts.
+fn free_vars(p: &Problem, t: &Target, o: &SolveOptions, roles: &LawRoles, outer: &mut Vec<Param>) {
+    let has = |g: &str| o.free.iter().any(|f| f == g);
+    let fixed = |g: &str| o.fix.iter().any(|f| f == g);
     if p.program.liftoff.is_some() && !fixed("kick") {
         outer.push(Param::Kick);
     }
     if !fixed("steering") {
-        for i in owners.iter().copied().filter(|i| *i != owner) {
+        for i in roles.owners.iter().copied().filter(|i| *i != roles.owner) {
             outer.extend(law_params(p, i, false));
         }
     }
@@ -413,12 +450,11 @@ fn choose_vars(
     // propellant on the heavy demo), never shorter than written.
     if has("coasts") || !fixed("coasts") {
         outer.extend(
-            (0..arcs.len())
+            (0..p.program.arcs.len())
                 .map(Param::Coast)
                 .filter(|v| v.get(p).is_some()),
         );
     }
-    Ok((inner, outer))
 }
 
 /// Prepares the base problem: the last burn cuts off on the target energy.
