@@ -35,4 +35,6 @@ pub mod core;
 pub mod render;
 
 // The core's modules under their short names, for callers and tests.
-pub use crate::core::{budget, error, observe, optimize, physics, problem, sim, steering, vehicle};
+pub use crate::core::{
+    budget, error, observe, optimize, physics, problem, random, sim, steering, vehicle,
+};

@@ -3,8 +3,9 @@
 //! differences of re-solved problems (docs/method.md §11). What a study varies is a
 //! [`Param`] of the registry, written into the file form and validated again.
 //!
-//! Every study runs its points through one runner ([`solve_points`]): in parallel (rayon), in
-//! input order, one [`Observer::advanced`] per point, errors kept as the point's status.
+//! Every study runs its points through one runner ([`run_each`], with [`solve_points`] for
+//! re-solved points): in parallel (rayon), in input order, one [`Observer::advanced`] per point,
+//! errors kept as the point's status.
 
 use rayon::prelude::*;
 use serde::Serialize;
@@ -178,25 +179,36 @@ pub fn solve_file(file: &ProblemFile, value: f64, opts: &SolveOptions) -> Point 
     }
 }
 
-/// The one study runner: solves `(file, value)` pairs in parallel, in input order, reporting one
-/// unit of progress per point.
+/// The one study runner: runs `each` on every item in parallel (rayon), returns the results in
+/// input order, and reports one unit of progress per item. Results must not depend on the order
+/// in which items run (a sampled study draws from [`crate::core::random::stream`] by index).
+pub fn run_each<T: Sync, R: Send>(
+    what: &str,
+    items: &[T],
+    obs: &dyn Observer,
+    each: impl Fn(&T) -> R + Sync,
+) -> Vec<R> {
+    obs.started(what, items.len());
+    let out = items
+        .par_iter()
+        .map(|item| {
+            let r = each(item);
+            obs.advanced();
+            r
+        })
+        .collect();
+    obs.finished();
+    out
+}
+
+/// Solves `(file, value)` pairs with [`run_each`].
 pub fn solve_points(
     what: &str,
     points: &[(ProblemFile, f64)],
     opts: &SolveOptions,
     obs: &dyn Observer,
 ) -> Vec<Point> {
-    obs.started(what, points.len());
-    let out = points
-        .par_iter()
-        .map(|(f, v)| {
-            let pt = solve_file(f, *v, opts);
-            obs.advanced();
-            pt
-        })
-        .collect();
-    obs.finished();
-    out
+    run_each(what, points, obs, |(f, v)| solve_file(f, *v, opts))
 }
 
 /// Solves every value of a sweep in parallel, in input order.

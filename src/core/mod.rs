@@ -12,6 +12,7 @@ pub mod observe;
 pub mod optimize;
 pub mod physics;
 pub mod problem;
+pub mod random;
 pub mod sim;
 pub mod steering;
 pub mod vehicle;

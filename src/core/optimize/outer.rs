@@ -15,6 +15,7 @@ use super::targeting::Eval;
 use super::{objective, Ctx, SolveOptions};
 use crate::core::problem::params::Param;
 use crate::core::problem::Problem;
+use crate::core::random::SplitMix64;
 use crate::core::sim::{fly, FlyOptions};
 use crate::core::steering::{Arc, LawParam, Steering};
 
@@ -125,21 +126,6 @@ fn heading_guess(ctx: &Ctx, p: &Problem, arc: usize) -> f64 {
     }
 }
 
-/// Deterministic pseudo-random factors in [1 − a, 1 + a] (SplitMix64; Steele et al., 2014).
-struct Jitter(u64);
-
-impl Jitter {
-    fn factor(&mut self, a: f64) -> f64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^= z >> 31;
-        let u = (z >> 11) as f64 / (1u64 << 53) as f64;
-        1.0 + a * (2.0 * u - 1.0)
-    }
-}
-
 /// The automatic starting program, then the kick scan when enabled: the starting points of the
 /// outer search.
 pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Candidate> {
@@ -147,7 +133,7 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Candidate> {
     if o.scan {
         auto_laws(ctx, &mut p);
     }
-    let mut jitter = o.perturb_seed.map(Jitter);
+    let mut jitter = o.perturb_seed.map(SplitMix64::new);
     if let Some(j) = jitter.as_mut() {
         for a in p.program.arcs.iter_mut() {
             if let Arc::Burn {
