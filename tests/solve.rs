@@ -153,7 +153,7 @@ fn linear_tangent_optimum_matches_the_closed_form() {
     );
     assert!(rel(rate, c) < 1e-6, "c {rate} vs {c}");
     assert!(rel(flight.t1_s, tf) < 1e-6, "tf {} vs {tf}", flight.t1_s);
-    // Downrange at cutoff: x = (a/c²)[secθ0 − secθ − tanθ·L] (domain.md §3(b)); 338.171 km.
+    // Downrange at cutoff: x = (a/c²)[secθ0 − secθ − tanθ·L] (closed form of Bryson & Ho's linear tangent law, derived); 338.171 km.
     assert!(
         (flight.y1[0] - 338_171.0).abs() < 1.0,
         "xf {}",

@@ -8,7 +8,7 @@ use kickturn::physics::environment::Local;
 use kickturn::problem::Problem;
 use kickturn::sim::{fly, Flight, FlyOptions};
 use kickturn::steering::{
-    ActiveLaw, Arc, ArcStart, Control, GuidanceInput, LawParam, LinearTangent, Steering,
+    ActiveLaw, Arc, ArcStart, Control, GuidanceInput, LawParam, LinearTangent, SharedLaw, Steering,
     SteeringLaw,
 };
 use nalgebra::Vector3;
@@ -81,11 +81,11 @@ fn fly_wrapped(period_s: Option<f64>) -> (Problem, Flight, Vec<GuidanceInput>) {
     let Steering::LinearTangent(lt) = steering.clone() else {
         panic!("the medium demo's upper stage flies a linear tangent law");
     };
-    *steering = Steering::Custom(Shared::new(Recording {
+    *steering = Steering::Custom(SharedLaw(Shared::new(Recording {
         inner: lt,
         period_s,
         updates: updates.clone(),
-    }));
+    })));
     let f = fly(&p, &FlyOptions::default());
     let u = updates.lock().map(|u| u.clone()).unwrap_or_default();
     (p, f, u)

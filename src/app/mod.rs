@@ -57,9 +57,10 @@ pub enum Error {
 }
 
 impl Error {
-    /// True for input the user must correct (everything except an unreachable target).
+    /// True for input the user must correct: everything except an unreachable target and a
+    /// tuned program that fails to write back (the tool's failure, not the user's input).
     pub fn is_bad_input(&self) -> bool {
-        !matches!(self, Error::Unreachable(_))
+        !matches!(self, Error::Unreachable(_) | Error::WriteBack(_))
     }
 }
 

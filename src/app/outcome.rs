@@ -211,7 +211,7 @@ impl FlightReport {
             inclination_deg: t.inclination_rad.map(f64::to_degrees),
         });
         FlightReport {
-            tool: format!("kickturn {}", env!("CARGO_PKG_VERSION")),
+            tool: super::tool_version(),
             input_sha256: p.input_sha256.clone(),
             problem: p.name.clone(),
             vehicle: p.vehicle.name.clone(),

@@ -35,6 +35,25 @@ impl ProblemError {
     }
 }
 
+/// Requires `lo < x < hi` (open) or `lo <= x <= hi` (closed) and finite.
+pub fn in_range(field: &str, x: f64, lo: f64, hi: f64, closed: bool) -> Result<f64, ProblemError> {
+    let ok = x.is_finite()
+        && if closed {
+            x >= lo && x <= hi
+        } else {
+            x > lo && x < hi
+        };
+    if ok {
+        Ok(x)
+    } else {
+        let (a, b) = if closed { ('[', ']') } else { ('(', ')') };
+        Err(ProblemError::invalid(
+            field,
+            format!("{x} is outside the allowed range {a}{lo}, {hi}{b}"),
+        ))
+    }
+}
+
 /// The requested launch cannot reach the inclination by a direct ascent. Not bad input: the
 /// command reports it and exits with code 1.
 #[derive(Debug, Error, Clone, PartialEq)]

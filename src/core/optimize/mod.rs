@@ -171,7 +171,7 @@ pub enum SolveError {
 pub struct Ctx<'a> {
     /// Restart the outer Nelder–Mead from its best point with a small simplex.
     polish: bool,
-    /// Problem, coast floor, target and variables of this stage.
+    /// Problem, coast floor, target and variables of this pass.
     spec: PassSpec<'a>,
     max_payload: bool,
     flights: AtomicUsize,
@@ -253,17 +253,17 @@ fn struct_err(field: &str, reason: &str) -> SolveError {
     }
 }
 
-/// Index of the arc whose tunable law steers arc `i`: itself when its law has parameters to
-/// tune, the latest such earlier arc when its law continues an earlier one.
+/// Index of the arc whose tunable law steers arc `i`: itself when its law can be tuned (it has
+/// parameters and is not a shared program-supplied law), the latest such earlier arc when its
+/// law continues an earlier one.
 fn law_owner(p: &Problem, i: usize) -> Option<usize> {
     let Arc::Burn { steering, .. } = &p.program.arcs[i] else {
         return None;
     };
-    let law = steering.law();
-    if law.continues_previous() {
+    if steering.law().continues_previous() {
         (0..i).rev().find(|j| law_owner(p, *j) == Some(*j))
     } else {
-        (!law.shape_params().is_empty()).then_some(i)
+        steering.is_tunable().then_some(i)
     }
 }
 

@@ -3,7 +3,7 @@
 
 use super::file::*;
 use super::{AzimuthSource, Insertion, IntegratorSettings, Limits, Problem, Site, Target};
-use crate::core::error::ProblemError;
+use crate::core::error::{in_range as range, ProblemError};
 use crate::core::physics::aero::DragTable;
 use crate::core::physics::earth::{self, Geodetic, G0_MPS2, WGS84_A_M, WGS84_E2, WGS84_GM_M3_S2};
 use crate::core::physics::environment::{AtmosphereModel, EarthModel, Environment};
@@ -24,25 +24,6 @@ fn num(x: f64) -> String {
 
 fn bad<T>(field: &str, reason: impl Into<String>) -> R<T> {
     Err(ProblemError::invalid(field, reason))
-}
-
-/// Requires `lo < x < hi` (open) or `lo <= x <= hi` (closed) and finite.
-pub fn range(field: &str, x: f64, lo: f64, hi: f64, closed: bool) -> R<f64> {
-    let ok = x.is_finite()
-        && if closed {
-            x >= lo && x <= hi
-        } else {
-            x > lo && x < hi
-        };
-    if ok {
-        Ok(x)
-    } else {
-        let (a, b) = if closed { ('[', ']') } else { ('(', ')') };
-        bad(
-            field,
-            format!("{x} is outside the allowed range {a}{lo}, {hi}{b}"),
-        )
-    }
 }
 
 fn positive(field: &str, x: f64) -> R<f64> {
@@ -390,50 +371,35 @@ fn program(a: &AscentFile, v: &Vehicle, has_target: bool) -> R<Program> {
         .map(|(i, x)| arc(i, x, has_target))
         .collect::<R<Vec<_>>>()?;
     let liftoff = a.liftoff.as_ref().map(liftoff).transpose()?;
-    match &arcs[0] {
-        Arc::Coast(_) => return bad("ascent.arcs[0]", "the first arc must be a burn"),
-        Arc::Burn {
-            steering: Steering::GravityTurn,
-            ..
-        } if liftoff.is_none() => {
-            return bad(
-                "ascent.liftoff",
-                "missing: a gravity turn from the pad needs the liftoff manoeuvre",
-            )
+    fn law(x: &Arc) -> Option<&dyn SteeringLaw> {
+        match x {
+            Arc::Burn { steering, .. } => Some(steering.law()),
+            Arc::Coast(_) => None,
         }
-        _ => {}
     }
-    if liftoff.is_some()
-        && !matches!(
-            arcs[0],
-            Arc::Burn {
-                steering: Steering::GravityTurn,
-                ..
-            }
-        )
-    {
+    let Some(first) = law(&arcs[0]) else {
+        return bad("ascent.arcs[0]", "the first arc must be a burn");
+    };
+    if first.starts_with_liftoff() && liftoff.is_none() {
+        return bad(
+            "ascent.liftoff",
+            format!(
+                "missing: a {} from the pad needs the liftoff manoeuvre",
+                first.file_key().replace('_', " ")
+            ),
+        );
+    }
+    if liftoff.is_some() && !first.starts_with_liftoff() {
         return bad(
             "ascent.liftoff",
             "given, but the first arc is not a gravity turn: the liftoff manoeuvre would be ignored",
         );
     }
     for (i, a) in arcs.iter().enumerate() {
-        let continued = matches!(
-            a,
-            Arc::Burn {
-                steering: Steering::LinearTangentContinued,
-                ..
-            }
-        );
-        let has_law = arcs[..i].iter().any(|b| {
-            matches!(
-                b,
-                Arc::Burn {
-                    steering: Steering::LinearTangent(_),
-                    ..
-                }
-            )
-        });
+        let continued = law(a).is_some_and(|l| l.continues_previous());
+        let has_law = arcs[..i]
+            .iter()
+            .any(|b| law(b).is_some_and(|l| l.is_continuable()));
         if continued && !has_law {
             return bad(
                 &format!("ascent.arcs[{i}].burn.steering"),

@@ -9,7 +9,9 @@
 //! root-finding on the dense output) and the next segment restarts from the located state.
 //!
 //! Owns: the flight sequence and event bookkeeping. Does not own: the physics (`physics`,
-//! [`dynamics`]), the ΔV budget arithmetic (`crate::core::budget`), or any printing (`crate::report`).
+//! [`dynamics`]), the ΔV budget arithmetic (`crate::core::budget`), the steering laws
+//! (`crate::core::steering`: the driver starts each arc's law and updates it at guidance cycles),
+//! or any formatting (`crate::render`).
 
 pub mod dynamics;
 pub mod events;

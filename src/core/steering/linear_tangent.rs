@@ -10,10 +10,10 @@
 use nalgebra::Vector3;
 
 use super::{unit_or, ActiveLaw, ArcStart, Control, LawParam, SteeringLaw};
+use crate::core::error::in_range as range;
 use crate::core::error::ProblemError;
 use crate::core::physics::environment::Local;
 use crate::core::problem::file::LinearTangentFile;
-use crate::core::problem::validate::range;
 
 /// Linear tangent law parameters.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -112,6 +112,10 @@ impl SteeringLaw for LinearTangent {
 
     fn controls(&self) -> &'static [Control] {
         &[Control::InPlane, Control::Plane]
+    }
+
+    fn is_continuable(&self) -> bool {
+        true
     }
 
     fn get(&self, p: LawParam) -> Option<f64> {

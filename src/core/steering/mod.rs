@@ -257,6 +257,10 @@ pub trait SteeringLaw: std::fmt::Debug + Send + Sync {
     fn continues_previous(&self) -> bool {
         false
     }
+    /// A later arc may continue this law (its active law is [`ActiveLaw::continuable`]).
+    fn is_continuable(&self) -> bool {
+        false
+    }
     /// In-plane parameters the optimizer may tune, most influential first.
     fn shape_params(&self) -> &'static [LawParam] {
         &[]
@@ -276,6 +280,11 @@ pub trait SteeringLaw: std::fmt::Debug + Send + Sync {
     }
     /// Sets a tunable parameter (SI); a law without it ignores the call.
     fn set(&mut self, _p: LawParam, _v: f64) {}
+    /// The law's parameters can be tuned (a law shared by a program cannot: see
+    /// [`Steering::law_mut`]).
+    fn is_tunable(&self) -> bool {
+        !self.shape_params().is_empty() || !self.plane_params().is_empty()
+    }
 }
 
 /// A law in flight: the thrust direction at each instant, with any state it keeps.
@@ -299,8 +308,18 @@ pub trait ActiveLaw: std::fmt::Debug + Send + Sync {
     }
 }
 
-/// Steering law of a burn arc: the laws the problem file knows, and any law a program supplies.
+/// A law supplied by a program, shared between the copies of a problem (equal only to itself).
 #[derive(Debug, Clone)]
+pub struct SharedLaw(pub std::sync::Arc<dyn SteeringLaw>);
+
+impl PartialEq for SharedLaw {
+    fn eq(&self, other: &Self) -> bool {
+        std::sync::Arc::ptr_eq(&self.0, &other.0)
+    }
+}
+
+/// Steering law of a burn arc: the laws the problem file knows, and any law a program supplies.
+#[derive(Debug, Clone, PartialEq)]
 pub enum Steering {
     /// Thrust along the Earth-relative velocity (after the liftoff manoeuvre on the first arc).
     GravityTurn,
@@ -311,20 +330,8 @@ pub enum Steering {
     /// Tabulated pitch against time since liftoff, heading = launch azimuth.
     PitchTable(PitchTable),
     /// A law supplied by a program (not from the problem file): closed-loop guidance, tests.
-    Custom(std::sync::Arc<dyn SteeringLaw>),
-}
-
-impl PartialEq for Steering {
-    fn eq(&self, other: &Self) -> bool {
-        match (self, other) {
-            (Steering::GravityTurn, Steering::GravityTurn)
-            | (Steering::LinearTangentContinued, Steering::LinearTangentContinued) => true,
-            (Steering::LinearTangent(a), Steering::LinearTangent(b)) => a == b,
-            (Steering::PitchTable(a), Steering::PitchTable(b)) => a == b,
-            (Steering::Custom(a), Steering::Custom(b)) => std::sync::Arc::ptr_eq(a, b),
-            _ => false,
-        }
-    }
+    /// Shared, so the optimizer cannot tune it.
+    Custom(SharedLaw),
 }
 
 impl Steering {
@@ -335,8 +342,13 @@ impl Steering {
             Steering::LinearTangent(l) => l,
             Steering::LinearTangentContinued => &linear_tangent::Continued,
             Steering::PitchTable(t) => t,
-            Steering::Custom(l) => l.as_ref(),
+            Steering::Custom(l) => l.0.as_ref(),
         }
+    }
+
+    /// The optimizer can tune this arc's law: it has parameters and is not shared.
+    pub fn is_tunable(&self) -> bool {
+        !matches!(self, Steering::Custom(_)) && self.law().is_tunable()
     }
 
     /// The law, to tune (`None` for a shared program-supplied law).
@@ -364,8 +376,12 @@ impl Steering {
 
     /// Writes a tunable parameter, in the file's unit, into the law's file form.
     pub fn write_file(s: &mut SteeringFile, p: LawParam, u: f64) {
-        if let SteeringFile::LinearTangent(l) = s {
-            linear_tangent::write_file(l, p, u);
+        match s {
+            SteeringFile::LinearTangent(l) => linear_tangent::write_file(l, p, u),
+            // No tunable parameters in the file form.
+            SteeringFile::GravityTurn
+            | SteeringFile::LinearTangentContinued
+            | SteeringFile::PitchTable(_) => {}
         }
     }
 }

@@ -45,8 +45,8 @@ impl PitchTable {
         }
         for (i, p) in pts.iter().enumerate() {
             let fp = format!("{path}[{i}]");
-            crate::core::problem::validate::range(&fp, p[0], 0.0, 1e5, true)?;
-            crate::core::problem::validate::range(&fp, p[1], -90.0, 90.0, true)?;
+            crate::core::error::in_range(&fp, p[0], 0.0, 1e5, true)?;
+            crate::core::error::in_range(&fp, p[1], -90.0, 90.0, true)?;
             if i > 0 && p[0] <= pts[i - 1][0] {
                 return Err(ProblemError::invalid(
                     fp,
