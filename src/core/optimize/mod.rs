@@ -17,6 +17,7 @@
 
 pub mod inner;
 mod outer;
+pub mod sqp;
 pub mod targeting;
 
 use std::sync::atomic::{AtomicUsize, Ordering};

@@ -1,0 +1,618 @@
+//! A line-search SQP method for small, dense nonlinear programs whose functions are expensive
+//! (one trajectory per evaluation) and whose derivatives come from finite differences:
+//!
+//! ```text
+//! minimize f(x)  subject to  c_E(x) = 0,  c_I(x) ≤ 0,  l ≤ x ≤ u.
+//! ```
+//!
+//! Method: Nocedal & Wright, *Numerical Optimization*, 2nd ed. (2006), Algorithm 18.3 (line-search
+//! SQP): each iteration solves the quadratic model
+//! `min ½pᵀBp + ∇fᵀp` s.t. `c_E + J_E p = 0`, `c_I + J_I p ≤ 0`, bounds and a step box, in its
+//! elastic form (§18.3, "ℓ1 penalty"; slacks on the linearized constraints, so the subproblem is
+//! always feasible and an infeasible nonlinear program is detected rather than crashed into), with
+//! the interior-point QP solver Clarabel (Goulart & Chen, 2024). The step is accepted by backtracking
+//! on the ℓ1 merit function `f + μ(‖c_E‖₁ + ‖c_I⁺‖₁)` (§15.4, eq. 18.27–18.29) with
+//! `μ > ‖λ‖∞`. `B` is the damped BFGS approximation of the Lagrangian's Hessian (Powell's
+//! damping, §18.3, Procedure 18.2). Gradients and Jacobians are forward differences, every column
+//! evaluated in one batch (the problem may run a batch in parallel).
+//!
+//! Termination (scale-free, on scaled variables and functions): converged when the constraints are
+//! met within `tol_feas` and the step and the Lagrangian's gradient at the QP multipliers are
+//! below `tol_opt` (the first-order KKT conditions to that tolerance); `Infeasible` when the
+//! elastic subproblem keeps a nonzero linearized violation at a point where the violation cannot
+//! be reduced further (a stationary point of the violation).
+
+use clarabel::algebra::CscMatrix;
+use clarabel::solver::{
+    DefaultSettings, DefaultSolver, IPSolver, SolverStatus,
+    SupportedConeT::{NonnegativeConeT, ZeroConeT},
+};
+use nalgebra::{DMatrix, DVector};
+
+/// The values of the program at one point.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Values {
+    /// Objective.
+    pub f: f64,
+    /// Equality constraints (met at 0).
+    pub eq: Vec<f64>,
+    /// Inequality constraints (met when ≤ 0).
+    pub ineq: Vec<f64>,
+}
+
+impl Values {
+    /// ℓ1 violation `‖c_E‖₁ + ‖c_I⁺‖₁` (infinite for a non-finite value).
+    pub fn violation(&self) -> f64 {
+        let v = self.eq.iter().map(|c| c.abs()).sum::<f64>()
+            + self.ineq.iter().map(|c| c.max(0.0)).sum::<f64>();
+        if v.is_finite() && self.f.is_finite() {
+            v
+        } else {
+            f64::INFINITY
+        }
+    }
+
+    /// Largest violation of any constraint.
+    pub fn max_violation(&self) -> f64 {
+        let m = self
+            .eq
+            .iter()
+            .map(|c| c.abs())
+            .chain(self.ineq.iter().map(|c| c.max(0.0)))
+            .fold(0.0, f64::max);
+        if m.is_finite() {
+            m
+        } else {
+            f64::INFINITY
+        }
+    }
+}
+
+/// A nonlinear program in scaled variables.
+pub trait Program: Sync {
+    /// Number of variables.
+    fn dim(&self) -> usize;
+    /// Lower and upper bounds.
+    fn bounds(&self) -> (Vec<f64>, Vec<f64>);
+    /// The values at each point, in order (an implementation may evaluate them in parallel).
+    fn evaluate(&self, xs: &[Vec<f64>]) -> Vec<Values>;
+}
+
+/// Settings of the method.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Settings {
+    /// Iteration limit (default 60).
+    pub max_iterations: usize,
+    /// Evaluation limit, counting every point evaluated (default 400).
+    pub max_evaluations: usize,
+    /// Constraint tolerance (default 1e-6).
+    pub tol_feas: f64,
+    /// Stationarity and step tolerance (default 1e-6).
+    pub tol_opt: f64,
+    /// Forward-difference step (default 1e-4).
+    pub fd_step: f64,
+    /// Largest step per iteration in each variable (default 1).
+    pub max_step: f64,
+}
+
+impl Default for Settings {
+    fn default() -> Self {
+        Settings {
+            max_iterations: 60,
+            max_evaluations: 400,
+            tol_feas: 1e-6,
+            tol_opt: 1e-6,
+            fd_step: 1e-4,
+            max_step: 1.0,
+        }
+    }
+}
+
+/// How the method ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Status {
+    /// First-order optimality and feasibility within the tolerances.
+    Converged,
+    /// The constraints cannot be met from here: the linearized violation cannot be reduced.
+    Infeasible,
+    /// The line search found no acceptable step (noise in the functions is the usual cause).
+    Stalled,
+    /// The iteration limit ended the run.
+    IterationLimit,
+    /// The evaluation limit ended the run.
+    EvaluationLimit,
+}
+
+/// The result.
+#[derive(Debug, Clone)]
+pub struct Outcome {
+    /// The best point found (the last accepted iterate).
+    pub x: Vec<f64>,
+    /// Its values.
+    pub values: Values,
+    /// Multipliers of the equality constraints (Lagrangian `f + λᵀc`).
+    pub lambda_eq: Vec<f64>,
+    /// Multipliers of the inequality constraints (≥ 0).
+    pub lambda_ineq: Vec<f64>,
+    /// Variables at a bound at the end: (index, true for the upper bound).
+    pub at_bounds: Vec<(usize, bool)>,
+    /// How it ended.
+    pub status: Status,
+    /// Iterations.
+    pub iterations: usize,
+    /// Points evaluated.
+    pub evaluations: usize,
+    /// Stationarity measure at the end (`‖Bp‖∞` and `‖p‖∞`, the larger).
+    pub stationarity: f64,
+}
+
+/// Solves `prog` from `x0` (clamped into the bounds).
+pub fn solve(prog: &dyn Program, x0: &[f64], s: &Settings) -> Outcome {
+    Sqp::new(prog, x0, s).run()
+}
+
+/// The state of one run.
+struct Sqp<'a> {
+    prog: &'a dyn Program,
+    s: Settings,
+    lo: Vec<f64>,
+    hi: Vec<f64>,
+    x: Vec<f64>,
+    v: Values,
+    b: DMatrix<f64>,
+    mu: f64,
+    evals: usize,
+    lam_eq: Vec<f64>,
+    lam_in: Vec<f64>,
+}
+
+/// A derivative snapshot at the current point: objective gradient and constraint Jacobians.
+struct Derivs {
+    g: DVector<f64>,
+    je: DMatrix<f64>,
+    ji: DMatrix<f64>,
+}
+
+/// The quadratic subproblem's answer.
+struct Step {
+    p: DVector<f64>,
+    lam_eq: Vec<f64>,
+    lam_in: Vec<f64>,
+    /// ℓ1 violation of the linearized constraints after the step.
+    lin_violation: f64,
+}
+
+impl<'a> Sqp<'a> {
+    fn new(prog: &'a dyn Program, x0: &[f64], s: &Settings) -> Self {
+        let (lo, hi) = prog.bounds();
+        let x: Vec<f64> = x0
+            .iter()
+            .zip(lo.iter().zip(&hi))
+            .map(|(x, (l, h))| x.clamp(*l, *h))
+            .collect();
+        let n = x.len();
+        let mut me = Sqp {
+            prog,
+            s: *s,
+            lo,
+            hi,
+            v: Values {
+                f: f64::NAN,
+                eq: Vec::new(),
+                ineq: Vec::new(),
+            },
+            x,
+            b: DMatrix::identity(n, n),
+            mu: 1.0,
+            evals: 0,
+            lam_eq: Vec::new(),
+            lam_in: Vec::new(),
+        };
+        let x0 = me.x.clone();
+        me.v = me.eval(&[x0]).remove(0);
+        me
+    }
+
+    fn eval(&mut self, xs: &[Vec<f64>]) -> Vec<Values> {
+        self.evals += xs.len();
+        self.prog.evaluate(xs)
+    }
+
+    fn run(mut self) -> Outcome {
+        let mut derivs = self.derivatives();
+        let mut status = Status::IterationLimit;
+        let mut stationarity = f64::INFINITY;
+        let mut iterations = 0;
+        for k in 0..self.s.max_iterations {
+            iterations = k + 1;
+            let Some(step) = self.subproblem(&derivs) else {
+                status = Status::Stalled;
+                break;
+            };
+            self.lam_eq.clone_from(&step.lam_eq);
+            self.lam_in.clone_from(&step.lam_in);
+            stationarity = (&self.b * &step.p).amax().max(step.p.amax());
+            let feasible = self.v.max_violation() <= self.s.tol_feas;
+            if feasible && stationarity <= self.s.tol_opt {
+                status = Status::Converged;
+                break;
+            }
+            // The linearized violation cannot be reduced and is not zero: the nonlinear
+            // constraints are (locally) out of reach.
+            if step.lin_violation > self.s.tol_feas && step.p.amax() <= self.s.tol_opt && !feasible
+            {
+                status = Status::Infeasible;
+                break;
+            }
+            if self.evals + 1 > self.s.max_evaluations {
+                status = Status::EvaluationLimit;
+                break;
+            }
+            let x_old = self.x.clone();
+            if !self.line_search(&derivs, &step) {
+                status = if self.evals >= self.s.max_evaluations {
+                    Status::EvaluationLimit
+                } else if step.lin_violation > self.s.tol_feas && !feasible {
+                    Status::Infeasible
+                } else {
+                    Status::Stalled
+                };
+                break;
+            }
+            if self.evals + self.x.len() > self.s.max_evaluations {
+                status = Status::EvaluationLimit;
+                break;
+            }
+            let next = self.derivatives();
+            self.update_hessian(&x_old, &derivs, &next);
+            derivs = next;
+        }
+        let at_bounds = self
+            .x
+            .iter()
+            .enumerate()
+            .filter_map(|(i, x)| {
+                let tol = self.s.tol_opt * (1.0 + x.abs());
+                if (x - self.hi[i]).abs() <= tol {
+                    Some((i, true))
+                } else if (x - self.lo[i]).abs() <= tol {
+                    Some((i, false))
+                } else {
+                    None
+                }
+            })
+            .collect();
+        Outcome {
+            x: self.x,
+            values: self.v,
+            lambda_eq: self.lam_eq,
+            lambda_ineq: self.lam_in,
+            at_bounds,
+            status,
+            iterations,
+            evaluations: self.evals,
+            stationarity,
+        }
+    }
+
+    /// Forward differences of every function, all columns in one batch. A column whose forward
+    /// point is out of bounds or not finite is taken backwards.
+    fn derivatives(&mut self) -> Derivs {
+        let n = self.x.len();
+        let h = self.s.fd_step;
+        let points: Vec<Vec<f64>> = (0..n)
+            .map(|j| {
+                let mut y = self.x.clone();
+                y[j] += if y[j] + h <= self.hi[j] { h } else { -h };
+                y
+            })
+            .collect();
+        let vals = self.eval(&points);
+        let (me, mi) = (self.v.eq.len(), self.v.ineq.len());
+        let mut d = Derivs {
+            g: DVector::zeros(n),
+            je: DMatrix::zeros(me, n),
+            ji: DMatrix::zeros(mi, n),
+        };
+        for (j, (pt, val)) in points.iter().zip(&vals).enumerate() {
+            let dx = pt[j] - self.x[j];
+            let ok = val.violation().is_finite() && val.eq.len() == me && val.ineq.len() == mi;
+            if !ok || dx == 0.0 {
+                continue;
+            }
+            d.g[j] = (val.f - self.v.f) / dx;
+            for i in 0..me {
+                d.je[(i, j)] = (val.eq[i] - self.v.eq[i]) / dx;
+            }
+            for i in 0..mi {
+                d.ji[(i, j)] = (val.ineq[i] - self.v.ineq[i]) / dx;
+            }
+        }
+        d
+    }
+
+    /// The elastic quadratic subproblem (variables `p`, then slacks `v`, `w` on the equalities and
+    /// `t` on the inequalities, each ≥ 0 and penalized by `ρ`).
+    fn subproblem(&self, d: &Derivs) -> Option<Step> {
+        let n = self.x.len();
+        let (me, mi) = (self.v.eq.len(), self.v.ineq.len());
+        let nz = n + 2 * me + mi;
+        let rho = 100.0 * (1.0 + self.mu + d.g.amax());
+        // P: the BFGS matrix on p (upper triangle), zero on the slacks.
+        let mut p_dense = vec![vec![0.0; nz]; nz];
+        for i in 0..n {
+            for j in i..n {
+                p_dense[i][j] = self.b[(i, j)];
+            }
+        }
+        let mut q = vec![0.0; nz];
+        for j in 0..n {
+            q[j] = d.g[j];
+        }
+        for qj in q.iter_mut().skip(n) {
+            *qj = rho;
+        }
+        let mut rows: Vec<Vec<f64>> = Vec::new();
+        let mut rhs: Vec<f64> = Vec::new();
+        // Equalities: J_E p − v + w = −c_E.
+        for i in 0..me {
+            let mut r = vec![0.0; nz];
+            for j in 0..n {
+                r[j] = d.je[(i, j)];
+            }
+            r[n + i] = -1.0;
+            r[n + me + i] = 1.0;
+            rows.push(r);
+            rhs.push(-self.v.eq[i]);
+        }
+        // Inequalities (Az ≤ b): J_I p − t ≤ −c_I, step box and bounds, slacks ≥ 0.
+        for i in 0..mi {
+            let mut r = vec![0.0; nz];
+            for j in 0..n {
+                r[j] = d.ji[(i, j)];
+            }
+            r[n + 2 * me + i] = -1.0;
+            rows.push(r);
+            rhs.push(-self.v.ineq[i]);
+        }
+        for j in 0..n {
+            let mut up = vec![0.0; nz];
+            up[j] = 1.0;
+            rows.push(up);
+            rhs.push((self.hi[j] - self.x[j]).min(self.s.max_step).max(0.0));
+            let mut down = vec![0.0; nz];
+            down[j] = -1.0;
+            rows.push(down);
+            rhs.push((self.x[j] - self.lo[j]).min(self.s.max_step).max(0.0));
+        }
+        for k in n..nz {
+            let mut r = vec![0.0; nz];
+            r[k] = -1.0;
+            rows.push(r);
+            rhs.push(0.0);
+        }
+        let pm = CscMatrix::from(&p_dense);
+        let am = CscMatrix::from(&rows);
+        let cones = [ZeroConeT(me), NonnegativeConeT(rows.len() - me)];
+        let mut settings = DefaultSettings::<f64>::default();
+        settings.verbose = false;
+        settings.max_iter = 100;
+        let mut solver = DefaultSolver::new(&pm, &q, &am, &rhs, &cones, settings).ok()?;
+        solver.solve();
+        let sol = &solver.solution;
+        if !matches!(
+            sol.status,
+            SolverStatus::Solved | SolverStatus::AlmostSolved
+        ) {
+            return None;
+        }
+        let z = &sol.x;
+        let p = DVector::from_iterator(n, z[..n].iter().copied());
+        let lin_violation = z[n..].iter().map(|s| s.max(0.0)).sum();
+        Some(Step {
+            p,
+            lam_eq: sol.z[..me].to_vec(),
+            lam_in: sol.z[me..me + mi].to_vec(),
+            lin_violation,
+        })
+    }
+
+    /// ℓ1 merit at values `v` with penalty `mu`.
+    fn merit(v: &Values, mu: f64) -> f64 {
+        let viol = v.violation();
+        if viol.is_finite() {
+            v.f + mu * viol
+        } else {
+            f64::INFINITY
+        }
+    }
+
+    /// Backtracking on the ℓ1 merit function; true when a step was accepted.
+    fn line_search(&mut self, d: &Derivs, step: &Step) -> bool {
+        let lam_max = step
+            .lam_eq
+            .iter()
+            .chain(&step.lam_in)
+            .fold(0.0_f64, |m, l| m.max(l.abs()));
+        if self.mu < 1.1 * lam_max {
+            self.mu = 1.5 * lam_max;
+        }
+        let phi0 = Self::merit(&self.v, self.mu);
+        // Directional derivative of the merit along p (N&W eq. 18.29, with the elastic slacks'
+        // remaining violation).
+        let slope = d.g.dot(&step.p) - self.mu * (self.v.violation() - step.lin_violation);
+        let mut alpha = 1.0;
+        while alpha >= 1.0 / 256.0 {
+            if self.evals >= self.s.max_evaluations {
+                return false;
+            }
+            let trial: Vec<f64> = self
+                .x
+                .iter()
+                .zip(step.p.iter())
+                .enumerate()
+                .map(|(j, (x, p))| (x + alpha * p).clamp(self.lo[j], self.hi[j]))
+                .collect();
+            let v = self.eval(std::slice::from_ref(&trial)).remove(0);
+            let phi = Self::merit(&v, self.mu);
+            if phi <= phi0 + 1e-4 * alpha * slope.min(0.0) {
+                self.x = trial;
+                self.v = v;
+                return true;
+            }
+            alpha *= 0.5;
+        }
+        false
+    }
+
+    /// Damped BFGS update of the Lagrangian's Hessian approximation (N&W Procedure 18.2).
+    fn update_hessian(&mut self, x_old: &[f64], old: &Derivs, new: &Derivs) {
+        let n = self.x.len();
+        let s = DVector::from_iterator(n, self.x.iter().zip(x_old).map(|(a, b)| a - b));
+        let le = DVector::from_column_slice(&self.lam_eq);
+        let li = DVector::from_column_slice(&self.lam_in);
+        let grad_l = |d: &Derivs| &d.g + d.je.transpose() * &le + d.ji.transpose() * &li;
+        let y = grad_l(new) - grad_l(old);
+        let bs = &self.b * &s;
+        let sbs = s.dot(&bs);
+        if !(sbs > 1e-16) || !y.iter().all(|v| v.is_finite()) {
+            return;
+        }
+        let sy = s.dot(&y);
+        let theta = if sy >= 0.2 * sbs {
+            1.0
+        } else {
+            0.8 * sbs / (sbs - sy)
+        };
+        let r = &y * theta + &bs * (1.0 - theta);
+        let sr = s.dot(&r);
+        if sr <= 1e-16 {
+            return;
+        }
+        self.b += &r * r.transpose() / sr - &bs * bs.transpose() / sbs;
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A program from closures, evaluated one point at a time.
+    struct Closure<F: Fn(&[f64]) -> Values + Sync> {
+        lo: Vec<f64>,
+        hi: Vec<f64>,
+        f: F,
+    }
+
+    impl<F: Fn(&[f64]) -> Values + Sync> Program for Closure<F> {
+        fn dim(&self) -> usize {
+            self.lo.len()
+        }
+        fn bounds(&self) -> (Vec<f64>, Vec<f64>) {
+            (self.lo.clone(), self.hi.clone())
+        }
+        fn evaluate(&self, xs: &[Vec<f64>]) -> Vec<Values> {
+            xs.iter().map(|x| (self.f)(x)).collect()
+        }
+    }
+
+    fn settings() -> Settings {
+        Settings {
+            fd_step: 1e-7,
+            max_evaluations: 2000,
+            max_iterations: 200,
+            ..Settings::default()
+        }
+    }
+
+    #[test]
+    fn hock_schittkowski_71() {
+        // Source: Hock & Schittkowski, Test Examples for Nonlinear Programming Codes (1981),
+        // problem 71: f* = 17.0140173 at x* = (1, 4.7429994, 3.8211503, 1.3794082).
+        let prog = Closure {
+            lo: vec![1.0; 4],
+            hi: vec![5.0; 4],
+            f: |x: &[f64]| Values {
+                f: x[0] * x[3] * (x[0] + x[1] + x[2]) + x[2],
+                eq: vec![x.iter().map(|v| v * v).sum::<f64>() - 40.0],
+                ineq: vec![25.0 - x[0] * x[1] * x[2] * x[3]],
+            },
+        };
+        let out = solve(&prog, &[1.0, 5.0, 5.0, 1.0], &settings());
+        assert_eq!(out.status, Status::Converged, "{out:?}");
+        assert!(
+            (out.values.f - 17.014_017_3).abs() < 1e-4,
+            "{}",
+            out.values.f
+        );
+        for (got, want) in out
+            .x
+            .iter()
+            .zip([1.0, 4.742_999_4, 3.821_150_3, 1.379_408_2])
+        {
+            assert!((got - want).abs() < 1e-3, "{:?}", out.x);
+        }
+        // x1 sits on its lower bound at the optimum.
+        assert!(out.at_bounds.contains(&(0, false)));
+        assert!(out.lambda_ineq[0] > 0.0, "the product constraint is active");
+    }
+
+    #[test]
+    fn hock_schittkowski_6_equality_only() {
+        // Source: Hock & Schittkowski (1981), problem 6: min (1 − x1)² s.t. 10(x2 − x1²) = 0,
+        // from (−1.2, 1): f* = 0 at (1, 1).
+        let prog = Closure {
+            lo: vec![-10.0; 2],
+            hi: vec![10.0; 2],
+            f: |x: &[f64]| Values {
+                f: (1.0 - x[0]).powi(2),
+                eq: vec![10.0 * (x[1] - x[0] * x[0])],
+                ineq: vec![],
+            },
+        };
+        let out = solve(&prog, &[-1.2, 1.0], &settings());
+        assert_eq!(out.status, Status::Converged, "{out:?}");
+        assert!((out.x[0] - 1.0).abs() < 1e-3 && (out.x[1] - 1.0).abs() < 1e-3);
+    }
+
+    #[test]
+    fn inconsistent_constraints_are_reported_infeasible() {
+        // x ≥ 2 and x ≤ 1 cannot both hold.
+        let prog = Closure {
+            lo: vec![-10.0],
+            hi: vec![10.0],
+            f: |x: &[f64]| Values {
+                f: x[0] * x[0],
+                eq: vec![],
+                ineq: vec![2.0 - x[0], x[0] - 1.0],
+            },
+        };
+        let out = solve(&prog, &[0.0], &settings());
+        assert_eq!(out.status, Status::Infeasible, "{out:?}");
+        assert!(out.values.max_violation() > 0.4);
+    }
+
+    #[test]
+    fn the_evaluation_budget_is_never_exceeded() {
+        let prog = Closure {
+            lo: vec![-10.0; 2],
+            hi: vec![10.0; 2],
+            f: |x: &[f64]| Values {
+                f: 100.0 * (x[1] - x[0] * x[0]).powi(2) + (1.0 - x[0]).powi(2),
+                eq: vec![],
+                ineq: vec![],
+            },
+        };
+        let s = Settings {
+            max_evaluations: 25,
+            ..settings()
+        };
+        let out = solve(&prog, &[-1.2, 1.0], &s);
+        assert!(out.evaluations <= 25, "{}", out.evaluations);
+        assert_eq!(out.status, Status::EvaluationLimit);
+        // Unlimited, it reaches the Rosenbrock minimum (1, 1).
+        let out = solve(&prog, &[-1.2, 1.0], &settings());
+        assert_eq!(out.status, Status::Converged, "{out:?}");
+        assert!((out.x[0] - 1.0).abs() < 1e-3);
+    }
+}
