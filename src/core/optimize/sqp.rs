@@ -340,63 +340,58 @@ impl<'a> Sqp<'a> {
         let rho = 100.0 * (1.0 + self.mu + d.g.amax());
         // P: the BFGS matrix on p (upper triangle), zero on the slacks.
         let mut p_dense = vec![vec![0.0; nz]; nz];
-        for i in 0..n {
-            for j in i..n {
-                p_dense[i][j] = self.b[(i, j)];
+        for (i, row) in p_dense.iter_mut().enumerate().take(n) {
+            for (j, e) in row.iter_mut().enumerate().take(n).skip(i) {
+                *e = self.b[(i, j)];
             }
         }
-        let mut q = vec![0.0; nz];
-        for j in 0..n {
-            q[j] = d.g[j];
-        }
-        for qj in q.iter_mut().skip(n) {
-            *qj = rho;
-        }
+        let q: Vec<f64> = (0..nz).map(|j| if j < n { d.g[j] } else { rho }).collect();
+        // A row: the Jacobian row `jac` on p, `slack` at column `k`.
+        let row = |jac: Option<(&DMatrix<f64>, usize)>, k: Option<(usize, f64)>| {
+            let mut r = vec![0.0; nz];
+            if let Some((m, i)) = jac {
+                for (j, e) in r.iter_mut().enumerate().take(n) {
+                    *e = m[(i, j)];
+                }
+            }
+            if let Some((k, v)) = k {
+                r[k] = v;
+            }
+            r
+        };
         let mut rows: Vec<Vec<f64>> = Vec::new();
         let mut rhs: Vec<f64> = Vec::new();
         // Equalities: J_E p − v + w = −c_E.
         for i in 0..me {
-            let mut r = vec![0.0; nz];
-            for j in 0..n {
-                r[j] = d.je[(i, j)];
-            }
-            r[n + i] = -1.0;
+            let mut r = row(Some((&d.je, i)), Some((n + i, -1.0)));
             r[n + me + i] = 1.0;
             rows.push(r);
             rhs.push(-self.v.eq[i]);
         }
         // Inequalities (Az ≤ b): J_I p − t ≤ −c_I, step box and bounds, slacks ≥ 0.
         for i in 0..mi {
-            let mut r = vec![0.0; nz];
-            for j in 0..n {
-                r[j] = d.ji[(i, j)];
-            }
-            r[n + 2 * me + i] = -1.0;
-            rows.push(r);
+            rows.push(row(Some((&d.ji, i)), Some((n + 2 * me + i, -1.0))));
             rhs.push(-self.v.ineq[i]);
         }
         for j in 0..n {
-            let mut up = vec![0.0; nz];
-            up[j] = 1.0;
-            rows.push(up);
+            rows.push(row(None, Some((j, 1.0))));
             rhs.push((self.hi[j] - self.x[j]).min(self.s.max_step).max(0.0));
-            let mut down = vec![0.0; nz];
-            down[j] = -1.0;
-            rows.push(down);
+            rows.push(row(None, Some((j, -1.0))));
             rhs.push((self.x[j] - self.lo[j]).min(self.s.max_step).max(0.0));
         }
         for k in n..nz {
-            let mut r = vec![0.0; nz];
-            r[k] = -1.0;
-            rows.push(r);
+            rows.push(row(None, Some((k, -1.0))));
             rhs.push(0.0);
         }
         let pm = CscMatrix::from(&p_dense);
         let am = CscMatrix::from(&rows);
         let cones = [ZeroConeT(me), NonnegativeConeT(rows.len() - me)];
-        let mut settings = DefaultSettings::<f64>::default();
-        settings.verbose = false;
-        settings.max_iter = 100;
+        // Quiet: the library never prints.
+        let settings = DefaultSettings::<f64> {
+            verbose: false,
+            max_iter: 100,
+            ..DefaultSettings::default()
+        };
         let mut solver = DefaultSolver::new(&pm, &q, &am, &rhs, &cones, settings).ok()?;
         solver.solve();
         let sol = &solver.solution;
@@ -475,7 +470,7 @@ impl<'a> Sqp<'a> {
         let y = grad_l(new) - grad_l(old);
         let bs = &self.b * &s;
         let sbs = s.dot(&bs);
-        if !(sbs > 1e-16) || !y.iter().all(|v| v.is_finite()) {
+        if sbs.is_nan() || sbs <= 1e-16 || !y.iter().all(|v| v.is_finite()) {
             return;
         }
         let sy = s.dot(&y);
