@@ -179,7 +179,6 @@ fn mutated_problems_solve_within_their_budget() {
         }
         if let Ok(p) = Problem::from_json(&d.to_string()) {
             let opts = kickturn::optimize::SolveOptions {
-                max_wall_s: 3.0,
                 max_trajectories: 300,
                 scan: false,
                 ..kickturn::optimize::SolveOptions::default()

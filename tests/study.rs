@@ -121,7 +121,7 @@ fn a_sweep_into_infeasible_payloads_keeps_every_point_with_its_status() {
     let f = file("medium-2stage-leo200.json");
     let values = [8000.0, 30000.0];
     let opts = SolveOptions {
-        max_wall_s: 20.0,
+        max_trajectories: 3000,
         ..SolveOptions::default()
     };
     let pts = study::sweep(&f, Axis::Payload, &values, &opts, &Silent);

@@ -248,10 +248,10 @@ impl SolveSettings {
     pub fn check(&self) -> Result<(), Error> {
         check_step("record_step_s", self.record_step_s)?;
         let o = &self.solver;
-        if !(o.max_wall_s.is_finite() && o.max_wall_s > 0.0) {
+        if let Some(w) = o.max_wall_s.filter(|w| !(w.is_finite() && *w > 0.0)) {
             return Err(Error::Option {
                 option: "max_wall_s",
-                reason: format!("must be a finite number > 0, got {}", o.max_wall_s),
+                reason: format!("must be a finite number > 0, got {w}"),
             });
         }
         let unknown = |option, given: &[String], known: &[&str]| {

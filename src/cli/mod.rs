@@ -59,19 +59,17 @@ pub struct StudyArgs {
     /// payload).
     #[arg(long)]
     pub max_payload: bool,
-    /// Wall-time budget per solve, s.
-    #[arg(long, default_value_t = 60.0, value_name = "S")]
-    pub max_wall_s: f64,
+    /// Optional wall-time cap per solve, s (the trajectory budget ends a solve by default, so
+    /// that results do not depend on the machine).
+    #[arg(long, value_name = "S")]
+    pub max_wall_s: Option<f64>,
 }
 
 impl StudyArgs {
     /// Solve options of every point.
     pub fn options(&self) -> anyhow::Result<kickturn::optimize::SolveOptions> {
-        if !(self.max_wall_s.is_finite() && self.max_wall_s > 0.0) {
-            bail!(
-                "--max-wall-s: must be a finite number > 0, got {}",
-                self.max_wall_s
-            );
+        if let Some(w) = self.max_wall_s.filter(|w| !(w.is_finite() && *w > 0.0)) {
+            bail!("--max-wall-s: must be a finite number > 0, got {w}");
         }
         Ok(kickturn::optimize::SolveOptions {
             max_wall_s: self.max_wall_s,
@@ -143,9 +141,10 @@ pub struct SolveArgs {
     /// Write the problem with the tuned program to this file (atomic; never over the input).
     #[arg(long, value_name = "OUT.json")]
     pub write_program: Option<PathBuf>,
-    /// Wall-time budget, s.
-    #[arg(long, default_value_t = 60.0, value_name = "S")]
-    pub max_wall_s: f64,
+    /// Optional wall-time cap, s (the trajectory budget ends a solve by default, so that results
+    /// do not depend on the machine).
+    #[arg(long, value_name = "S")]
+    pub max_wall_s: Option<f64>,
     /// Trajectory budget.
     #[arg(long, default_value_t = 50_000, value_name = "N")]
     pub max_trajectories: usize,

@@ -16,6 +16,7 @@
 //! that meets the target, so the objective compares like with like.
 
 pub mod inner;
+pub mod nlp;
 mod outer;
 pub mod sqp;
 pub mod targeting;
@@ -37,8 +38,9 @@ pub const PENALTY_KG: f64 = 1e5;
 /// Settings of one solve.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SolveOptions {
-    /// Wall-time budget, s (default 60).
-    pub max_wall_s: f64,
+    /// Optional wall-time cap, s (default none: the trajectory budget ends a solve, so that the
+    /// same input gives the same answer on any machine).
+    pub max_wall_s: Option<f64>,
     /// Trajectory budget (default 50 000).
     pub max_trajectories: usize,
     /// Variable groups to free in addition to the defaults (`pitch_rate`, `rise_time`;
@@ -62,7 +64,7 @@ pub struct SolveOptions {
 impl Default for SolveOptions {
     fn default() -> Self {
         Self {
-            max_wall_s: 60.0,
+            max_wall_s: None,
             max_trajectories: 50_000,
             free: Vec::new(),
             fix: Vec::new(),
@@ -177,7 +179,8 @@ pub struct Ctx<'a> {
     max_payload: bool,
     flights: AtomicUsize,
     start: Instant,
-    deadline: Duration,
+    /// Optional wall-time cap of the pass.
+    deadline: Option<Duration>,
     max_flights: usize,
     obs: &'a dyn Observer,
 }
@@ -223,10 +226,20 @@ impl Ctx<'_> {
         )
     }
 
-    /// True once the wall-time or trajectory budget is spent.
+    /// True once the trajectory budget (or the optional wall-time cap) is spent.
     pub fn out_of_budget(&self) -> bool {
-        self.flights.load(Ordering::Relaxed) >= self.max_flights
-            || self.start.elapsed() >= self.deadline
+        self.flights.load(Ordering::Relaxed) >= self.max_flights || self.past_deadline()
+    }
+
+    /// True once the optional wall-time cap has passed.
+    pub fn past_deadline(&self) -> bool {
+        self.deadline.is_some_and(|d| self.start.elapsed() >= d)
+    }
+
+    /// Trajectories left in the budget.
+    pub fn flights_left(&self) -> usize {
+        self.max_flights
+            .saturating_sub(self.flights.load(Ordering::Relaxed))
     }
 
     fn normalized(&self, vars: &[Param], p: &Problem) -> Vec<f64> {
@@ -699,26 +712,74 @@ struct PassSpec<'a> {
 
 /// One pass of a solve: a guess and a search on one [`PassSpec`].
 fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
-    let left = (o.max_wall_s - run.t0.elapsed().as_secs_f64()).max(0.0);
+    // A cap too large for a `Duration` is no cap.
+    let deadline = o.max_wall_s.and_then(|w| {
+        Duration::try_from_secs_f64((w - run.t0.elapsed().as_secs_f64()).max(0.0)).ok()
+    });
     let ctx = Ctx {
         polish: o.polish,
         spec,
         max_payload: o.objective == Objective::MaxPayload,
         flights: AtomicUsize::new(0),
         start: Instant::now(),
-        deadline: Duration::from_secs_f64(left),
+        deadline,
         max_flights: o.max_trajectories,
         obs: run.obs,
     };
-    let start = outer::initial_guess(&ctx, o);
+    let starts = outer::starts(&ctx, o);
+    let scanned = ctx.flights.load(Ordering::Relaxed);
+    ctx.obs
+        .diagnostic(&|| format!("{} starts, {scanned} trajectories", starts.len()));
+    let prog = nlp::Ascent::new(&ctx);
+    let found = nlp::search(&prog, starts, o);
     ctx.obs.diagnostic(&|| {
         format!(
-            "scan used {} trajectories",
-            ctx.flights.load(Ordering::Relaxed)
+            "search: {:?} after {} iterations, {} evaluations",
+            found.outcome.status, found.outcome.iterations, found.outcome.evaluations
         )
     });
-    let best = outer::search_all(&ctx, start);
-    finish(&ctx, best)
+    finish_found(&ctx, found)
+}
+
+/// The solution of a pass from the search's result.
+fn finish_found(ctx: &Ctx, found: nlp::Found) -> Solution {
+    let k = ctx.spec.inner.len();
+    let best = outer::Candidate {
+        outer: found.x[k..].to_vec(),
+        inner: found.x[..k].to_vec(),
+        eval: found.eval,
+        iterations: found.outcome.iterations,
+        budget_hit: matches!(found.outcome.status, sqp::Status::EvaluationLimit)
+            || ctx.out_of_budget(),
+        reason: describe(&found.outcome, found.starts_tried),
+        at_iteration_limit: matches!(found.outcome.status, sqp::Status::IterationLimit),
+        kick_bracket: None,
+    };
+    let mut sol = finish(ctx, best);
+    if found.outcome.status == sqp::Status::Stalled
+        && sol.convergence.status == SolveStatus::Converged
+    {
+        sol.convergence.status = SolveStatus::IterationLimit;
+    }
+    sol
+}
+
+/// How the search ended, in words.
+fn describe(o: &sqp::Outcome, starts: usize) -> String {
+    let how = match o.status {
+        sqp::Status::Converged => "optimality and feasibility conditions met",
+        sqp::Status::Infeasible => "the terminal conditions cannot be met from the best start",
+        sqp::Status::Stalled => "no further improving step found",
+        sqp::Status::IterationLimit => "iteration limit",
+        sqp::Status::EvaluationLimit => "trajectory budget spent",
+    };
+    format!(
+        "SQP: {how} after {} iterations and {} trajectories (stationarity {:.1e}; {starts} start{})",
+        o.iterations,
+        o.evaluations,
+        o.stationarity,
+        if starts == 1 { "" } else { "s" }
+    )
 }
 
 fn finish(ctx: &Ctx, best: outer::Candidate) -> Solution {

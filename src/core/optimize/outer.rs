@@ -126,6 +126,76 @@ fn heading_guess(ctx: &Ctx, p: &Problem, arc: usize) -> f64 {
     }
 }
 
+/// The starting points of the search: the program as written (missing headings guessed), then,
+/// with the scan, the automatic program at every kick of the grid — one trajectory each, flown in
+/// parallel.
+pub fn starts(ctx: &Ctx, o: &SolveOptions) -> Vec<super::nlp::Start> {
+    let vars: Vec<Param> = ctx.spec.inner.iter().chain(&ctx.spec.outer).copied().collect();
+    let mut written = ctx.spec.base.clone();
+    guess_headings(ctx, &mut written, &vars, false);
+    let mut points = vec![ctx.normalized(&vars, &written)];
+    if o.scan {
+        let mut p = ctx.spec.base.clone();
+        auto_laws(ctx, &mut p);
+        let mut jitter = o.perturb_seed.map(SplitMix64::new);
+        if let Some(j) = jitter.as_mut() {
+            for a in p.program.arcs.iter_mut() {
+                if let Arc::Burn {
+                    steering: Steering::LinearTangent(lt),
+                    ..
+                } = a
+                {
+                    lt.pitch0_rad *= j.factor(0.3);
+                    lt.tan_rate_per_s *= j.factor(0.3);
+                }
+            }
+        }
+        guess_headings(ctx, &mut p, &vars, true);
+        let auto = ctx.normalized(&vars, &p);
+        let shift = jitter.as_mut().map_or(1.0, |j| j.factor(0.3));
+        match vars.iter().position(|v| *v == Param::Kick) {
+            Some(k) => points.extend(KICK_GRID_DEG.iter().map(|deg| {
+                let mut x = auto.clone();
+                x[k] = shift * deg.to_radians() / Param::Kick.scale();
+                x
+            })),
+            None => points.push(auto),
+        }
+    }
+    let (lo, hi) = super::sqp::Program::bounds(&super::nlp::Ascent::new(ctx));
+    points
+        .into_par_iter()
+        .map(|x| {
+            let x: Vec<f64> = x
+                .iter()
+                .zip(lo.iter().zip(&hi))
+                .map(|(v, (l, h))| v.clamp(*l, *h))
+                .collect();
+            let k = ctx.spec.inner.len();
+            let eval = ctx.eval(&x[k..], &x[..k]);
+            super::nlp::Start { x, eval }
+        })
+        .collect()
+}
+
+/// Sets the heading of every law whose heading is tuned: a guess from the target inclination
+/// where the program has none (or always, with `always`).
+fn guess_headings(ctx: &Ctx, p: &mut Problem, vars: &[Param], always: bool) {
+    for v in vars {
+        if let Param::Law {
+            arc,
+            param: LawParam::Heading,
+            ..
+        } = v
+        {
+            if v.get(p).is_none() || always {
+                let h = heading_guess(ctx, p, *arc);
+                v.set(p, h);
+            }
+        }
+    }
+}
+
 /// The automatic starting program, then the kick scan when enabled: the starting points of the
 /// outer search.
 pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Candidate> {

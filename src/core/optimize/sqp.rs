@@ -87,8 +87,12 @@ pub struct Settings {
     pub max_evaluations: usize,
     /// Constraint tolerance (default 1e-6).
     pub tol_feas: f64,
-    /// Stationarity and step tolerance (default 1e-6).
+    /// First-order optimality tolerance, relative to `max(1, ‖∇f‖∞)` (default 1e-6).
     pub tol_opt: f64,
+    /// Relative merit change below which an accepted step counts as no progress (default
+    /// 1e-10); three in a row, or a failed line search at a feasible point, end the run with a
+    /// two-sided optimality test.
+    pub tol_progress: f64,
     /// Forward-difference step (default 1e-4).
     pub fd_step: f64,
     /// Largest step per iteration in each variable (default 1).
@@ -102,6 +106,7 @@ impl Default for Settings {
             max_evaluations: 400,
             tol_feas: 1e-6,
             tol_opt: 1e-6,
+            tol_progress: 1e-10,
             fd_step: 1e-4,
             max_step: 1.0,
         }
@@ -115,7 +120,8 @@ pub enum Status {
     Converged,
     /// The constraints cannot be met from here: the linearized violation cannot be reduced.
     Infeasible,
-    /// The line search found no acceptable step (noise in the functions is the usual cause).
+    /// The constraints are met, but no step improves the objective and the first-order test
+    /// (two-sided at the end) did not pass: a kink in the functions or noise.
     Stalled,
     /// The iteration limit ended the run.
     IterationLimit,
@@ -161,6 +167,10 @@ struct Sqp<'a> {
     v: Values,
     b: DMatrix<f64>,
     mu: f64,
+    /// Elastic penalty on the linearized violation (kept above the multipliers).
+    rho: f64,
+    /// Current step box (a trust region on the step, at most `Settings::max_step`).
+    delta: f64,
     evals: usize,
     lam_eq: Vec<f64>,
     lam_in: Vec<f64>,
@@ -204,6 +214,8 @@ impl<'a> Sqp<'a> {
             x,
             b: DMatrix::identity(n, n),
             mu: 1.0,
+            rho: 1e4,
+            delta: s.max_step,
             evals: 0,
             lam_eq: Vec::new(),
             lam_in: Vec::new(),
@@ -219,28 +231,32 @@ impl<'a> Sqp<'a> {
     }
 
     fn run(mut self) -> Outcome {
-        let mut derivs = self.derivatives();
+        let mut derivs = self.derivatives(false);
         let mut status = Status::IterationLimit;
         let mut stationarity = f64::INFINITY;
         let mut iterations = 0;
+        let mut flat = 0;
         for k in 0..self.s.max_iterations {
             iterations = k + 1;
+            let feasible = self.v.max_violation() <= self.s.tol_feas;
+            stationarity = self.kkt_residual(&derivs, None);
+            if feasible && stationarity <= self.s.tol_opt {
+                status = Status::Converged;
+                break;
+            }
+            if feasible && flat >= 3 {
+                (status, stationarity) = self.final_test(&derivs);
+                break;
+            }
             let Some(step) = self.subproblem(&derivs) else {
                 status = Status::Stalled;
                 break;
             };
             self.lam_eq.clone_from(&step.lam_eq);
             self.lam_in.clone_from(&step.lam_in);
-            stationarity = (&self.b * &step.p).amax().max(step.p.amax());
-            let feasible = self.v.max_violation() <= self.s.tol_feas;
-            if feasible && stationarity <= self.s.tol_opt {
-                status = Status::Converged;
-                break;
-            }
             // The linearized violation cannot be reduced and is not zero: the nonlinear
             // constraints are (locally) out of reach.
-            if step.lin_violation > self.s.tol_feas && step.p.amax() <= self.s.tol_opt && !feasible
-            {
+            if step.lin_violation > self.s.tol_feas && step.p.amax() <= 1e-9 && !feasible {
                 status = Status::Infeasible;
                 break;
             }
@@ -248,22 +264,32 @@ impl<'a> Sqp<'a> {
                 status = Status::EvaluationLimit;
                 break;
             }
-            let x_old = self.x.clone();
+            let (x_old, phi_old) = (self.x.clone(), Self::merit(&self.v, self.mu));
             if !self.line_search(&derivs, &step) {
                 status = if self.evals >= self.s.max_evaluations {
                     Status::EvaluationLimit
                 } else if step.lin_violation > self.s.tol_feas && !feasible {
                     Status::Infeasible
+                } else if feasible {
+                    let (st, r) = self.final_test(&derivs);
+                    stationarity = r;
+                    st
                 } else {
                     Status::Stalled
                 };
                 break;
             }
+            let gain = phi_old - Self::merit(&self.v, self.mu);
+            flat = if gain.abs() <= self.s.tol_progress * (1.0 + self.v.f.abs()) {
+                flat + 1
+            } else {
+                0
+            };
             if self.evals + self.x.len() > self.s.max_evaluations {
                 status = Status::EvaluationLimit;
                 break;
             }
-            let next = self.derivatives();
+            let next = self.derivatives(false);
             self.update_hessian(&x_old, &derivs, &next);
             derivs = next;
         }
@@ -272,7 +298,7 @@ impl<'a> Sqp<'a> {
             .iter()
             .enumerate()
             .filter_map(|(i, x)| {
-                let tol = self.s.tol_opt * (1.0 + x.abs());
+                let tol = 1e-6 * (1.0 + x.abs());
                 if (x - self.hi[i]).abs() <= tol {
                     Some((i, true))
                 } else if (x - self.lo[i]).abs() <= tol {
@@ -295,15 +321,17 @@ impl<'a> Sqp<'a> {
         }
     }
 
-    /// Forward differences of every function, all columns in one batch. A column whose forward
-    /// point is out of bounds or not finite is taken backwards.
-    fn derivatives(&mut self) -> Derivs {
+    /// One-sided differences of every function, all columns in one batch: forward, or backward
+    /// with `backward`; a column whose point would leave the bounds is taken the other way.
+    fn derivatives(&mut self, backward: bool) -> Derivs {
         let n = self.x.len();
         let h = self.s.fd_step;
         let points: Vec<Vec<f64>> = (0..n)
             .map(|j| {
                 let mut y = self.x.clone();
-                y[j] += if y[j] + h <= self.hi[j] { h } else { -h };
+                let fits_up = y[j] + h <= self.hi[j];
+                let fits_down = y[j] - h >= self.lo[j];
+                y[j] += if (backward && fits_down) || !fits_up { -h } else { h };
                 y
             })
             .collect();
@@ -331,13 +359,103 @@ impl<'a> Sqp<'a> {
         d
     }
 
+    /// The test at the end of a run that stopped making progress at a feasible point: backward
+    /// differences (one more batch), then the two-sided first-order test.
+    fn final_test(&mut self, forward: &Derivs) -> (Status, f64) {
+        if self.evals + self.x.len() > self.s.max_evaluations {
+            return (Status::Stalled, self.kkt_residual(forward, None));
+        }
+        let back = self.derivatives(true);
+        let r = self.kkt_residual(forward, Some(&back));
+        let status = if r <= self.s.tol_opt {
+            Status::Converged
+        } else {
+            Status::Stalled
+        };
+        (status, r)
+    }
+
+    /// First-order optimality measure: the largest component of the Lagrangian's gradient
+    /// `∇f + J_Eᵀλ_E + J_Aᵀλ_A` with least-squares multipliers over the equalities and the active
+    /// inequalities (a negative inequality multiplier drops that constraint), components that a
+    /// bound blocks removed, relative to `max(1, ‖∇f‖∞)`.
+    /// With `back` (backward differences at the same point), a component also passes when its
+    /// one-sided slopes bracket zero (`r⁻ ≤ 0 ≤ r⁺`): the minimum sits on a kink in that
+    /// variable (Clarke stationarity along it).
+    fn kkt_residual(&self, d: &Derivs, back: Option<&Derivs>) -> f64 {
+        let n = self.x.len();
+        let mut active: Vec<usize> = (0..self.v.ineq.len())
+            .filter(|&i| self.v.ineq[i] >= -self.s.tol_feas && d.ji.row(i).amax() > 0.0)
+            .collect();
+        let me = self.v.eq.len();
+        let r = loop {
+            let m = me + active.len();
+            let mut a = DMatrix::zeros(m, n);
+            for i in 0..me {
+                a.set_row(i, &d.je.row(i));
+            }
+            for (k, &i) in active.iter().enumerate() {
+                a.set_row(me + k, &d.ji.row(i));
+            }
+            // Fit the multipliers on the variables off their bounds: a bound's own multiplier
+            // takes up the gradient of a variable that sits on it.
+            let free: Vec<usize> = (0..n)
+                .filter(|&j| {
+                    let tol = 1e-9 * (1.0 + self.x[j].abs());
+                    self.x[j] - self.lo[j] > tol && self.hi[j] - self.x[j] > tol
+                })
+                .collect();
+            let lam = if m == 0 || free.is_empty() {
+                DVector::zeros(m)
+            } else {
+                let at = DMatrix::from_fn(free.len(), m, |r, c| a[(c, free[r])]);
+                let rhs = DVector::from_fn(free.len(), |r, _| -d.g[free[r]]);
+                at.svd(true, true)
+                    .solve(&rhs, 1e-12)
+                    .unwrap_or_else(|_| DVector::zeros(m))
+            };
+            if let Some(k) = (0..active.len()).find(|k| lam[me + k] < 0.0) {
+                active.remove(k);
+                continue;
+            }
+            break (&d.g + a.transpose() * &lam, a, lam);
+        };
+        let (r, a, lam) = r;
+        // Slopes on the other side, with the same multipliers and active set (the backward
+        // Jacobian's rows in the same order).
+        let r_back = back.map(|b| {
+            let mut ab = DMatrix::zeros(a.nrows(), n);
+            for i in 0..me {
+                ab.set_row(i, &b.je.row(i));
+            }
+            for (k, &i) in active.iter().enumerate() {
+                ab.set_row(me + k, &b.ji.row(i));
+            }
+            &b.g + ab.transpose() * &lam
+        });
+        // Descent available along +x_j is max(−right, 0) and along −x_j max(left, 0), where right
+        // and left are the one-sided slopes of the Lagrangian (both the forward slope without
+        // `back`); a bound removes the direction it blocks.
+        let tol = 1e-9;
+        let worst = (0..n).fold(0.0_f64, |m, j| {
+            let right = r[j];
+            let left = r_back.as_ref().map_or(r[j], |rb| rb[j]);
+            let can_up = self.hi[j] - self.x[j] > tol * (1.0 + self.x[j].abs());
+            let can_down = self.x[j] - self.lo[j] > tol * (1.0 + self.x[j].abs());
+            let up = if can_up { (-right).max(0.0) } else { 0.0 };
+            let down = if can_down { left.max(0.0) } else { 0.0 };
+            m.max(up).max(down)
+        });
+        worst / d.g.amax().max(1.0)
+    }
+
     /// The elastic quadratic subproblem (variables `p`, then slacks `v`, `w` on the equalities and
     /// `t` on the inequalities, each ≥ 0 and penalized by `ρ`).
     fn subproblem(&self, d: &Derivs) -> Option<Step> {
         let n = self.x.len();
         let (me, mi) = (self.v.eq.len(), self.v.ineq.len());
         let nz = n + 2 * me + mi;
-        let rho = 100.0 * (1.0 + self.mu + d.g.amax());
+        let rho = self.rho;
         // P: the BFGS matrix on p (upper triangle), zero on the slacks.
         let mut p_dense = vec![vec![0.0; nz]; nz];
         for (i, row) in p_dense.iter_mut().enumerate().take(n) {
@@ -368,16 +486,24 @@ impl<'a> Sqp<'a> {
             rows.push(r);
             rhs.push(-self.v.eq[i]);
         }
-        // Inequalities (Az ≤ b): J_I p − t ≤ −c_I, step box and bounds, slacks ≥ 0.
+        // Inequalities (Az ≤ b): J_I p − t ≤ −c_I, step box and bounds, slacks ≥ 0. An
+        // inequality the step cannot change (a zero Jacobian row) is left to its slack: its
+        // multiplier would be arbitrary.
+        let movable: Vec<bool> = (0..mi).map(|i| d.ji.row(i).amax() > 0.0).collect();
         for i in 0..mi {
-            rows.push(row(Some((&d.ji, i)), Some((n + 2 * me + i, -1.0))));
-            rhs.push(-self.v.ineq[i]);
+            if movable[i] {
+                rows.push(row(Some((&d.ji, i)), Some((n + 2 * me + i, -1.0))));
+                rhs.push(-self.v.ineq[i]);
+            } else {
+                rows.push(row(None, Some((n + 2 * me + i, -1.0))));
+                rhs.push(-self.v.ineq[i].max(0.0));
+            }
         }
         for j in 0..n {
             rows.push(row(None, Some((j, 1.0))));
-            rhs.push((self.hi[j] - self.x[j]).min(self.s.max_step).max(0.0));
+            rhs.push((self.hi[j] - self.x[j]).min(self.delta).max(0.0));
             rows.push(row(None, Some((j, -1.0))));
-            rhs.push((self.x[j] - self.lo[j]).min(self.s.max_step).max(0.0));
+            rhs.push((self.x[j] - self.lo[j]).min(self.delta).max(0.0));
         }
         for k in n..nz {
             rows.push(row(None, Some((k, -1.0))));
@@ -407,7 +533,11 @@ impl<'a> Sqp<'a> {
         Some(Step {
             p,
             lam_eq: sol.z[..me].to_vec(),
-            lam_in: sol.z[me..me + mi].to_vec(),
+            lam_in: sol.z[me..me + mi]
+                .iter()
+                .zip(&movable)
+                .map(|(z, m)| if *m { *z } else { 0.0 })
+                .collect(),
             lin_violation,
         })
     }
@@ -422,42 +552,89 @@ impl<'a> Sqp<'a> {
         }
     }
 
-    /// Backtracking on the ℓ1 merit function; true when a step was accepted.
+    /// Backtracking on the ℓ1 merit function, with one second-order correction of the full step
+    /// (N&W §18.3, eq. 18.56: the Maratos effect); true when a step was accepted. The step box
+    /// follows the accepted step length (a trust region on the linearization).
     fn line_search(&mut self, d: &Derivs, step: &Step) -> bool {
         let lam_max = step
             .lam_eq
             .iter()
             .chain(&step.lam_in)
             .fold(0.0_f64, |m, l| m.max(l.abs()));
-        if self.mu < 1.1 * lam_max {
-            self.mu = 1.5 * lam_max;
-        }
+        // μ > ‖λ‖∞ makes the step a descent direction of the merit (N&W eq. 18.32); the elastic
+        // weight stays well above the multipliers so that the subproblem is not distorted.
+        self.mu = self.mu.max(1.1 * lam_max);
+        self.rho = self.rho.max(10.0 * lam_max);
         let phi0 = Self::merit(&self.v, self.mu);
         // Directional derivative of the merit along p (N&W eq. 18.29, with the elastic slacks'
         // remaining violation).
-        let slope = d.g.dot(&step.p) - self.mu * (self.v.violation() - step.lin_violation);
+        let slope = (d.g.dot(&step.p) - self.mu * (self.v.violation() - step.lin_violation)).min(0.0);
+        let accept = |phi: f64, alpha: f64| phi <= phi0 + 1e-4 * alpha * slope;
+        let p_len = step.p.amax();
         let mut alpha = 1.0;
         while alpha >= 1.0 / 256.0 {
             if self.evals >= self.s.max_evaluations {
                 return false;
             }
-            let trial: Vec<f64> = self
-                .x
-                .iter()
-                .zip(step.p.iter())
-                .enumerate()
-                .map(|(j, (x, p))| (x + alpha * p).clamp(self.lo[j], self.hi[j]))
-                .collect();
+            let trial = self.along(&step.p, alpha);
             let v = self.eval(std::slice::from_ref(&trial)).remove(0);
-            let phi = Self::merit(&v, self.mu);
-            if phi <= phi0 + 1e-4 * alpha * slope.min(0.0) {
-                self.x = trial;
-                self.v = v;
+            if accept(Self::merit(&v, self.mu), alpha) {
+                self.accept(trial, v, alpha, p_len);
                 return true;
+            }
+            // Second-order correction of the full step: the least-norm move that meets the
+            // equality constraints linearized at the trial point.
+            if alpha == 1.0 && v.violation() > self.v.violation() && self.evals < self.s.max_evaluations {
+                if let Some(c) = self.correction(d, &v, &step.p) {
+                    let vc = self.eval(std::slice::from_ref(&c)).remove(0);
+                    if accept(Self::merit(&vc, self.mu), 1.0) {
+                        self.accept(c, vc, 1.0, p_len);
+                        return true;
+                    }
+                }
             }
             alpha *= 0.5;
         }
         false
+    }
+
+    /// `x + αp`, inside the bounds.
+    fn along(&self, p: &DVector<f64>, alpha: f64) -> Vec<f64> {
+        self.x
+            .iter()
+            .zip(p.iter())
+            .enumerate()
+            .map(|(j, (x, p))| (x + alpha * p).clamp(self.lo[j], self.hi[j]))
+            .collect()
+    }
+
+    /// Takes the step and adapts the step box: it doubles after a full step that the box limited,
+    /// and shrinks to the length accepted after a shortened one.
+    fn accept(&mut self, x: Vec<f64>, v: Values, alpha: f64, p_len: f64) {
+        self.x = x;
+        self.v = v;
+        self.delta = if alpha == 1.0 {
+            if p_len >= 0.99 * self.delta {
+                (2.0 * self.delta).min(self.s.max_step)
+            } else {
+                self.delta
+            }
+        } else {
+            (alpha * p_len).max(1e-3 * self.s.max_step)
+        };
+    }
+
+    /// The corrected full step `x + p + d`, `d = −J_Eᵀ(J_E J_Eᵀ)⁻¹ c_E(x + p)`.
+    fn correction(&self, d: &Derivs, at_trial: &Values, p: &DVector<f64>) -> Option<Vec<f64>> {
+        if at_trial.eq.len() != d.je.nrows() || d.je.nrows() == 0 {
+            return None;
+        }
+        let ce = DVector::from_column_slice(&at_trial.eq);
+        let jjt = &d.je * d.je.transpose();
+        let y = jjt.lu().solve(&ce)?;
+        let dx = -(d.je.transpose() * y);
+        let full = p + dx;
+        full.iter().all(|v| v.is_finite()).then(|| self.along(&full, 1.0))
     }
 
     /// Damped BFGS update of the Lagrangian's Hessian approximation (N&W Procedure 18.2).
@@ -514,6 +691,7 @@ mod tests {
     fn settings() -> Settings {
         Settings {
             fd_step: 1e-7,
+            tol_progress: 1e-16,
             max_evaluations: 2000,
             max_iterations: 200,
             ..Settings::default()
@@ -605,8 +783,13 @@ mod tests {
         let out = solve(&prog, &[-1.2, 1.0], &s);
         assert!(out.evaluations <= 25, "{}", out.evaluations);
         assert_eq!(out.status, Status::EvaluationLimit);
-        // Unlimited, it reaches the Rosenbrock minimum (1, 1).
-        let out = solve(&prog, &[-1.2, 1.0], &settings());
+        // Unlimited, it reaches the Rosenbrock minimum (1, 1) to the accuracy forward differences
+        // allow (truncation error h·f''/2 ≈ 1e-4 here).
+        let s = Settings {
+            tol_opt: 1e-3,
+            ..settings()
+        };
+        let out = solve(&prog, &[-1.2, 1.0], &s);
         assert_eq!(out.status, Status::Converged, "{out:?}");
         assert!((out.x[0] - 1.0).abs() < 1e-3);
     }

@@ -1,0 +1,250 @@
+//! The ascent as one constrained nonlinear program, solved by [`super::sqp`]:
+//!
+//! - variables: every free program parameter of the pass (the inner ones first, then the outer
+//!   ones), normalized by `Param::scale` and bounded by `Param::bounds` (a timed coast also by its
+//!   written length: the file's coast is the shortest allowed);
+//! - objective: propellant burned (payload mode: minus the payload), in units of 0.1 % of the
+//!   liftoff mass, so that the tolerances are the same for any vehicle size;
+//! - equality constraints: the terminal conditions (scaled residuals of [`super::targeting`]; in
+//!   the payload mode also the energy at depletion);
+//! - inequality constraints: the energy shortfall (zero once the last cutoff is reached) and,
+//!   when a dynamic-pressure limit is held, `(q_max − q_limit)/1 kPa ≤ 0`.
+//!
+//! Every function value is one trajectory; the finite-difference columns of an iteration are
+//! flown in parallel. Starting points: the program as written first, then (with the scan) the
+//! automatic program at each kick of a grid, one trajectory each, ranked by their constraint
+//! violation; the search runs from the best start and from the next one if the first does not
+//! converge.
+
+use rayon::prelude::*;
+
+use super::sqp::{self, Program, Settings, Status, Values};
+use super::targeting::{Eval, SHORTFALL_WEIGHT};
+use super::{inner, Ctx, SolveOptions};
+use crate::core::problem::params::Param;
+
+/// Objective unit as a fraction of the liftoff mass.
+const OBJECTIVE_UNIT: f64 = 1e-3;
+
+/// The ascent program of one pass.
+pub struct Ascent<'a> {
+    ctx: &'a Ctx<'a>,
+    /// Objective unit, kg.
+    unit_kg: f64,
+    lo: Vec<f64>,
+    hi: Vec<f64>,
+}
+
+impl<'a> Ascent<'a> {
+    /// The program of `ctx`'s pass.
+    pub fn new(ctx: &'a Ctx<'a>) -> Self {
+        let (mut lo, mut hi) = (Vec::new(), Vec::new());
+        for v in ctx.spec.inner.iter().chain(&ctx.spec.outer) {
+            let (l, h) = v.bounds();
+            let floor = match v {
+                Param::Coast(_) => v.get(ctx.spec.floor).unwrap_or(l),
+                _ => l,
+            };
+            lo.push(floor.max(l) / v.scale());
+            hi.push(h / v.scale());
+        }
+        Ascent {
+            ctx,
+            unit_kg: OBJECTIVE_UNIT * ctx.spec.base.vehicle.liftoff_mass_kg(),
+            lo,
+            hi,
+        }
+    }
+
+    fn n_inner(&self) -> usize {
+        self.ctx.spec.inner.len()
+    }
+
+    /// One trajectory at the full (inner then outer) vector `x`.
+    pub fn eval(&self, x: &[f64]) -> Eval {
+        let k = self.n_inner();
+        self.ctx.eval(&x[k..], &x[..k])
+    }
+
+    /// The program's values of an evaluation.
+    pub fn values(&self, e: &Eval) -> Values {
+        let r = &e.residuals;
+        let held = usize::from(self.ctx.spec.q_limit.is_some());
+        let conds = r.len().saturating_sub(1 + held);
+        let last = r.last().copied().unwrap_or(f64::NAN);
+        let mut eq = r[..conds].to_vec();
+        let mut ineq = Vec::new();
+        if held == 1 {
+            ineq.push(r[conds]);
+        }
+        if e.payload_mode {
+            eq.push(last);
+        } else if e.reached {
+            // The last stage must not run dry before its cutoff: once the target energy is
+            // reached, the propellant left (a fraction of the load) is the constraint's slack,
+            // which meets the energy shortfall continuously at depletion.
+            let loaded = self.ctx.spec.base.vehicle.propellant_loaded_kg();
+            ineq.push(-SHORTFALL_WEIGHT * (loaded - e.propellant_used_kg) / loaded);
+        } else {
+            ineq.push(last);
+        }
+        let f = if e.payload_mode {
+            -e.payload_kg
+        } else {
+            e.propellant_used_kg
+        } / self.unit_kg;
+        Values { f, eq, ineq }
+    }
+}
+
+impl Program for Ascent<'_> {
+    fn dim(&self) -> usize {
+        self.lo.len()
+    }
+
+    fn bounds(&self) -> (Vec<f64>, Vec<f64>) {
+        (self.lo.clone(), self.hi.clone())
+    }
+
+    fn evaluate(&self, xs: &[Vec<f64>]) -> Vec<Values> {
+        xs.par_iter()
+            .map(|x| {
+                if self.ctx.past_deadline() {
+                    return Values {
+                        f: f64::NAN,
+                        eq: Vec::new(),
+                        ineq: Vec::new(),
+                    };
+                }
+                self.values(&self.eval(x))
+            })
+            .collect()
+    }
+}
+
+/// A starting point: the full variable vector and its evaluation.
+#[derive(Debug, Clone)]
+pub struct Start {
+    /// Normalized variables, inner then outer.
+    pub x: Vec<f64>,
+    /// Its evaluation.
+    pub eval: Eval,
+}
+
+/// The result of the search.
+#[derive(Debug, Clone)]
+pub struct Found {
+    /// Normalized variables, inner then outer.
+    pub x: Vec<f64>,
+    /// Evaluation at `x`.
+    pub eval: Eval,
+    /// The method's outcome.
+    pub outcome: sqp::Outcome,
+    /// Starts tried.
+    pub starts_tried: usize,
+}
+
+/// Settings of the method for a pass with `budget` trajectories left.
+fn settings(budget: usize) -> Settings {
+    Settings {
+        max_evaluations: budget,
+        max_iterations: 100,
+        tol_feas: inner::INNER_TOL,
+        tol_opt: 1e-3,
+        tol_progress: 1e-9,
+        fd_step: inner::FD_STEP,
+        max_step: 1.0,
+    }
+}
+
+/// Ranks starts: least constraint violation first, then the objective.
+fn rank(a: &Values, b: &Values) -> std::cmp::Ordering {
+    let key = |v: &Values| (v.violation(), v.f);
+    let (va, fa) = key(a);
+    let (vb, fb) = key(b);
+    // Violations within the tolerance count as equal: the objective decides.
+    if (va - vb).abs() <= 1e-6 || (va <= 1e-6 && vb <= 1e-6) {
+        fa.total_cmp(&fb)
+    } else {
+        va.total_cmp(&vb)
+    }
+}
+
+/// Runs the method from the starts, best ranked first, until one converges (at most two);
+/// returns the best result: a feasible one over an infeasible one, then the lower objective.
+pub fn search(prog: &Ascent, starts: Vec<Start>, o: &SolveOptions) -> Found {
+    let mut ranked: Vec<(Start, Values)> = starts
+        .into_iter()
+        .map(|s| {
+            let v = prog.values(&s.eval);
+            (s, v)
+        })
+        .collect();
+    ranked.sort_by(|a, b| rank(&a.1, &b.1));
+    let mut best: Option<Found> = None;
+    for (i, (start, v0)) in ranked.into_iter().take(2).enumerate() {
+        let left = prog.ctx.flights_left();
+        if left <= prog.dim() + 1 {
+            break;
+        }
+        let out = sqp::solve(prog, &start.x, &settings(left));
+        // The method's end point is an evaluated iterate: fly it once more only for its Eval.
+        let eval = if out.x == start.x && out.values == v0 {
+            start.eval.clone()
+        } else {
+            prog.eval(&out.x)
+        };
+        let found = Found {
+            x: out.x.clone(),
+            eval,
+            outcome: out,
+            starts_tried: i + 1,
+        };
+        let converged = found.outcome.status == Status::Converged;
+        best = Some(match best {
+            Some(b) if better(&b, &found) => Found {
+                starts_tried: i + 1,
+                ..b
+            },
+            _ => found,
+        });
+        if converged || !o.scan {
+            break;
+        }
+    }
+    best.unwrap_or_else(|| {
+        let x: Vec<f64> = prog.lo.iter().zip(&prog.hi).map(|(l, h)| 0.5 * (l + h)).collect();
+        let eval = prog.eval(&x);
+        Found {
+            outcome: sqp::Outcome {
+                values: prog.values(&eval),
+                x: x.clone(),
+                lambda_eq: Vec::new(),
+                lambda_ineq: Vec::new(),
+                at_bounds: Vec::new(),
+                status: Status::EvaluationLimit,
+                iterations: 0,
+                evaluations: 1,
+                stationarity: f64::INFINITY,
+            },
+            x,
+            eval,
+            starts_tried: 0,
+        }
+    })
+}
+
+/// `a` is better than `b`: converged over not, feasible over infeasible, then lower objective.
+fn better(a: &Found, b: &Found) -> bool {
+    let key = |f: &Found| {
+        (
+            f.outcome.status != Status::Converged,
+            f.outcome.values.max_violation() > inner::INNER_TOL,
+        )
+    };
+    let (ka, kb) = (key(a), key(b));
+    if ka != kb {
+        return ka < kb;
+    }
+    rank(&a.outcome.values, &b.outcome.values) != std::cmp::Ordering::Greater
+}
