@@ -213,7 +213,12 @@ pub fn search(prog: &Ascent, starts: Vec<Start>, o: &SolveOptions) -> Found {
         }
     }
     best.unwrap_or_else(|| {
-        let x: Vec<f64> = prog.lo.iter().zip(&prog.hi).map(|(l, h)| 0.5 * (l + h)).collect();
+        let x: Vec<f64> = prog
+            .lo
+            .iter()
+            .zip(&prog.hi)
+            .map(|(l, h)| 0.5 * (l + h))
+            .collect();
         let eval = prog.eval(&x);
         Found {
             outcome: sqp::Outcome {

@@ -130,7 +130,13 @@ fn heading_guess(ctx: &Ctx, p: &Problem, arc: usize) -> f64 {
 /// with the scan, the automatic program at every kick of the grid — one trajectory each, flown in
 /// parallel.
 pub fn starts(ctx: &Ctx, o: &SolveOptions) -> Vec<super::nlp::Start> {
-    let vars: Vec<Param> = ctx.spec.inner.iter().chain(&ctx.spec.outer).copied().collect();
+    let vars: Vec<Param> = ctx
+        .spec
+        .inner
+        .iter()
+        .chain(&ctx.spec.outer)
+        .copied()
+        .collect();
     let mut written = ctx.spec.base.clone();
     guess_headings(ctx, &mut written, &vars, false);
     let mut points = vec![ctx.normalized(&vars, &written)];

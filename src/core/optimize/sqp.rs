@@ -29,6 +29,10 @@ use clarabel::solver::{
 };
 use nalgebra::{DMatrix, DVector};
 
+/// A variable this close to a bound (relative to `1 + |x|`) sits on it: the interior-point
+/// subproblem stops short of its bounds by about this much.
+const BOUND_TOL: f64 = 1e-6;
+
 /// The values of the program at one point.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Values {
@@ -214,7 +218,7 @@ impl<'a> Sqp<'a> {
             x,
             b: DMatrix::identity(n, n),
             mu: 1.0,
-            rho: 1e4,
+            rho: 1e3,
             delta: s.max_step,
             evals: 0,
             lam_eq: Vec::new(),
@@ -298,7 +302,7 @@ impl<'a> Sqp<'a> {
             .iter()
             .enumerate()
             .filter_map(|(i, x)| {
-                let tol = 1e-6 * (1.0 + x.abs());
+                let tol = BOUND_TOL * (1.0 + x.abs());
                 if (x - self.hi[i]).abs() <= tol {
                     Some((i, true))
                 } else if (x - self.lo[i]).abs() <= tol {
@@ -331,7 +335,11 @@ impl<'a> Sqp<'a> {
                 let mut y = self.x.clone();
                 let fits_up = y[j] + h <= self.hi[j];
                 let fits_down = y[j] - h >= self.lo[j];
-                y[j] += if (backward && fits_down) || !fits_up { -h } else { h };
+                y[j] += if (backward && fits_down) || !fits_up {
+                    -h
+                } else {
+                    h
+                };
                 y
             })
             .collect();
@@ -384,32 +392,80 @@ impl<'a> Sqp<'a> {
     /// variable (Clarke stationarity along it).
     fn kkt_residual(&self, d: &Derivs, back: Option<&Derivs>) -> f64 {
         let n = self.x.len();
+        let on_bound = |j: usize| {
+            let tol = BOUND_TOL * (1.0 + self.x[j].abs());
+            self.x[j] - self.lo[j] <= tol || self.hi[j] - self.x[j] <= tol
+        };
+        let mut fit_on: Vec<usize> = (0..n).filter(|&j| !on_bound(j)).collect();
+        let (mut r, mut r_back) = self.lagrangian_slopes(d, back, &fit_on);
+        // A variable whose two one-sided slopes disagree sits on a kink: its slopes say nothing
+        // about the multipliers, so they are fitted again without it.
+        if let Some(rb) = &r_back {
+            let scale = d.g.amax().max(1.0);
+            let kinked = |j: usize| {
+                let gap = (r[j] - rb[j]).abs();
+                gap > self.s.tol_opt * scale && gap > 0.1 * r[j].abs().max(rb[j].abs())
+            };
+            let smooth: Vec<usize> = fit_on.iter().copied().filter(|&j| !kinked(j)).collect();
+            if smooth.len() < fit_on.len() {
+                fit_on = smooth;
+                (r, r_back) = self.lagrangian_slopes(d, back, &fit_on);
+            }
+        }
+        // Descent available along +x_j is max(−right, 0) and along −x_j max(left, 0), where right
+        // and left are the one-sided slopes of the Lagrangian (both the forward slope without
+        // `back`); a bound removes the direction it blocks.
+        let worst = (0..n).fold(0.0_f64, |m, j| {
+            let right = r[j];
+            let left = r_back.as_ref().map_or(r[j], |rb| rb[j]);
+            let tol = BOUND_TOL * (1.0 + self.x[j].abs());
+            let up = if self.hi[j] - self.x[j] > tol {
+                (-right).max(0.0)
+            } else {
+                0.0
+            };
+            let down = if self.x[j] - self.lo[j] > tol {
+                left.max(0.0)
+            } else {
+                0.0
+            };
+            m.max(up).max(down)
+        });
+        worst / d.g.amax().max(1.0)
+    }
+
+    /// The Lagrangian's forward (and, with `back`, backward) slopes, with least-squares
+    /// multipliers fitted on the variables `fit_on` over the equalities and the active
+    /// inequalities (a negative inequality multiplier drops that constraint).
+    fn lagrangian_slopes(
+        &self,
+        d: &Derivs,
+        back: Option<&Derivs>,
+        fit_on: &[usize],
+    ) -> (DVector<f64>, Option<DVector<f64>>) {
+        let n = self.x.len();
+        let me = self.v.eq.len();
         let mut active: Vec<usize> = (0..self.v.ineq.len())
             .filter(|&i| self.v.ineq[i] >= -self.s.tol_feas && d.ji.row(i).amax() > 0.0)
             .collect();
-        let me = self.v.eq.len();
-        let r = loop {
-            let m = me + active.len();
-            let mut a = DMatrix::zeros(m, n);
+        let rows = |dd: &Derivs, active: &[usize]| {
+            let mut a = DMatrix::zeros(me + active.len(), n);
             for i in 0..me {
-                a.set_row(i, &d.je.row(i));
+                a.set_row(i, &dd.je.row(i));
             }
             for (k, &i) in active.iter().enumerate() {
-                a.set_row(me + k, &d.ji.row(i));
+                a.set_row(me + k, &dd.ji.row(i));
             }
-            // Fit the multipliers on the variables off their bounds: a bound's own multiplier
-            // takes up the gradient of a variable that sits on it.
-            let free: Vec<usize> = (0..n)
-                .filter(|&j| {
-                    let tol = 1e-9 * (1.0 + self.x[j].abs());
-                    self.x[j] - self.lo[j] > tol && self.hi[j] - self.x[j] > tol
-                })
-                .collect();
-            let lam = if m == 0 || free.is_empty() {
+            a
+        };
+        loop {
+            let a = rows(d, &active);
+            let m = a.nrows();
+            let lam = if m == 0 || fit_on.is_empty() {
                 DVector::zeros(m)
             } else {
-                let at = DMatrix::from_fn(free.len(), m, |r, c| a[(c, free[r])]);
-                let rhs = DVector::from_fn(free.len(), |r, _| -d.g[free[r]]);
+                let at = DMatrix::from_fn(fit_on.len(), m, |r, c| a[(c, fit_on[r])]);
+                let rhs = DVector::from_fn(fit_on.len(), |r, _| -d.g[fit_on[r]]);
                 at.svd(true, true)
                     .solve(&rhs, 1e-12)
                     .unwrap_or_else(|_| DVector::zeros(m))
@@ -418,35 +474,10 @@ impl<'a> Sqp<'a> {
                 active.remove(k);
                 continue;
             }
-            break (&d.g + a.transpose() * &lam, a, lam);
-        };
-        let (r, a, lam) = r;
-        // Slopes on the other side, with the same multipliers and active set (the backward
-        // Jacobian's rows in the same order).
-        let r_back = back.map(|b| {
-            let mut ab = DMatrix::zeros(a.nrows(), n);
-            for i in 0..me {
-                ab.set_row(i, &b.je.row(i));
-            }
-            for (k, &i) in active.iter().enumerate() {
-                ab.set_row(me + k, &b.ji.row(i));
-            }
-            &b.g + ab.transpose() * &lam
-        });
-        // Descent available along +x_j is max(−right, 0) and along −x_j max(left, 0), where right
-        // and left are the one-sided slopes of the Lagrangian (both the forward slope without
-        // `back`); a bound removes the direction it blocks.
-        let tol = 1e-9;
-        let worst = (0..n).fold(0.0_f64, |m, j| {
-            let right = r[j];
-            let left = r_back.as_ref().map_or(r[j], |rb| rb[j]);
-            let can_up = self.hi[j] - self.x[j] > tol * (1.0 + self.x[j].abs());
-            let can_down = self.x[j] - self.lo[j] > tol * (1.0 + self.x[j].abs());
-            let up = if can_up { (-right).max(0.0) } else { 0.0 };
-            let down = if can_down { left.max(0.0) } else { 0.0 };
-            m.max(up).max(down)
-        });
-        worst / d.g.amax().max(1.0)
+            let r = &d.g + a.transpose() * &lam;
+            let rb = back.map(|b| &b.g + rows(b, &active).transpose() * &lam);
+            return (r, rb);
+        }
     }
 
     /// The elastic quadratic subproblem (variables `p`, then slacks `v`, `w` on the equalities and
@@ -455,7 +486,9 @@ impl<'a> Sqp<'a> {
         let n = self.x.len();
         let (me, mi) = (self.v.eq.len(), self.v.ineq.len());
         let nz = n + 2 * me + mi;
-        let rho = self.rho;
+        // The elastic weight is fixed relative to the objective's gradient: an exact penalty as
+        // long as it exceeds the multipliers (checked in the line search).
+        let rho = self.rho * d.g.amax().max(1.0);
         // P: the BFGS matrix on p (upper triangle), zero on the slacks.
         let mut p_dense = vec![vec![0.0; nz]; nz];
         for (i, row) in p_dense.iter_mut().enumerate().take(n) {
@@ -556,19 +589,23 @@ impl<'a> Sqp<'a> {
     /// (N&W §18.3, eq. 18.56: the Maratos effect); true when a step was accepted. The step box
     /// follows the accepted step length (a trust region on the linearization).
     fn line_search(&mut self, d: &Derivs, step: &Step) -> bool {
+        // μ > ‖λ‖∞ makes the step a descent direction of the merit (N&W eq. 18.32). Multipliers
+        // at the elastic weight belong to constraints the subproblem could not meet inside the
+        // step box: they say nothing about λ* and would only inflate μ.
+        let rho = self.rho * d.g.amax().max(1.0);
         let lam_max = step
             .lam_eq
             .iter()
             .chain(&step.lam_in)
-            .fold(0.0_f64, |m, l| m.max(l.abs()));
-        // μ > ‖λ‖∞ makes the step a descent direction of the merit (N&W eq. 18.32); the elastic
-        // weight stays well above the multipliers so that the subproblem is not distorted.
+            .map(|l| l.abs())
+            .filter(|l| *l < 0.5 * rho)
+            .fold(0.0_f64, f64::max);
         self.mu = self.mu.max(1.1 * lam_max);
-        self.rho = self.rho.max(10.0 * lam_max);
         let phi0 = Self::merit(&self.v, self.mu);
         // Directional derivative of the merit along p (N&W eq. 18.29, with the elastic slacks'
         // remaining violation).
-        let slope = (d.g.dot(&step.p) - self.mu * (self.v.violation() - step.lin_violation)).min(0.0);
+        let slope =
+            (d.g.dot(&step.p) - self.mu * (self.v.violation() - step.lin_violation)).min(0.0);
         let accept = |phi: f64, alpha: f64| phi <= phi0 + 1e-4 * alpha * slope;
         let p_len = step.p.amax();
         let mut alpha = 1.0;
@@ -584,7 +621,10 @@ impl<'a> Sqp<'a> {
             }
             // Second-order correction of the full step: the least-norm move that meets the
             // equality constraints linearized at the trial point.
-            if alpha == 1.0 && v.violation() > self.v.violation() && self.evals < self.s.max_evaluations {
+            if alpha == 1.0
+                && v.violation() > self.v.violation()
+                && self.evals < self.s.max_evaluations
+            {
                 if let Some(c) = self.correction(d, &v, &step.p) {
                     let vc = self.eval(std::slice::from_ref(&c)).remove(0);
                     if accept(Self::merit(&vc, self.mu), 1.0) {
@@ -634,7 +674,9 @@ impl<'a> Sqp<'a> {
         let y = jjt.lu().solve(&ce)?;
         let dx = -(d.je.transpose() * y);
         let full = p + dx;
-        full.iter().all(|v| v.is_finite()).then(|| self.along(&full, 1.0))
+        full.iter()
+            .all(|v| v.is_finite())
+            .then(|| self.along(&full, 1.0))
     }
 
     /// Damped BFGS update of the Lagrangian's Hessian approximation (N&W Procedure 18.2).
