@@ -481,3 +481,44 @@ fn a_written_program_with_a_throttle_bucket_reproduces_the_held_max_q() {
     assert_eq!(f["target_deviation"]["met"], true);
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn the_sqp_method_reaches_the_nested_optimum_with_few_trajectories() {
+    // Issue 9: one constrained program over every parameter (experimental `--sqp`). It must meet
+    // the terminal conditions, pass its first-order test, and land on the nested search's
+    // propellant within the spread the perturbed-start test allows the nested search itself
+    // (0.5 kg or 1e-4 of the final mass), on a fixed trajectory budget of 400 (the nested search
+    // needs 1300 to 1900).
+    for name in DEMOS {
+        let nested = solved(name, &SolveOptions::default());
+        let sqp = solved(
+            name,
+            &SolveOptions {
+                method: kickturn::optimize::Method::Sqp,
+                max_trajectories: 400,
+                ..SolveOptions::default()
+            },
+        );
+        assert_eq!(
+            sqp.convergence.status,
+            SolveStatus::Converged,
+            "{name}: {:?}",
+            sqp.convergence
+        );
+        assert!(sqp.eval.reached && sqp.eval.max_abs() < 1e-3, "{name}");
+        let d = sqp.eval.propellant_used_kg - nested.eval.propellant_used_kg;
+        let final_mass = demo(name).vehicle.liftoff_mass_kg() - nested.eval.propellant_used_kg;
+        let tol = 0.5f64.max(1e-4 * final_mass);
+        assert!(
+            d.abs() <= tol,
+            "{name}: SQP − nested = {d:.2} kg (±{tol:.2})"
+        );
+        assert!(sqp.convergence.trajectories <= 400, "{name}");
+        assert!(
+            3 * sqp.convergence.trajectories < nested.convergence.trajectories,
+            "{name}: {} vs {} trajectories",
+            sqp.convergence.trajectories,
+            nested.convergence.trajectories
+        );
+    }
+}

@@ -158,6 +158,10 @@ pub struct SolveArgs {
     /// Start from the file's program instead of the automatic guess and kick scan.
     #[arg(long)]
     pub no_scan: bool,
+    /// Experimental: tune every parameter in one constrained program solved by SQP (about 5×
+    /// fewer trajectories) instead of the nested search.
+    #[arg(long)]
+    pub sqp: bool,
     /// Also solve richer programs (free pitch-over rate and vertical rise; separate laws for
     /// continued upper burns) and report what each would save.
     #[arg(long)]

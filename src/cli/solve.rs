@@ -1,7 +1,7 @@
 //! `kickturn solve`: reads the problem, calls `app::solve`, writes the outputs.
 
 use kickturn::app::solve::{solve, SolveSettings};
-use kickturn::optimize::{Objective, SolveOptions};
+use kickturn::optimize::{Method, Objective, SolveOptions};
 use kickturn::render;
 
 use super::io::{emit, load_case, write_atomic, Progress};
@@ -19,6 +19,7 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
             scan: !a.no_scan,
             perturb_seed: a.perturb_seed,
             polish: true,
+            method: if a.sqp { Method::Sqp } else { Method::Nested },
             objective: if a.max_payload {
                 Objective::MaxPayload
             } else {

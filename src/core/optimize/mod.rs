@@ -53,6 +53,8 @@ pub struct SolveOptions {
     pub scan: bool,
     /// What to optimize.
     pub objective: Objective,
+    /// The search method (default: nested).
+    pub method: Method,
     /// Restart the outer Nelder–Mead once from its best point (default true; sweeps turn it off:
     /// the restart refines the optimum by about a kilogram at about a third more trajectories).
     pub polish: bool,
@@ -72,8 +74,23 @@ impl Default for SolveOptions {
             perturb_seed: None,
             objective: Objective::LeastPropellant,
             polish: true,
+            method: Method::Nested,
         }
     }
+}
+
+/// The search method.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum Method {
+    /// Terminal conditions by Levenberg–Marquardt nested in a Brent or Nelder–Mead search over
+    /// the remaining parameters, after a kick scan (the default while the single formulation is
+    /// being completed).
+    #[default]
+    Nested,
+    /// One constrained program over every parameter, solved by SQP ([`sqp`], [`nlp`]):
+    /// experimental.
+    Sqp,
 }
 
 /// The optimization objective.
@@ -726,6 +743,17 @@ fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
         max_flights: o.max_trajectories,
         obs: run.obs,
     };
+    if o.method == Method::Nested {
+        let start = outer::initial_guess(&ctx, o);
+        ctx.obs.diagnostic(&|| {
+            format!(
+                "scan used {} trajectories",
+                ctx.flights.load(Ordering::Relaxed)
+            )
+        });
+        let best = outer::search_all(&ctx, start);
+        return finish(&ctx, best);
+    }
     let starts = outer::starts(&ctx, o);
     let scanned = ctx.flights.load(Ordering::Relaxed);
     ctx.obs

@@ -523,8 +523,8 @@ impl<'a> Sqp<'a> {
         // inequality the step cannot change (a zero Jacobian row) is left to its slack: its
         // multiplier would be arbitrary.
         let movable: Vec<bool> = (0..mi).map(|i| d.ji.row(i).amax() > 0.0).collect();
-        for i in 0..mi {
-            if movable[i] {
+        for (i, &can_move) in movable.iter().enumerate() {
+            if can_move {
                 rows.push(row(Some((&d.ji, i)), Some((n + 2 * me + i, -1.0))));
                 rhs.push(-self.v.ineq[i]);
             } else {
@@ -621,7 +621,7 @@ impl<'a> Sqp<'a> {
             }
             // Second-order correction of the full step: the least-norm move that meets the
             // equality constraints linearized at the trial point.
-            if alpha == 1.0
+            if alpha >= 1.0
                 && v.violation() > self.v.violation()
                 && self.evals < self.s.max_evaluations
             {
@@ -653,7 +653,7 @@ impl<'a> Sqp<'a> {
     fn accept(&mut self, x: Vec<f64>, v: Values, alpha: f64, p_len: f64) {
         self.x = x;
         self.v = v;
-        self.delta = if alpha == 1.0 {
+        self.delta = if alpha >= 1.0 {
             if p_len >= 0.99 * self.delta {
                 (2.0 * self.delta).min(self.s.max_step)
             } else {
