@@ -65,6 +65,8 @@ pub enum PointStatus {
     IterationLimit,
     /// The budget ended the search.
     BudgetExhausted,
+    /// The target is met, but the optimality test did not pass.
+    Stalled,
     /// No program met the target.
     Infeasible,
     /// The inclination cannot be reached by a direct ascent.
@@ -80,6 +82,7 @@ impl PointStatus {
             PointStatus::Converged => "converged",
             PointStatus::IterationLimit => "iteration_limit",
             PointStatus::BudgetExhausted => "budget_exhausted",
+            PointStatus::Stalled => "stalled",
             PointStatus::Infeasible => "infeasible",
             PointStatus::Unreachable => "unreachable",
             PointStatus::BadInput => "bad_input",
@@ -105,6 +108,7 @@ impl From<SolveStatus> for PointStatus {
             SolveStatus::IterationLimit => PointStatus::IterationLimit,
             SolveStatus::BudgetExhausted => PointStatus::BudgetExhausted,
             SolveStatus::Infeasible => PointStatus::Infeasible,
+            SolveStatus::Stalled => PointStatus::Stalled,
         }
     }
 }

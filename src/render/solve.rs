@@ -14,6 +14,10 @@ fn status_line(c: &Convergence) -> &'static str {
         }
         SolveStatus::IterationLimit => "SOLVED (the outer search stopped at its iteration limit)",
         SolveStatus::Infeasible => "NOT SOLVED: no program found reaches the target",
+        SolveStatus::Stalled => {
+            "NOT CONVERGED: the target is met, but no improving step was found and the \
+             optimality test did not pass"
+        }
     }
 }
 

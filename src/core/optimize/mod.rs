@@ -117,6 +117,10 @@ pub enum SolveStatus {
     IterationLimit,
     /// No program met the terminal conditions.
     Infeasible,
+    /// The terminal conditions are met, but the search found no improving step and its
+    /// first-order optimality test did not pass (the SQP method; a kink or noise in the
+    /// functions): not a verified optimum.
+    Stalled,
 }
 
 /// Convergence report.
@@ -678,6 +682,13 @@ fn reserve_pass(
     second.convergence.trajectories += first.convergence.trajectories;
     second.convergence.iterations += first.convergence.iterations;
     second.convergence.reason = first.convergence.reason.clone();
+    // The second pass holds the first pass's outer variables: it cannot vouch for them, so a
+    // first pass that stopped short of converging keeps its status.
+    if first.convergence.status != SolveStatus::Converged
+        && second.convergence.status == SolveStatus::Converged
+    {
+        second.convergence.status = first.convergence.status;
+    }
     // Report every tuned variable: the held outer ones keep the first pass's values.
     for (v, x) in &first.variables {
         if !second.variables.iter().any(|(w, _)| w == v) {
@@ -787,7 +798,7 @@ fn finish_found(ctx: &Ctx, found: nlp::Found) -> Solution {
     if found.outcome.status == sqp::Status::Stalled
         && sol.convergence.status == SolveStatus::Converged
     {
-        sol.convergence.status = SolveStatus::IterationLimit;
+        sol.convergence.status = SolveStatus::Stalled;
     }
     sol
 }
