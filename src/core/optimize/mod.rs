@@ -795,11 +795,17 @@ fn finish_found(ctx: &Ctx, found: nlp::Found) -> Solution {
         kick_bracket: None,
     };
     let mut sol = finish(ctx, best);
-    if found.outcome.status == sqp::Status::Stalled
-        && sol.convergence.status == SolveStatus::Converged
-    {
-        sol.convergence.status = SolveStatus::Stalled;
-    }
+    // The program's own verdict: its inequalities (a held max-Q limit, the last stage not running
+    // dry) count as met when below zero, which the residual test of `finish` cannot tell.
+    let met = sol.eval.reached && found.outcome.values.max_violation() <= targeting::INSERTION_TOL;
+    sol.convergence.status = match found.outcome.status {
+        _ if sol.convergence.status == SolveStatus::BudgetExhausted => SolveStatus::BudgetExhausted,
+        sqp::Status::EvaluationLimit => SolveStatus::BudgetExhausted,
+        _ if !met => SolveStatus::Infeasible,
+        sqp::Status::Converged => SolveStatus::Converged,
+        sqp::Status::IterationLimit => SolveStatus::IterationLimit,
+        sqp::Status::Stalled | sqp::Status::Infeasible => SolveStatus::Stalled,
+    };
     sol
 }
 

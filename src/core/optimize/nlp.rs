@@ -33,26 +33,36 @@ pub struct Ascent<'a> {
     unit_kg: f64,
     lo: Vec<f64>,
     hi: Vec<f64>,
+    /// The program's variable `i` is the pass's normalized variable `i` divided by `factor[i]`:
+    /// the payload moves in steps of 1 % of the liftoff mass, not of its fixed 100 kg scale.
+    factor: Vec<f64>,
 }
 
 impl<'a> Ascent<'a> {
     /// The program of `ctx`'s pass.
     pub fn new(ctx: &'a Ctx<'a>) -> Self {
-        let (mut lo, mut hi) = (Vec::new(), Vec::new());
+        let m0 = ctx.spec.base.vehicle.liftoff_mass_kg();
+        let (mut lo, mut hi, mut factor) = (Vec::new(), Vec::new(), Vec::new());
         for v in ctx.spec.inner.iter().chain(&ctx.spec.outer) {
             let (l, h) = v.bounds();
             let floor = match v {
                 Param::Coast(_) => v.get(ctx.spec.floor).unwrap_or(l),
                 _ => l,
             };
-            lo.push(floor.max(l) / v.scale());
-            hi.push(h / v.scale());
+            let k = match v {
+                Param::Payload => (0.01 * m0 / v.scale()).max(1.0),
+                _ => 1.0,
+            };
+            lo.push(floor.max(l) / v.scale() / k);
+            hi.push(h / v.scale() / k);
+            factor.push(k);
         }
         Ascent {
             ctx,
-            unit_kg: OBJECTIVE_UNIT * ctx.spec.base.vehicle.liftoff_mass_kg(),
+            unit_kg: OBJECTIVE_UNIT * m0,
             lo,
             hi,
+            factor,
         }
     }
 
@@ -60,10 +70,26 @@ impl<'a> Ascent<'a> {
         self.ctx.spec.inner.len()
     }
 
-    /// One trajectory at the full (inner then outer) vector `x`.
+    /// The bounds in the pass's normalized variables.
+    pub fn pass_bounds(&self) -> (Vec<f64>, Vec<f64>) {
+        (self.to_pass(&self.lo), self.to_pass(&self.hi))
+    }
+
+    /// The pass's normalized variables of the program's `x`.
+    fn to_pass(&self, x: &[f64]) -> Vec<f64> {
+        x.iter().zip(&self.factor).map(|(x, k)| x * k).collect()
+    }
+
+    /// The program's variables of the pass's normalized `x`.
+    fn from_pass(&self, x: &[f64]) -> Vec<f64> {
+        x.iter().zip(&self.factor).map(|(x, k)| x / k).collect()
+    }
+
+    /// One trajectory at the program's full (inner then outer) vector `x`.
     pub fn eval(&self, x: &[f64]) -> Eval {
         let k = self.n_inner();
-        self.ctx.eval(&x[k..], &x[..k])
+        let y = self.to_pass(x);
+        self.ctx.eval(&y[k..], &y[..k])
     }
 
     /// The program's values of an evaluation.
@@ -134,7 +160,7 @@ pub struct Start {
 /// The result of the search.
 #[derive(Debug, Clone)]
 pub struct Found {
-    /// Normalized variables, inner then outer.
+    /// The pass's normalized variables, inner then outer.
     pub x: Vec<f64>,
     /// Evaluation at `x`.
     pub eval: Eval,
@@ -187,15 +213,16 @@ pub fn search(prog: &Ascent, starts: Vec<Start>, o: &SolveOptions) -> Found {
         if left <= prog.dim() + 1 {
             break;
         }
-        let out = sqp::solve(prog, &start.x, &settings(left));
+        let x0 = prog.from_pass(&start.x);
+        let out = sqp::solve(prog, &x0, &settings(left));
         // The method's end point is an evaluated iterate: fly it once more only for its Eval.
-        let eval = if out.x == start.x && out.values == v0 {
+        let eval = if out.x == x0 && out.values == v0 {
             start.eval.clone()
         } else {
             prog.eval(&out.x)
         };
         let found = Found {
-            x: out.x.clone(),
+            x: prog.to_pass(&out.x),
             eval,
             outcome: out,
             starts_tried: i + 1,
@@ -220,6 +247,7 @@ pub fn search(prog: &Ascent, starts: Vec<Start>, o: &SolveOptions) -> Found {
             .map(|(l, h)| 0.5 * (l + h))
             .collect();
         let eval = prog.eval(&x);
+        let x = prog.to_pass(&x);
         Found {
             outcome: sqp::Outcome {
                 values: prog.values(&eval),

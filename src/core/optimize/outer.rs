@@ -168,7 +168,7 @@ pub fn starts(ctx: &Ctx, o: &SolveOptions) -> Vec<super::nlp::Start> {
             None => points.push(auto),
         }
     }
-    let (lo, hi) = super::sqp::Program::bounds(&super::nlp::Ascent::new(ctx));
+    let (lo, hi) = super::nlp::Ascent::new(ctx).pass_bounds();
     points
         .into_par_iter()
         .map(|x| {
