@@ -81,7 +81,7 @@ impl<'a> Ascent<'a> {
     }
 
     /// The program's variables of the pass's normalized `x`.
-    fn from_pass(&self, x: &[f64]) -> Vec<f64> {
+    fn program_x(&self, x: &[f64]) -> Vec<f64> {
         x.iter().zip(&self.factor).map(|(x, k)| x / k).collect()
     }
 
@@ -213,7 +213,7 @@ pub fn search(prog: &Ascent, starts: Vec<Start>, o: &SolveOptions) -> Found {
         if left <= prog.dim() + 1 {
             break;
         }
-        let x0 = prog.from_pass(&start.x);
+        let x0 = prog.program_x(&start.x);
         let out = sqp::solve(prog, &x0, &settings(left));
         // The method's end point is an evaluated iterate: fly it once more only for its Eval.
         let eval = if out.x == x0 && out.values == v0 {
