@@ -365,3 +365,87 @@ fn solve_json_is_byte_identical_across_runs_and_thread_counts() {
     assert_eq!(one, run("2"), "1 vs 2 threads");
     assert_eq!(one, run("2"), "second run");
 }
+
+#[test]
+fn a_byte_order_mark_is_accepted_and_an_endless_input_refused_at_once() {
+    // Issue 10: a UTF-8 BOM before the JSON is accepted; /dev/zero is read no further than the
+    // size cap (16 MiB) and refused with exit 2.
+    let dir = std::env::temp_dir().join(format!("kickturn-bom-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let demo = std::fs::read(root().join("problems/medium-2stage-leo200.json")).expect("demo");
+    let bom = dir.join("bom.json");
+    std::fs::write(&bom, [b"\xef\xbb\xbf".as_slice(), &demo].concat()).expect("written");
+    let out = kickturn(&["fly", &bom.to_string_lossy(), "--json"]);
+    assert_eq!(out.status.code(), Some(0));
+    assert_eq!(json_of(&out)["status"], "orbit");
+    if Path::new("/dev/zero").exists() {
+        let out = kickturn(&["fly", "/dev/zero"]);
+        assert_eq!(out.status.code(), Some(2));
+        assert!(String::from_utf8_lossy(&out.stderr).contains("larger than 16 MiB"));
+    }
+    std::fs::remove_dir_all(&dir).expect("cleanup");
+}
+
+#[test]
+fn numeric_options_outside_their_range_exit_2_with_the_range() {
+    // Issue 10: `--csv-step-s 1e-300` looped forever, `--max-wall-s 1e20` panicked (exit 101).
+    let demo = "problems/medium-2stage-leo200.json";
+    for (args, expect) in [
+        (
+            vec!["fly", demo, "--csv", "x.csv", "--csv-step-s", "1e-300"],
+            "--csv-step-s: must lie in [0.001, 100000] s, got 1e-300",
+        ),
+        (
+            vec!["solve", demo, "--max-wall-s", "1e20"],
+            "--max-wall-s: must lie in [0.001, 1000000], got 1e20",
+        ),
+        (
+            vec!["sweep", demo, "--azimuth", "0:10:10", "--max-wall-s", "0"],
+            "--max-wall-s: must lie in [0.001, 1000000], got 0",
+        ),
+        (
+            vec!["solve", demo, "--max-trajectories", "0"],
+            "--max-trajectories: must lie in [1, 100000000], got 0",
+        ),
+    ] {
+        let out = kickturn(&args);
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(2), "{args:?}: {err}");
+        assert!(err.contains(expect), "{args:?}: {err}");
+        assert!(out.stdout.is_empty());
+    }
+    assert!(!root().join("x.csv").exists());
+}
+
+#[test]
+fn an_escape_trajectory_is_not_an_orbit() {
+    // Issue 10: a hyperbolic escape was reported "ORBIT REACHED" with exit 0. Now status
+    // `escape`, exit 1, and the hyperbolic excess speed v∞ = √(v² − 2μ/r) (vis-viva; any
+    // orbital mechanics text, e.g. Curtis ch. 2).
+    let dir = std::env::temp_dir().join(format!("kickturn-escape-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let mut v: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json")).expect("demo"),
+    )
+    .expect("json");
+    // A payload of 100 kg and the upper stage burned to depletion: far past escape speed.
+    v["vehicle"]["payload_kg"] = 100.0.into();
+    v["ascent"]["arcs"][2]["burn"]["cutoff"] = "depletion".into();
+    v["ascent"]["arcs"][2]["burn"]["steering"]["linear_tangent"]["pitch0_deg"] = 5.0.into();
+    v["ascent"]["arcs"][2]["burn"]["steering"]["linear_tangent"]["tan_rate_per_s"] = 0.0.into();
+    let path = dir.join("escape.json");
+    std::fs::write(&path, v.to_string()).expect("written");
+    let out = kickturn(&["fly", &path.to_string_lossy(), "--json"]);
+    assert_eq!(out.status.code(), Some(1));
+    let r = json_of(&out);
+    assert_eq!(r["status"], "escape", "{}", r["orbit"]);
+    assert!(r["orbit"]["eccentricity"].as_f64().unwrap_or(0.0) >= 1.0);
+    let vinf = r["orbit"]["v_infinity_mps"].as_f64().unwrap_or(f64::NAN);
+    let rr = 6_378_137.0 + 1e3 * r["orbit"]["insertion_alt_km"].as_f64().unwrap_or(f64::NAN);
+    let vv = r["orbit"]["insertion_speed_mps"]
+        .as_f64()
+        .unwrap_or(f64::NAN);
+    let want = (vv * vv - 2.0 * 3.986_004_418e14 / rr).sqrt();
+    assert!((vinf - want).abs() < 1e-6 * want, "v∞ {vinf} vs {want}");
+    std::fs::remove_dir_all(&dir).expect("cleanup");
+}

@@ -103,12 +103,31 @@ impl Case {
     }
 }
 
-/// Checks that an optional spacing is a finite number > 0.
+/// Smallest time-history spacing, s (a 1000-s flight then records a million rows at most).
+pub const MIN_RECORD_STEP_S: f64 = 1e-3;
+/// Largest time-history spacing, s.
+pub const MAX_RECORD_STEP_S: f64 = 1e5;
+
+/// Checks that an optional spacing lies in [`MIN_RECORD_STEP_S`, `MAX_RECORD_STEP_S`].
 fn check_step(option: &'static str, v: Option<f64>) -> Result<(), Error> {
+    check_range(option, v, MIN_RECORD_STEP_S, MAX_RECORD_STEP_S)
+}
+
+/// A number as a message shows it: plain, or in exponent form when very small or large.
+pub fn show(v: f64) -> String {
+    if v != 0.0 && v.is_finite() && !(1e-3..1e7).contains(&v.abs()) {
+        format!("{v:e}")
+    } else {
+        format!("{v}")
+    }
+}
+
+/// Checks that an optional value lies in [lo, hi] (and is a number).
+fn check_range(option: &'static str, v: Option<f64>, lo: f64, hi: f64) -> Result<(), Error> {
     match v {
-        Some(s) if !(s.is_finite() && s > 0.0) => Err(Error::Option {
+        Some(s) if !(s >= lo && s <= hi) => Err(Error::Option {
             option,
-            reason: format!("must be a finite number > 0, got {s}"),
+            reason: format!("must lie in [{lo}, {hi}], got {}", show(s)),
         }),
         _ => Ok(()),
     }

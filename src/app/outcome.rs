@@ -25,6 +25,8 @@ pub enum Status {
     Orbit,
     /// Program completed but perigee below the threshold.
     Suborbital,
+    /// Program completed on an escape trajectory (eccentricity ≥ 1): not an orbit.
+    Escape,
     /// Hit the ground.
     GroundImpact,
     /// Flight-time limit reached.
@@ -52,6 +54,10 @@ pub struct OrbitSummary {
     pub flight_path_angle_deg: f64,
     /// Eccentricity.
     pub eccentricity: f64,
+    /// Hyperbolic excess speed `√(v² − 2μ/r)` of an escape trajectory, m/s (absent for an
+    /// orbit).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub v_infinity_mps: Option<f64>,
 }
 
 /// Echo of the target orbit.
@@ -181,6 +187,11 @@ pub fn orbit_summary(y: &crate::core::sim::dynamics::State) -> OrbitSummary {
         insertion_speed_mps: v.norm(),
         flight_path_angle_deg: sin_g.clamp(-1.0, 1.0).asin().to_degrees(),
         eccentricity: el.eccentricity,
+        v_infinity_mps: (el.eccentricity >= 1.0).then(|| {
+            (v.norm_squared() - 2.0 * WGS84_GM_M3_S2 / r.norm())
+                .max(0.0)
+                .sqrt()
+        }),
     }
 }
 
@@ -190,6 +201,7 @@ fn status(p: &Problem, f: &Flight, orbit: &OrbitSummary) -> Status {
         EndReason::TimeLimit => Status::TimeLimit,
         EndReason::IntegrationFailure { .. } | EndReason::EventLimit => Status::IntegrationFailure,
         EndReason::NoStageLeft { .. } => Status::NoStageLeft,
+        EndReason::Completed if orbit.apogee_alt_km.is_none() => Status::Escape,
         EndReason::Completed => {
             if orbit.perigee_alt_km * 1e3 >= p.limits.min_orbit_perigee_alt_m {
                 Status::Orbit

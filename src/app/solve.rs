@@ -8,7 +8,7 @@
 use serde::Serialize;
 
 use super::outcome::{FlightReport, Status};
-use super::{check_step, Case, Error};
+use super::{check_range, check_step, Case, Error};
 use crate::core::observe::Observer;
 use crate::core::optimize::{tune_observed, Convergence, SolveOptions, SolveStatus};
 use crate::core::problem::file::{AscentFile, LaunchFile, ProblemFile};
@@ -248,12 +248,14 @@ impl SolveSettings {
     pub fn check(&self) -> Result<(), Error> {
         check_step("record_step_s", self.record_step_s)?;
         let o = &self.solver;
-        if let Some(w) = o.max_wall_s.filter(|w| !(w.is_finite() && *w > 0.0)) {
-            return Err(Error::Option {
-                option: "max_wall_s",
-                reason: format!("must be a finite number > 0, got {w}"),
-            });
-        }
+        // A wall cap is optional: at most about eleven days, and more than a millisecond.
+        check_range("max_wall_s", o.max_wall_s, 1e-3, 1e6)?;
+        check_range(
+            "max_trajectories",
+            Some(o.max_trajectories as f64),
+            1.0,
+            1e8,
+        )?;
         let unknown = |option, given: &[String], known: &[&str]| {
             given
                 .iter()

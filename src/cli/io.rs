@@ -11,15 +11,42 @@ use kickturn::app::{Case, Observer};
 use kickturn::problem::{self, ProblemFile};
 use kickturn::render::figures::FigureFile;
 
+/// Largest problem file read, bytes (the demos are about 3 KB; a program of 200 arcs about 40 KB).
+pub const MAX_INPUT_BYTES: u64 = 16 * 1024 * 1024;
+
+/// Reads a problem file's text, at most [`MAX_INPUT_BYTES`] (so that an endless stream such as
+/// `/dev/zero` ends at once), as UTF-8.
+pub fn read_text(path: &Path) -> anyhow::Result<String> {
+    use std::io::Read;
+    let name = || format!("{}", path.display());
+    let file = std::fs::File::open(path).with_context(name)?;
+    if file.metadata().is_ok_and(|m| m.is_dir()) {
+        bail!("{}: is a folder, not a problem file", path.display());
+    }
+    let mut bytes = Vec::new();
+    file.take(MAX_INPUT_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .with_context(name)?;
+    if bytes.len() as u64 > MAX_INPUT_BYTES {
+        bail!(
+            "{}: larger than {} MiB; a problem file is a few kilobytes of JSON",
+            path.display(),
+            MAX_INPUT_BYTES / (1024 * 1024)
+        );
+    }
+    String::from_utf8(bytes)
+        .map_err(|e| anyhow::anyhow!("{}: not UTF-8 text ({e})", path.display()))
+}
+
 /// Reads, parses and validates a problem file, with the path in any error.
 pub fn load_case(path: &Path) -> anyhow::Result<Case> {
-    let text = std::fs::read_to_string(path).with_context(|| format!("{}", path.display()))?;
+    let text = read_text(path)?;
     Case::from_json(&text).with_context(|| format!("{}", path.display()))
 }
 
 /// Reads and parses a problem file (not validated); returns it with the SHA-256 of its text.
 pub fn read_file(path: &Path) -> anyhow::Result<(ProblemFile, String)> {
-    let text = std::fs::read_to_string(path).with_context(|| format!("{}", path.display()))?;
+    let text = read_text(path)?;
     let f = problem::parse(&text).with_context(|| format!("{}", path.display()))?;
     Ok((f, problem::sha256_hex(text.as_bytes())))
 }

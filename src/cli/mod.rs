@@ -68,8 +68,15 @@ pub struct StudyArgs {
 impl StudyArgs {
     /// Solve options of every point.
     pub fn options(&self) -> anyhow::Result<kickturn::optimize::SolveOptions> {
-        if let Some(w) = self.max_wall_s.filter(|w| !(w.is_finite() && *w > 0.0)) {
-            bail!("--max-wall-s: must be a finite number > 0, got {w}");
+        let o = kickturn::app::solve::SolveSettings {
+            solver: kickturn::optimize::SolveOptions {
+                max_wall_s: self.max_wall_s,
+                ..Default::default()
+            },
+            ..Default::default()
+        };
+        if let Err(kickturn::app::Error::Option { option, reason }) = o.check() {
+            bail!("--{}: {reason}", option.replace('_', "-"));
         }
         Ok(kickturn::optimize::SolveOptions {
             max_wall_s: self.max_wall_s,
@@ -306,10 +313,12 @@ fn exit_code(succeeded: bool) -> u8 {
 
 /// Checks `--csv-step-s` and returns the history spacing the outputs need.
 fn record_step(out: &FlightOutputArgs) -> anyhow::Result<Option<f64>> {
-    if !(out.csv_step_s.is_finite() && out.csv_step_s > 0.0) {
+    let (lo, hi) = (app::MIN_RECORD_STEP_S, app::MAX_RECORD_STEP_S);
+    let s = out.csv_step_s;
+    if !(s >= lo && s <= hi) {
         bail!(
-            "--csv-step-s: must be a finite number > 0, got {}",
-            out.csv_step_s
+            "--csv-step-s: must lie in [{lo}, {hi}] s, got {}",
+            app::show(s)
         );
     }
     Ok(out.record_step_s())

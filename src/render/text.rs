@@ -9,6 +9,7 @@ fn status_word(s: Status) -> &'static str {
     match s {
         Status::Orbit => "ORBIT REACHED",
         Status::Suborbital => "NOT IN ORBIT (suborbital)",
+        Status::Escape => "NOT IN ORBIT (escape trajectory)",
         Status::GroundImpact => "NOT IN ORBIT (ground impact)",
         Status::TimeLimit => "NOT IN ORBIT (flight-time limit)",
         Status::IntegrationFailure => "NOT IN ORBIT (integration failure)",
@@ -31,7 +32,9 @@ fn verdict(r: &FlightReport, s: &mut String) {
     let _ = writeln!(
         s,
         "{}: perigee × apogee {:.1} × {} km, inclination {:.3}°; propellant remaining {:.0} kg",
-        status_word(r.status),
+        status_word(r.status).to_string()
+            + &o.v_infinity_mps
+                .map_or(String::new(), |v| format!(", v∞ {:.3} km/s", v / 1e3)),
         o.perigee_alt_km,
         apo,
         o.inclination_deg,

@@ -210,9 +210,13 @@ impl Problem {
 }
 
 /// Parses problem JSON into the raw file mirror; errors carry the JSON path of the field.
+/// A problem must be exactly one JSON value: anything after it (a second problem, a stray `}`
+/// that closed the document early) is refused with its line and column. A UTF-8 byte order mark
+/// at the start is accepted.
 pub fn parse(text: &str) -> Result<ProblemFile, ProblemError> {
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     let de = &mut serde_json::Deserializer::from_str(text);
-    serde_path_to_error::deserialize(de).map_err(|e| {
+    let file: ProblemFile = serde_path_to_error::deserialize(&mut *de).map_err(|e| {
         let path = e.path().to_string();
         ProblemError::Format {
             path: if path.is_empty() || path == "?" {
@@ -222,7 +226,17 @@ pub fn parse(text: &str) -> Result<ProblemFile, ProblemError> {
             },
             message: with_hint(&e.into_inner().to_string()),
         }
-    })
+    })?;
+    de.end().map_err(|e| ProblemError::Format {
+        path: "(document)".into(),
+        message: format!(
+            "text after the problem's closing brace at line {} column {}: a problem file holds \
+             exactly one JSON object (a stray `}}` before it ends the document early)",
+            e.line(),
+            e.column()
+        ),
+    })?;
+    Ok(file)
 }
 
 /// Adds "did you mean `x`?" to serde's unknown-field and unknown-variant messages, choosing the

@@ -22,6 +22,24 @@ fn num(x: f64) -> String {
     }
 }
 
+/// Most arcs in a program: each arc is flown as its own segments, and a flight stops as runaway
+/// after 10 000 segments.
+pub const MAX_ARCS: usize = 200;
+/// Most points in a C_D(Mach) table.
+pub const MAX_CD_POINTS: usize = 500;
+/// Most stages.
+pub const MAX_STAGES: usize = 20;
+/// Most jettisoned items.
+pub const MAX_JETTISONS: usize = 50;
+
+/// Refuses a list longer than `max`, naming the field and why.
+fn at_most(field: &str, len: usize, max: usize, why: &str) -> R<()> {
+    if len > max {
+        return bad(field, format!("{len} entries; at most {max} ({why})"));
+    }
+    Ok(())
+}
+
 fn bad<T>(field: &str, reason: impl Into<String>) -> R<T> {
     Err(ProblemError::invalid(field, reason))
 }
@@ -46,6 +64,9 @@ pub fn validate(f: &ProblemFile) -> R<Problem> {
     let environment = environment(&f.model);
     let integrator = integrator(&f.model)?;
     let limits = limits(&f.limits)?;
+    if let Some(t) = &target {
+        check_target_floor(t, &limits, f.target.as_ref())?;
+    }
     check_liftoff_thrust(&vehicle, &site, &environment)?;
     let (azimuth_rad, azimuth_source) = azimuth(&f.launch, &site, target.as_ref())?;
     Ok(Problem {
@@ -123,6 +144,29 @@ fn target(t: &TargetFile) -> R<Target> {
     })
 }
 
+/// A target whose perigee lies below the orbit floor (`limits.min_orbit_perigee_alt_km`, 100 km by
+/// default: common practice, below it an orbit decays within a few revolutions) would be
+/// "reached" by a flight the reports call suborbital: refused.
+fn check_target_floor(t: &Target, l: &Limits, file: Option<&TargetFile>) -> R<()> {
+    if t.perigee_alt_m >= l.min_orbit_perigee_alt_m {
+        return Ok(());
+    }
+    let field = if file.is_some_and(|f| f.perigee_alt_km.is_some()) {
+        "target.perigee_alt_km"
+    } else {
+        "target"
+    };
+    bad(
+        field,
+        format!(
+            "perigee {:.1} km is below the orbit floor limits.min_orbit_perigee_alt_km = {:.1} km \
+             (a perigee that low is not an orbit; lower the floor deliberately if you mean it)",
+            t.perigee_alt_m / 1e3,
+            l.min_orbit_perigee_alt_m / 1e3
+        ),
+    )
+}
+
 /// Apsides (km) of the orbit through an insertion state (two-body; altitudes r − 6378.137 km).
 fn insertion_state(h_km: f64, v: f64, g_deg: f64) -> R<(f64, f64, Insertion)> {
     let h = range("target.insertion_alt_km", h_km, 80.0, 1.0e5, true)?;
@@ -160,6 +204,12 @@ fn insertion_state(h_km: f64, v: f64, g_deg: f64) -> R<(f64, f64, Insertion)> {
 
 fn aero(path: &str, a: &AeroFile) -> R<DragTable> {
     positive(&format!("{path}.ref_area_m2"), a.ref_area_m2)?;
+    at_most(
+        &format!("{path}.cd_mach"),
+        a.cd_mach.len(),
+        MAX_CD_POINTS,
+        "a drag table needs tens of points",
+    )?;
     if a.cd_mach.is_empty() {
         return bad(
             &format!("{path}.cd_mach"),
@@ -270,6 +320,18 @@ fn jettison(i: usize, j: &JettisonFile) -> R<Jettison> {
 
 fn vehicle(v: &VehicleFile) -> R<Vehicle> {
     let payload_kg = range("vehicle.payload_kg", v.payload_kg, 0.0, 1e8, true)?;
+    at_most(
+        "vehicle.stages",
+        v.stages.len(),
+        MAX_STAGES,
+        "a launch vehicle",
+    )?;
+    at_most(
+        "vehicle.jettisons",
+        v.jettisons.len(),
+        MAX_JETTISONS,
+        "each jettison is an event of the flight",
+    )?;
     if v.stages.is_empty() {
         return bad("vehicle.stages", "needs at least one stage");
     }
@@ -361,6 +423,12 @@ fn arc(i: usize, a: &ArcFile, has_target: bool) -> R<Arc> {
 }
 
 fn program(a: &AscentFile, v: &Vehicle, has_target: bool) -> R<Program> {
+    at_most(
+        "ascent.arcs",
+        a.arcs.len(),
+        MAX_ARCS,
+        "each arc is flown as its own segments, and a flight stops as runaway after 10 000",
+    )?;
     if a.arcs.is_empty() {
         return bad("ascent.arcs", "needs at least one arc; the first is a burn");
     }

@@ -7,6 +7,9 @@ use super::{pitch_heading_dir, ActiveLaw, ArcStart, SteeringLaw};
 use crate::core::error::ProblemError;
 use crate::core::physics::environment::Local;
 
+/// Most nodes in a pitch table (every node ends a segment of the flight).
+pub const MAX_NODES: usize = 2000;
+
 /// Pitch against time since liftoff, linear between nodes, held beyond the ends.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PitchTable {
@@ -37,6 +40,16 @@ impl PitchTable {
 
     /// Validates `[time_s, pitch_deg]` pairs at JSON path `path`.
     pub fn from_file(path: &str, pts: &[[f64; 2]]) -> Result<PitchTable, ProblemError> {
+        let max = MAX_NODES;
+        if pts.len() > max {
+            return Err(ProblemError::invalid(
+                path,
+                format!(
+                    "{} nodes; at most {max} (every node ends a segment of the flight)",
+                    pts.len()
+                ),
+            ));
+        }
         if pts.is_empty() {
             return Err(ProblemError::invalid(
                 path,
