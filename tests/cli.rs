@@ -449,3 +449,47 @@ fn an_escape_trajectory_is_not_an_orbit() {
     assert!((vinf - want).abs() < 1e-6 * want, "v∞ {vinf} vs {want}");
     std::fs::remove_dir_all(&dir).expect("cleanup");
 }
+
+#[test]
+fn names_with_markup_and_control_characters_give_well_formed_figures_and_pages() {
+    // Issue 10: a vehicle name with markup and control characters made every SVG invalid XML.
+    // XML 1.0 (5th ed.) §2.2 allows no control characters but tab, CR and LF.
+    let dir = std::env::temp_dir().join(format!("kickturn-xml-{}", std::process::id()));
+    let plot = dir.join("figs");
+    let page = dir.join("r.html");
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let out = kickturn(&[
+        "fly",
+        "tests/data/markup-and-control-names.json",
+        "--plot",
+        &plot.to_string_lossy(),
+        "--report",
+        &page.to_string_lossy(),
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let mut files: Vec<PathBuf> = std::fs::read_dir(&plot)
+        .map(|d| d.filter_map(Result::ok).map(|e| e.path()).collect())
+        .unwrap_or_default();
+    files.retain(|p| p.extension().is_some_and(|e| e == "svg"));
+    files.push(page);
+    assert!(files.len() >= 8);
+    for f in files {
+        let text = std::fs::read_to_string(&f).expect("utf-8 text");
+        let bad = text
+            .chars()
+            .find(|c| c.is_control() && !matches!(c, '\t' | '\n' | '\r'));
+        assert!(bad.is_none(), "{}: control character {bad:?}", f.display());
+        assert!(
+            text.contains("V&lt;b&gt;"),
+            "{}: markup not escaped",
+            f.display()
+        );
+        assert!(!text.contains("V<b>"), "{}: raw markup", f.display());
+    }
+    std::fs::remove_dir_all(&dir).expect("cleanup");
+}

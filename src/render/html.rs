@@ -10,9 +10,11 @@ use crate::core::budget::Budget;
 use crate::core::sim::Flight;
 
 fn esc(s: &str) -> String {
-    s.replace('&', "&amp;")
+    super::plots::printable(s)
+        .replace('&', "&amp;")
         .replace('<', "&lt;")
         .replace('>', "&gt;")
+        .replace('"', "&quot;")
 }
 
 fn budget_rows(b: &Budget, s: &mut String) {

@@ -1034,12 +1034,31 @@ fn text_width<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, text: &str, px:
 }
 
 /// `text` cut at the end with "…" so that it is at most `max_w` px wide.
+/// `text` with every character XML 1.0 cannot carry (control characters other than tab and line
+/// breaks, surrogates are impossible in `str`, and the non-characters U+FFFE and U+FFFF)
+/// replaced by U+FFFD, so that a name from the problem file always gives well-formed SVG
+/// (XML 1.0, 5th ed., §2.2 "Characters"). Markup characters are escaped by the SVG backend.
+pub fn printable(text: &str) -> String {
+    text.chars()
+        .map(|c| {
+            let allowed = matches!(c, '\t' | '\n' | '\r')
+                || (!c.is_control() && c != '\u{fffe}' && c != '\u{ffff}');
+            if allowed {
+                c
+            } else {
+                '\u{fffd}'
+            }
+        })
+        .collect()
+}
+
 fn fit_text<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     text: &str,
     px: u32,
     max_w: u32,
 ) -> String {
+    let text = &printable(text);
     let mut chars: Vec<char> = text.chars().take(MAX_CHARS).collect();
     let mut out: String = chars.iter().collect();
     if chars.len() < text.chars().count() {
