@@ -493,3 +493,92 @@ fn names_with_markup_and_control_characters_give_well_formed_figures_and_pages()
     }
     std::fs::remove_dir_all(&dir).expect("cleanup");
 }
+
+#[test]
+fn outputs_are_checked_before_any_work_and_never_destroy_data() {
+    // Issue 10: an output over any input, two outputs on one path, a missing folder, a symbolic
+    // link or a device: exit 2 before anything is computed, nothing on stdout, nothing written.
+    let dir = std::env::temp_dir().join(format!("kickturn-outputs-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let a = dir.join("a.json");
+    let b = dir.join("b.json");
+    std::fs::copy(root().join("problems/medium-2stage-leo200.json"), &a).expect("copy");
+    std::fs::copy(root().join("problems/heavy-boosters-iss51.json"), &b).expect("copy");
+    let b_before = std::fs::read(&b).expect("read");
+    let s = |p: &Path| p.to_string_lossy().to_string();
+    let y = s(&dir.join("y.json"));
+    let cases: Vec<(Vec<String>, &str)> = vec![
+        (
+            vec!["compare".into(), s(&a), s(&b), "--csv".into(), s(&b)],
+            "is an input file",
+        ),
+        (
+            vec![
+                "solve".into(),
+                s(&a),
+                "--write-program".into(),
+                y.clone(),
+                "--csv".into(),
+                y,
+            ],
+            "the same path as",
+        ),
+        (
+            vec![
+                "solve".into(),
+                s(&a),
+                "--csv".into(),
+                s(&dir.join("nodir/x.csv")),
+            ],
+            "does not exist",
+        ),
+    ];
+    for (args, expect) in &cases {
+        let args: Vec<&str> = args.iter().map(String::as_str).collect();
+        let out = kickturn(&args);
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(2), "{args:?}: {err}");
+        assert!(err.contains(expect), "{args:?}: {err}");
+        assert!(out.stdout.is_empty(), "{args:?}: the work ran");
+    }
+    assert_eq!(
+        std::fs::read(&b).expect("read"),
+        b_before,
+        "an input was replaced"
+    );
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        // A symbolic link is refused, its target untouched.
+        let target = dir.join("target.csv");
+        std::fs::write(&target, "keep").expect("written");
+        let link = dir.join("link.csv");
+        std::os::unix::fs::symlink(&target, &link).expect("symlink");
+        let out = kickturn(&["fly", &s(&a), "--csv", &s(&link)]);
+        assert_eq!(out.status.code(), Some(2));
+        assert!(String::from_utf8_lossy(&out.stderr).contains("is a symbolic link"));
+        assert_eq!(std::fs::read_to_string(&target).expect("read"), "keep");
+        // A replaced file keeps its mode.
+        let m = dir.join("m.csv");
+        std::fs::write(&m, "old").expect("written");
+        std::fs::set_permissions(&m, std::fs::Permissions::from_mode(0o600)).expect("chmod");
+        let out = kickturn(&["fly", &s(&a), "--csv", &s(&m)]);
+        assert_eq!(out.status.code(), Some(0));
+        let mode = std::fs::metadata(&m).expect("meta").permissions().mode() & 0o777;
+        assert_eq!(mode, 0o600);
+        assert!(std::fs::read_to_string(&m)
+            .expect("read")
+            .starts_with("t_s,"));
+    }
+    // No temporary file is left behind.
+    let leftovers: Vec<_> = std::fs::read_dir(&dir)
+        .map(|d| d.filter_map(Result::ok).map(|e| e.file_name()).collect())
+        .unwrap_or_default();
+    assert!(
+        !leftovers
+            .iter()
+            .any(|n| n.to_string_lossy().contains(".tmp")),
+        "{leftovers:?}"
+    );
+    std::fs::remove_dir_all(&dir).expect("cleanup");
+}

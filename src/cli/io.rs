@@ -61,15 +61,96 @@ pub fn emit(text: &str) -> anyhow::Result<()> {
     }
 }
 
-/// Writes `bytes` to `path` atomically (temporary file in the same folder, then rename); refuses
-/// to write over the input file.
-pub fn write_atomic(path: &Path, input: &Path, bytes: &[u8]) -> anyhow::Result<()> {
-    use std::io::Write;
-    if let (Ok(a), Ok(b)) = (path.canonicalize(), input.canonicalize()) {
-        if a == b {
-            bail!("{}: refusing to write over the input file", path.display());
+/// What an output path will hold.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum OutputKind {
+    /// A file, written atomically.
+    File,
+    /// A folder of figures (created when missing).
+    Folder,
+}
+
+/// Checks every output of a command before any work (issue 10; docs: README "Outputs"):
+/// - an output is never an input file, and no two outputs share a path;
+/// - its folder must exist (a figure folder itself is created when missing);
+/// - an existing output must be a regular file (a folder for figures): a symbolic link, FIFO or
+///   device is refused rather than replaced.
+pub fn check_outputs(
+    inputs: &[&Path],
+    outputs: &[(&str, &Path, OutputKind)],
+) -> anyhow::Result<()> {
+    let canon = |p: &Path| -> std::path::PathBuf {
+        // The folder resolved, the name kept: a path that does not exist yet still compares.
+        let dir = p
+            .parent()
+            .filter(|d| !d.as_os_str().is_empty())
+            .unwrap_or(Path::new("."));
+        match (dir.canonicalize(), p.file_name()) {
+            (Ok(d), Some(n)) => d.join(n),
+            _ => p.to_path_buf(),
+        }
+    };
+    let ins: Vec<std::path::PathBuf> = inputs.iter().map(|p| canon(p)).collect();
+    let mut seen: Vec<(std::path::PathBuf, &str)> = Vec::new();
+    for (flag, path, kind) in outputs {
+        let c = canon(path);
+        if ins.contains(&c) {
+            bail!(
+                "{flag} {}: is an input file; refusing to write over it",
+                path.display()
+            );
+        }
+        if let Some((_, other)) = seen.iter().find(|(p, _)| *p == c) {
+            bail!(
+                "{flag} {}: the same path as {other}; give each output its own",
+                path.display()
+            );
+        }
+        seen.push((c, flag));
+        let dir = path
+            .parent()
+            .filter(|d| !d.as_os_str().is_empty())
+            .unwrap_or(Path::new("."));
+        if !dir.is_dir() {
+            bail!(
+                "{flag} {}: folder {} does not exist (kickturn creates no folder but a figure \
+                 folder itself)",
+                path.display(),
+                dir.display()
+            );
+        }
+        if let Ok(meta) = std::fs::symlink_metadata(path) {
+            let t = meta.file_type();
+            let ok = match kind {
+                OutputKind::File => t.is_file(),
+                OutputKind::Folder => t.is_dir(),
+            };
+            if !ok {
+                let what = if t.is_symlink() {
+                    "a symbolic link"
+                } else if t.is_dir() {
+                    "a folder"
+                } else if t.is_file() {
+                    "a file"
+                } else {
+                    "a special file (FIFO, socket or device)"
+                };
+                bail!(
+                    "{flag} {}: is {what}; kickturn replaces only {} (give another path)",
+                    path.display(),
+                    match kind {
+                        OutputKind::File => "regular files",
+                        OutputKind::Folder => "folders",
+                    }
+                );
+            }
         }
     }
+    Ok(())
+}
+
+/// The temporary file beside `path` that an atomic write goes through.
+fn temporary(path: &Path) -> anyhow::Result<std::path::PathBuf> {
     let dir = path
         .parent()
         .filter(|d| !d.as_os_str().is_empty())
@@ -77,29 +158,66 @@ pub fn write_atomic(path: &Path, input: &Path, bytes: &[u8]) -> anyhow::Result<(
     let name = path
         .file_name()
         .with_context(|| format!("{}: not a file name", path.display()))?;
-    let tmp = dir.join(format!(
+    Ok(dir.join(format!(
         ".{}.tmp{}",
         name.to_string_lossy(),
         std::process::id()
-    ));
-    let result = (|| {
-        let mut f = std::fs::File::create(&tmp)
-            .with_context(|| format!("cannot create {}", tmp.display()))?;
-        f.write_all(bytes)?;
-        f.sync_all()?;
-        std::fs::rename(&tmp, path).with_context(|| format!("cannot write {}", path.display()))
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_file(&tmp);
-    }
-    result
+    )))
 }
 
-/// Writes figures into `dir` (created when missing), each file atomically.
+/// Writes `bytes` to a temporary file beside `path`, with the mode of the file it will replace.
+fn write_temporary(path: &Path, bytes: &[u8]) -> anyhow::Result<std::path::PathBuf> {
+    use std::io::Write;
+    let tmp = temporary(path)?;
+    let result = (|| -> std::io::Result<()> {
+        let mut f = std::fs::File::create(&tmp)?;
+        f.write_all(bytes)?;
+        if let Ok(meta) = std::fs::metadata(path) {
+            f.set_permissions(meta.permissions())?;
+        }
+        f.sync_all()
+    })();
+    if let Err(e) = result {
+        let _ = std::fs::remove_file(&tmp);
+        bail!("cannot write {}: {e}", path.display());
+    }
+    Ok(tmp)
+}
+
+/// Writes `bytes` to `path` atomically (temporary file in the same folder, then rename), keeping
+/// the replaced file's mode; refuses to write over the input file.
+pub fn write_atomic(path: &Path, input: &Path, bytes: &[u8]) -> anyhow::Result<()> {
+    check_outputs(&[input], &[("output", path, OutputKind::File)])?;
+    let tmp = write_temporary(path, bytes)?;
+    std::fs::rename(&tmp, path).map_err(|e| {
+        let _ = std::fs::remove_file(&tmp);
+        anyhow::anyhow!("cannot write {}: {e}", path.display())
+    })
+}
+
+/// Writes figures into `dir` (created when missing) as a set: every file is written to a
+/// temporary file first, and only when all are written are they renamed into place.
 pub fn write_figures(dir: &Path, input: &Path, files: &[FigureFile]) -> anyhow::Result<()> {
+    check_outputs(&[input], &[("--plot", dir, OutputKind::Folder)])?;
     std::fs::create_dir_all(dir).with_context(|| format!("cannot create {}", dir.display()))?;
+    let mut written = Vec::new();
     for f in files {
-        write_atomic(&dir.join(&f.name), input, &f.bytes)?;
+        let path = dir.join(&f.name);
+        match write_temporary(&path, &f.bytes) {
+            Ok(tmp) => written.push((tmp, path)),
+            Err(e) => {
+                for (tmp, _) in &written {
+                    let _ = std::fs::remove_file(tmp);
+                }
+                return Err(e);
+            }
+        }
+    }
+    for (tmp, path) in written {
+        std::fs::rename(&tmp, &path).map_err(|e| {
+            let _ = std::fs::remove_file(&tmp);
+            anyhow::anyhow!("cannot write {}: {e}", path.display())
+        })?;
     }
     Ok(())
 }

@@ -19,7 +19,7 @@ use clap::{Parser, Subcommand};
 use kickturn::app::{self, fly::FlyOptions};
 use kickturn::render;
 
-pub use io::{emit, load_case, write_atomic};
+pub use io::{check_outputs, emit, load_case, write_atomic, OutputKind};
 
 /// kickturn: ascent pitch-program optimizer with an exact ΔV loss budget.
 #[derive(Debug, Parser)]
@@ -324,8 +324,31 @@ fn record_step(out: &FlightOutputArgs) -> anyhow::Result<Option<f64>> {
     Ok(out.record_step_s())
 }
 
+/// Checks the outputs of `fly` and `solve` (`extra`: `--write-program`) before any work.
+fn check_flight_outputs(
+    out: &FlightOutputArgs,
+    input: &std::path::Path,
+    extra: Option<&std::path::Path>,
+) -> anyhow::Result<()> {
+    let mut outputs: Vec<(&str, &std::path::Path, OutputKind)> = Vec::new();
+    if let Some(p) = &out.csv {
+        outputs.push(("--csv", p, OutputKind::File));
+    }
+    if let Some(p) = &out.report {
+        outputs.push(("--report", p, OutputKind::File));
+    }
+    if let Some(p) = &out.plot {
+        outputs.push(("--plot", p, OutputKind::Folder));
+    }
+    if let Some(p) = extra {
+        outputs.push(("--write-program", p, OutputKind::File));
+    }
+    check_outputs(&[input], &outputs)
+}
+
 fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
     let record_step_s = record_step(&a.out)?;
+    check_flight_outputs(&a.out, &a.problem, None)?;
     let case = load_case(&a.problem)?;
     let run = match app::fly::fly(&case, &FlyOptions { record_step_s }) {
         Ok(r) => r,

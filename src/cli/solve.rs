@@ -37,6 +37,7 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
             other => return Err(other.into()),
         }
     }
+    super::check_flight_outputs(&a.out, &a.problem, a.write_program.as_deref())?;
     let case = load_case(&a.problem)?;
     let run = match solve(&case, &settings, &Progress::new()) {
         Ok(r) => r,

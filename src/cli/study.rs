@@ -11,7 +11,9 @@ use kickturn::problem::ProblemFile;
 use kickturn::render;
 
 use super::exit_code;
-use super::io::{emit, read_file, write_atomic, write_figures, Progress};
+use super::io::{
+    check_outputs, emit, read_file, write_atomic, write_figures, OutputKind, Progress,
+};
 
 /// Prints `report` as JSON or as the text `table`.
 fn print<T: serde::Serialize>(
@@ -45,6 +47,14 @@ pub fn run_sweep(
 ) -> anyhow::Result<u8> {
     let values =
         study::parse_range(range).map_err(|e| anyhow::anyhow!("--{}: {e}", axis_flag(axis)))?;
+    let mut outputs = Vec::new();
+    if let Some(p) = csv_path {
+        outputs.push(("--csv", p.as_path(), OutputKind::File));
+    }
+    if let Some(p) = plot {
+        outputs.push(("--plot", p.as_path(), OutputKind::Folder));
+    }
+    check_outputs(&[problem], &outputs)?;
     let (file, sha) = read_valid(problem)?;
     let report = SweepReport::run(&file, sha, axis, &values, opts, &Progress::new());
     if let Some(path) = csv_path {
@@ -78,6 +88,10 @@ pub fn run_compare(
     if files.len() < 2 {
         bail!("compare: give at least two problem files");
     }
+    let inputs: Vec<&Path> = files.iter().map(PathBuf::as_path).collect();
+    if let Some(p) = csv_path {
+        check_outputs(&inputs, &[("--csv", p.as_path(), OutputKind::File)])?;
+    }
     let read: Vec<(ProblemFile, String)> = files
         .iter()
         .map(|p| read_file(p))
@@ -99,6 +113,9 @@ pub fn run_trade(
     json: bool,
     csv_path: Option<&PathBuf>,
 ) -> anyhow::Result<u8> {
+    if let Some(p) = csv_path {
+        check_outputs(&[problem], &[("--csv", p.as_path(), OutputKind::File)])?;
+    }
     let (file, sha) = read_valid(problem)?;
     let report = TradeReport::run(&file, sha, opts, &Progress::new());
     if let Some(path) = csv_path {
