@@ -67,6 +67,9 @@ pub enum PointStatus {
     BudgetExhausted,
     /// The target is met, but the optimality test did not pass.
     Stalled,
+    /// The search ended, but the flight of the tuned program does not reach orbit or the target
+    /// (the same rule as `solve`'s exit code).
+    NotReached,
     /// No program met the target.
     Infeasible,
     /// The inclination cannot be reached by a direct ascent.
@@ -83,6 +86,7 @@ impl PointStatus {
             PointStatus::IterationLimit => "iteration_limit",
             PointStatus::BudgetExhausted => "budget_exhausted",
             PointStatus::Stalled => "stalled",
+            PointStatus::NotReached => "not_reached",
             PointStatus::Infeasible => "infeasible",
             PointStatus::Unreachable => "unreachable",
             PointStatus::BadInput => "bad_input",
@@ -174,7 +178,11 @@ pub fn solve_file(file: &ProblemFile, value: f64, opts: &SolveOptions) -> Point 
     match solve(&case, &settings, &crate::core::observe::Silent) {
         Ok(run) => Point {
             value,
-            status: run.report.convergence.status.into(),
+            status: match PointStatus::from(run.report.convergence.status) {
+                // Solved as `solve` says it: the written program's flight meets the target.
+                s if s.is_solved() && !run.report.succeeded() => PointStatus::NotReached,
+                s => s,
+            },
             message: None,
             report: Some(Box::new(run.report)),
         },
