@@ -236,8 +236,25 @@ impl Ctx<'_> {
         p
     }
 
-    /// Flies and evaluates one program.
+    /// Flies and evaluates one program. Past the optional wall-time cap nothing is flown: the
+    /// evaluation fails at once (residuals at 1e6), so the cap holds within one trajectory's
+    /// time however many evaluations a search has under way.
     pub fn eval(&self, outer: &[f64], inner: &[f64]) -> Eval {
+        if self.past_deadline() {
+            return Eval {
+                residuals: vec![
+                    1e6;
+                    targeting::residual_count(&self.spec.target, self.spec.q_limit)
+                ],
+                propellant_used_kg: f64::INFINITY,
+                reached: false,
+                apogee_alt_m: f64::NAN,
+                shortfall: 1.0,
+                max_q_pa: f64::NAN,
+                payload_kg: self.spec.base.vehicle.payload_kg,
+                payload_mode: self.max_payload,
+            };
+        }
         self.flights.fetch_add(1, Ordering::Relaxed);
         targeting::evaluate(
             &self.problem_with(outer, inner),
