@@ -156,6 +156,34 @@ pub struct Outcome {
     pub stationarity: f64,
 }
 
+/// Solves the convex QP `min ½zᵀPz + qᵀz` s.t. the first `n_eq` rows hold with equality and the
+/// others as `row · z ≤ rhs`, with Clarabel (quiet: the library never prints). Returns the
+/// solution and the constraint duals, or `None` when the solver does not report a solution.
+fn solve_qp(
+    p_upper: &[Vec<f64>],
+    q: &[f64],
+    rows: &[Vec<f64>],
+    rhs: &[f64],
+    n_eq: usize,
+) -> Option<(Vec<f64>, Vec<f64>)> {
+    let cones = [ZeroConeT(n_eq), NonnegativeConeT(rows.len() - n_eq)];
+    let settings = DefaultSettings::<f64> {
+        verbose: false,
+        max_iter: 100,
+        ..DefaultSettings::default()
+    };
+    let pm = CscMatrix::from(p_upper);
+    let am = CscMatrix::from(rows);
+    let mut solver = DefaultSolver::new(&pm, q, &am, rhs, &cones, settings).ok()?;
+    solver.solve();
+    let sol = &solver.solution;
+    matches!(
+        sol.status,
+        SolverStatus::Solved | SolverStatus::AlmostSolved
+    )
+    .then(|| (sol.x.clone(), sol.z.clone()))
+}
+
 /// Solves `prog` from `x0` (clamped into the bounds).
 pub fn solve(prog: &dyn Program, x0: &[f64], s: &Settings) -> Outcome {
     Sqp::new(prog, x0, s).run()
@@ -490,13 +518,37 @@ impl<'a> Sqp<'a> {
         // long as it exceeds the multipliers (checked in the line search).
         let rho = self.rho * d.g.amax().max(1.0);
         // P: the BFGS matrix on p (upper triangle), zero on the slacks.
-        let mut p_dense = vec![vec![0.0; nz]; nz];
-        for (i, row) in p_dense.iter_mut().enumerate().take(n) {
+        let mut p_upper = vec![vec![0.0; nz]; nz];
+        for (i, row) in p_upper.iter_mut().enumerate().take(n) {
             for (j, e) in row.iter_mut().enumerate().take(n).skip(i) {
                 *e = self.b[(i, j)];
             }
         }
         let q: Vec<f64> = (0..nz).map(|j| if j < n { d.g[j] } else { rho }).collect();
+        // An inequality the step cannot change (a zero Jacobian row) is left to its slack: its
+        // multiplier would be arbitrary.
+        let movable: Vec<bool> = (0..mi).map(|i| d.ji.row(i).amax() > 0.0).collect();
+        let (rows, rhs) = self.elastic_rows(d, &movable);
+        let (z, duals) = solve_qp(&p_upper, &q, &rows, &rhs, me)?;
+        Some(Step {
+            p: DVector::from_iterator(n, z[..n].iter().copied()),
+            lam_eq: duals[..me].to_vec(),
+            lam_in: duals[me..me + mi]
+                .iter()
+                .zip(&movable)
+                .map(|(z, m)| if *m { *z } else { 0.0 })
+                .collect(),
+            lin_violation: z[n..].iter().map(|s| s.max(0.0)).sum(),
+        })
+    }
+
+    /// The subproblem's constraint rows over `[p, v, w, t]` and their right-hand sides: first the
+    /// equalities `J_E p − v + w = −c_E`, then (as `row · z ≤ rhs`) `J_I p − t ≤ −c_I`, the step
+    /// box and bounds on `p`, and the slacks `≥ 0`.
+    fn elastic_rows(&self, d: &Derivs, movable: &[bool]) -> (Vec<Vec<f64>>, Vec<f64>) {
+        let n = self.x.len();
+        let (me, mi) = (self.v.eq.len(), self.v.ineq.len());
+        let nz = n + 2 * me + mi;
         // A row: the Jacobian row `jac` on p, `slack` at column `k`.
         let row = |jac: Option<(&DMatrix<f64>, usize)>, k: Option<(usize, f64)>| {
             let mut r = vec![0.0; nz];
@@ -512,25 +564,20 @@ impl<'a> Sqp<'a> {
         };
         let mut rows: Vec<Vec<f64>> = Vec::new();
         let mut rhs: Vec<f64> = Vec::new();
-        // Equalities: J_E p − v + w = −c_E.
         for i in 0..me {
             let mut r = row(Some((&d.je, i)), Some((n + i, -1.0)));
             r[n + me + i] = 1.0;
             rows.push(r);
             rhs.push(-self.v.eq[i]);
         }
-        // Inequalities (Az ≤ b): J_I p − t ≤ −c_I, step box and bounds, slacks ≥ 0. An
-        // inequality the step cannot change (a zero Jacobian row) is left to its slack: its
-        // multiplier would be arbitrary.
-        let movable: Vec<bool> = (0..mi).map(|i| d.ji.row(i).amax() > 0.0).collect();
         for (i, &can_move) in movable.iter().enumerate() {
-            if can_move {
-                rows.push(row(Some((&d.ji, i)), Some((n + 2 * me + i, -1.0))));
-                rhs.push(-self.v.ineq[i]);
+            let jac = can_move.then_some((&d.ji, i));
+            rows.push(row(jac, Some((n + 2 * me + i, -1.0))));
+            rhs.push(if can_move {
+                -self.v.ineq[i]
             } else {
-                rows.push(row(None, Some((n + 2 * me + i, -1.0))));
-                rhs.push(-self.v.ineq[i].max(0.0));
-            }
+                -self.v.ineq[i].max(0.0)
+            });
         }
         for j in 0..n {
             rows.push(row(None, Some((j, 1.0))));
@@ -542,37 +589,7 @@ impl<'a> Sqp<'a> {
             rows.push(row(None, Some((k, -1.0))));
             rhs.push(0.0);
         }
-        let pm = CscMatrix::from(&p_dense);
-        let am = CscMatrix::from(&rows);
-        let cones = [ZeroConeT(me), NonnegativeConeT(rows.len() - me)];
-        // Quiet: the library never prints.
-        let settings = DefaultSettings::<f64> {
-            verbose: false,
-            max_iter: 100,
-            ..DefaultSettings::default()
-        };
-        let mut solver = DefaultSolver::new(&pm, &q, &am, &rhs, &cones, settings).ok()?;
-        solver.solve();
-        let sol = &solver.solution;
-        if !matches!(
-            sol.status,
-            SolverStatus::Solved | SolverStatus::AlmostSolved
-        ) {
-            return None;
-        }
-        let z = &sol.x;
-        let p = DVector::from_iterator(n, z[..n].iter().copied());
-        let lin_violation = z[n..].iter().map(|s| s.max(0.0)).sum();
-        Some(Step {
-            p,
-            lam_eq: sol.z[..me].to_vec(),
-            lam_in: sol.z[me..me + mi]
-                .iter()
-                .zip(&movable)
-                .map(|(z, m)| if *m { *z } else { 0.0 })
-                .collect(),
-            lin_violation,
-        })
+        (rows, rhs)
     }
 
     /// ℓ1 merit at values `v` with penalty `mu`.
