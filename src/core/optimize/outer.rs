@@ -143,19 +143,7 @@ pub fn starts(ctx: &Ctx, o: &SolveOptions) -> Vec<super::nlp::Start> {
     if o.scan {
         let mut p = ctx.spec.base.clone();
         auto_laws(ctx, &mut p);
-        let mut jitter = o.perturb_seed.map(SplitMix64::new);
-        if let Some(j) = jitter.as_mut() {
-            for a in p.program.arcs.iter_mut() {
-                if let Arc::Burn {
-                    steering: Steering::LinearTangent(lt),
-                    ..
-                } = a
-                {
-                    lt.pitch0_rad *= j.factor(0.3);
-                    lt.tan_rate_per_s *= j.factor(0.3);
-                }
-            }
-        }
+        let mut jitter = jitter_laws(&mut p, o.perturb_seed);
         guess_headings(ctx, &mut p, &vars, true);
         let auto = ctx.normalized(&vars, &p);
         let shift = jitter.as_mut().map_or(1.0, |j| j.factor(0.3));
@@ -184,6 +172,25 @@ pub fn starts(ctx: &Ctx, o: &SolveOptions) -> Vec<super::nlp::Start> {
         .collect()
 }
 
+/// With `--perturb-seed`: every linear tangent law's pitch and rate scaled by factors in
+/// [0.7, 1.3] drawn from the seed; returns the generator for further draws.
+fn jitter_laws(p: &mut Problem, seed: Option<u64>) -> Option<SplitMix64> {
+    let mut jitter = seed.map(SplitMix64::new);
+    if let Some(j) = jitter.as_mut() {
+        for a in p.program.arcs.iter_mut() {
+            if let Arc::Burn {
+                steering: Steering::LinearTangent(lt),
+                ..
+            } = a
+            {
+                lt.pitch0_rad *= j.factor(0.3);
+                lt.tan_rate_per_s *= j.factor(0.3);
+            }
+        }
+    }
+    jitter
+}
+
 /// Sets the heading of every law whose heading is tuned: a guess from the target inclination
 /// where the program has none (or always, with `always`).
 fn guess_headings(ctx: &Ctx, p: &mut Problem, vars: &[Param], always: bool) {
@@ -209,19 +216,7 @@ pub fn initial_guess(ctx: &Ctx, o: &SolveOptions) -> Vec<Candidate> {
     if o.scan {
         auto_laws(ctx, &mut p);
     }
-    let mut jitter = o.perturb_seed.map(SplitMix64::new);
-    if let Some(j) = jitter.as_mut() {
-        for a in p.program.arcs.iter_mut() {
-            if let Arc::Burn {
-                steering: Steering::LinearTangent(lt),
-                ..
-            } = a
-            {
-                lt.pitch0_rad *= j.factor(0.3);
-                lt.tan_rate_per_s *= j.factor(0.3);
-            }
-        }
-    }
+    let mut jitter = jitter_laws(&mut p, o.perturb_seed);
     for v in ctx.spec.inner.iter().chain(&ctx.spec.outer) {
         if let Param::Law {
             arc,
