@@ -165,10 +165,39 @@ fn temporary(path: &Path) -> anyhow::Result<std::path::PathBuf> {
     )))
 }
 
+/// Temporary files being written, removed by the interrupt handler.
+static PENDING: std::sync::Mutex<Vec<std::path::PathBuf>> = std::sync::Mutex::new(Vec::new());
+
+/// Removes the temporary files of writes under way and exits with 130 on SIGINT or SIGTERM, so
+/// that an interrupted run leaves no temporary file behind (the outputs it had finished stay).
+pub fn remove_temporaries_on_interrupt() {
+    let _ = ctrlc::set_handler(|| {
+        if let Ok(list) = PENDING.lock() {
+            for p in list.iter() {
+                let _ = std::fs::remove_file(p);
+            }
+        }
+        eprintln!("interrupted: temporary files removed; finished outputs kept");
+        std::process::exit(130);
+    });
+}
+
+/// Records (or forgets) a temporary file for the interrupt handler.
+fn pending(path: &Path, add: bool) {
+    if let Ok(mut list) = PENDING.lock() {
+        if add {
+            list.push(path.to_path_buf());
+        } else {
+            list.retain(|p| p != path);
+        }
+    }
+}
+
 /// Writes `bytes` to a temporary file beside `path`, with the mode of the file it will replace.
 fn write_temporary(path: &Path, bytes: &[u8]) -> anyhow::Result<std::path::PathBuf> {
     use std::io::Write;
     let tmp = temporary(path)?;
+    pending(&tmp, true);
     let result = (|| -> std::io::Result<()> {
         let mut f = std::fs::File::create(&tmp)?;
         f.write_all(bytes)?;
@@ -179,6 +208,7 @@ fn write_temporary(path: &Path, bytes: &[u8]) -> anyhow::Result<std::path::PathB
     })();
     if let Err(e) = result {
         let _ = std::fs::remove_file(&tmp);
+        pending(&tmp, false);
         bail!("cannot write {}: {e}", path.display());
     }
     Ok(tmp)
@@ -189,10 +219,12 @@ fn write_temporary(path: &Path, bytes: &[u8]) -> anyhow::Result<std::path::PathB
 pub fn write_atomic(path: &Path, input: &Path, bytes: &[u8]) -> anyhow::Result<()> {
     check_outputs(&[input], &[("output", path, OutputKind::File)])?;
     let tmp = write_temporary(path, bytes)?;
-    std::fs::rename(&tmp, path).map_err(|e| {
+    let renamed = std::fs::rename(&tmp, path).map_err(|e| {
         let _ = std::fs::remove_file(&tmp);
         anyhow::anyhow!("cannot write {}: {e}", path.display())
-    })
+    });
+    pending(&tmp, false);
+    renamed
 }
 
 /// Writes figures into `dir` (created when missing) as a set: every file is written to a
@@ -208,16 +240,19 @@ pub fn write_figures(dir: &Path, input: &Path, files: &[FigureFile]) -> anyhow::
             Err(e) => {
                 for (tmp, _) in &written {
                     let _ = std::fs::remove_file(tmp);
+                    pending(tmp, false);
                 }
                 return Err(e);
             }
         }
     }
     for (tmp, path) in written {
-        std::fs::rename(&tmp, &path).map_err(|e| {
+        let renamed = std::fs::rename(&tmp, &path).map_err(|e| {
             let _ = std::fs::remove_file(&tmp);
             anyhow::anyhow!("cannot write {}: {e}", path.display())
-        })?;
+        });
+        pending(&tmp, false);
+        renamed?;
     }
     Ok(())
 }

@@ -241,6 +241,7 @@ pub fn main_with_args(args: impl IntoIterator<Item = std::ffi::OsString>) -> Exi
             return ExitCode::from(code);
         }
     };
+    io::remove_temporaries_on_interrupt();
     match run(cli) {
         Ok(code) => ExitCode::from(code),
         Err(err) => {
