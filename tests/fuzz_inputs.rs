@@ -183,7 +183,8 @@ fn mutated_problems_solve_within_their_budget() {
                 scan: false,
                 ..kickturn::optimize::SolveOptions::default()
             };
-            let start = std::time::Instant::now();
+            // The trajectory budget bounds the work; no wall-clock assertion (results and tests
+            // must not depend on the machine's speed).
             if let Ok(s) = kickturn::optimize::tune(&p, &opts) {
                 assert!(
                     s.convergence.trajectories <= 300 + 64,
@@ -192,10 +193,6 @@ fn mutated_problems_solve_within_their_budget() {
                 );
                 assert!(s.eval.propellant_used_kg.is_finite());
             }
-            assert!(
-                start.elapsed().as_secs_f64() < 10.0,
-                "solve overran its budget"
-            );
         }
         Ok(())
     });
