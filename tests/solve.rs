@@ -325,7 +325,8 @@ fn the_written_program_flies_to_the_same_orbit() {
 
 #[test]
 fn an_infeasible_target_is_reported_with_exit_1() {
-    // Ten times the payload: the medium vehicle cannot reach orbit.
+    // Five times the payload: the medium vehicle cannot reach orbit. No wall cap: the trajectory
+    // budget ends the search, so the verdict does not depend on the machine's load (issue 9).
     let dir = std::env::temp_dir().join(format!("kickturn-infeasible-{}", std::process::id()));
     let _ = std::fs::create_dir_all(&dir);
     let path = dir.join("heavy-payload.json");
@@ -334,7 +335,7 @@ fn an_infeasible_target_is_reported_with_exit_1() {
     let text = text.replace("\"payload_kg\": 8000.0", "\"payload_kg\": 40000.0");
     let _ = std::fs::write(&path, text);
     let p = path.to_string_lossy().to_string();
-    let out = kickturn(&["solve", &p, "--json", "--max-wall-s", "20"]);
+    let out = kickturn(&["solve", &p, "--json"]);
     assert_eq!(out.status.code(), Some(1));
     let r = json(&out);
     assert_eq!(r["convergence"]["status"], "infeasible");
