@@ -11,7 +11,7 @@ use kickturn::sim::{fly, FlyOptions};
 const DEMOS: [&str; 3] = [
     "small-3stage-sso500",
     "medium-2stage-leo200",
-    "heavy-boosters-iss51",
+    "heavy-boosters-leo300",
 ];
 
 fn bench_fly(c: &mut Criterion) {

@@ -12,7 +12,7 @@ use kickturn::problem::Problem;
 const DEMOS: [&str; 3] = [
     "small-3stage-sso500",
     "medium-2stage-leo200",
-    "heavy-boosters-iss51",
+    "heavy-boosters-leo300",
 ];
 
 fn bench_solve(c: &mut Criterion) {

@@ -268,7 +268,7 @@ fn fly_writes_figures_and_a_self_contained_html_report() {
     );
     let out = kickturn(&[
         "fly",
-        "problems/heavy-boosters-iss51.json",
+        "problems/heavy-boosters-leo300.json",
         "--plot",
         &f,
         "--report",
@@ -318,7 +318,7 @@ fn sweep_keeps_every_point_in_json_and_csv() {
     let c = csv.to_string_lossy().to_string();
     let out = kickturn(&[
         "sweep",
-        "problems/heavy-boosters-iss51.json",
+        "problems/heavy-boosters-leo300.json",
         "--altitude",
         "250:350:50",
         "--json",
@@ -352,7 +352,7 @@ fn sweep_keeps_every_point_in_json_and_csv() {
 #[test]
 fn solve_json_is_byte_identical_across_runs_and_thread_counts() {
     let run = |threads: &str| match Command::new(env!("CARGO_BIN_EXE_kickturn"))
-        .args(["solve", "problems/heavy-boosters-iss51.json", "--json"])
+        .args(["solve", "problems/heavy-boosters-leo300.json", "--json"])
         .env("RAYON_NUM_THREADS", threads)
         .current_dir(root())
         .output()
@@ -503,7 +503,7 @@ fn outputs_are_checked_before_any_work_and_never_destroy_data() {
     let a = dir.join("a.json");
     let b = dir.join("b.json");
     std::fs::copy(root().join("problems/medium-2stage-leo200.json"), &a).expect("copy");
-    std::fs::copy(root().join("problems/heavy-boosters-iss51.json"), &b).expect("copy");
+    std::fs::copy(root().join("problems/heavy-boosters-leo300.json"), &b).expect("copy");
     let b_before = std::fs::read(&b).expect("read");
     let s = |p: &Path| p.to_string_lossy().to_string();
     let y = s(&dir.join("y.json"));

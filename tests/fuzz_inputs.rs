@@ -15,7 +15,7 @@ fn demos() -> Vec<Value> {
     [
         "small-3stage-sso500",
         "medium-2stage-leo200",
-        "heavy-boosters-iss51",
+        "heavy-boosters-leo300",
     ]
     .iter()
     .map(|n| {

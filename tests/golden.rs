@@ -87,7 +87,7 @@ fn check(command: &str, demo: &str) {
 }
 
 const DEMOS: [&str; 3] = [
-    "heavy-boosters-iss51",
+    "heavy-boosters-leo300",
     "medium-2stage-leo200",
     "small-3stage-sso500",
 ];

@@ -52,7 +52,7 @@ fn burnout_is_located_at_zero_propellant() {
 
 #[test]
 fn boosters_separate_at_their_burn_time() {
-    let p = demo("heavy-boosters-iss51.json");
+    let p = demo("heavy-boosters-leo300.json");
     let f = fly(&p, &FlyOptions::default());
     let b = p.vehicle.boosters.as_ref().map_or(0.0, |b| b.burn_time_s());
     let e = event(&f, EventKind::BoosterSeparation);
@@ -182,7 +182,7 @@ fn pitch_table_flies_exactly_the_given_pitch() {
 
 #[test]
 fn a_core_cutoff_drops_boosters_that_still_burn() {
-    let mut p = demo("heavy-boosters-iss51.json");
+    let mut p = demo("heavy-boosters-leo300.json");
     p.program.arcs[0] = kickturn::steering::Arc::Burn {
         steering: kickturn::steering::Steering::GravityTurn,
         cutoff: kickturn::steering::Cutoff::Duration(40.0),

@@ -27,7 +27,7 @@ fn demo(name: &str) -> Problem {
 const DEMOS: [&str; 3] = [
     "small-3stage-sso500.json",
     "medium-2stage-leo200.json",
-    "heavy-boosters-iss51.json",
+    "heavy-boosters-leo300.json",
 ];
 
 /// Linear tangent closed form (flat Earth, uniform g, vacuum, constant thrust acceleration a),
@@ -287,7 +287,7 @@ fn the_written_program_flies_to_the_same_orbit() {
     let o = out_path.to_string_lossy().to_string();
     let solved = kickturn(&[
         "solve",
-        "problems/heavy-boosters-iss51.json",
+        "problems/heavy-boosters-leo300.json",
         "--json",
         "--write-program",
         &o,
