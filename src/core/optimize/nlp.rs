@@ -146,6 +146,10 @@ impl Program for Ascent<'_> {
             })
             .collect()
     }
+
+    fn trace(&self, line: &dyn Fn() -> String) {
+        self.ctx.obs.diagnostic(line);
+    }
 }
 
 /// A starting point: the full variable vector and its evaluation.
@@ -180,6 +184,9 @@ fn settings(budget: usize) -> Settings {
         tol_progress: 1e-9,
         fd_step: inner::FD_STEP,
         max_step: 1.0,
+        // The kick's sensitivity spans four decades between vehicles (a liftoff
+        // thrust-to-weight of 1.2 against 1.5): each variable is scaled from the start.
+        auto_scale: true,
     }
 }
 

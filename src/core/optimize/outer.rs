@@ -27,6 +27,14 @@ const KICK_GRID_DEG: [f64; 12] = [
     0.25, 0.5, 1.0, 1.5, 2.0, 3.0, 4.0, 5.0, 6.5, 8.0, 10.0, 13.0,
 ];
 
+/// Kick angles of the SQP method's starts, deg: a geometric grid (ratio 1.5) from 0.05° to 33°.
+/// The kick that turns a vehicle onto a workable gravity turn spans three decades: about 0.1° at
+/// a liftoff thrust-to-weight of 1.2 (the turn runs away from any larger kick), several degrees
+/// at 1.5, tens of degrees after a 1 s vertical rise with a slow pitch-over; one trajectory each.
+fn start_kicks_deg() -> impl Iterator<Item = f64> {
+    (0..17).map(|i| 0.05 * 1.5_f64.powi(i))
+}
+
 /// A point of the search: outer and inner variables (normalized) and its evaluation.
 #[derive(Debug, Clone)]
 pub struct Candidate {
@@ -148,7 +156,7 @@ pub fn starts(ctx: &Ctx, o: &SolveOptions) -> Vec<super::nlp::Start> {
         let auto = ctx.normalized(&vars, &p);
         let shift = jitter.as_mut().map_or(1.0, |j| j.factor(0.3));
         match vars.iter().position(|v| *v == Param::Kick) {
-            Some(k) => points.extend(KICK_GRID_DEG.iter().map(|deg| {
+            Some(k) => points.extend(start_kicks_deg().map(|deg| {
                 let mut x = auto.clone();
                 x[k] = shift * deg.to_radians() / Param::Kick.scale();
                 x

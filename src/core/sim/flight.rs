@@ -14,6 +14,8 @@ use crate::core::steering::gravity_turn::ZeroAlpha;
 use crate::core::steering::{ActiveLaw, Arc, ArcStart, CoastEnd, Cutoff, GuidanceInput, RiseEnd};
 use crate::core::vehicle::JettisonWhen;
 
+/// Liftoff mass below which the integrator's absolute tolerance scales with the mass, kg.
+const ATOL_MASS_REF_KG: f64 = 1e4;
 /// Segments allowed in one flight before it is stopped as runaway.
 const MAX_SEGMENTS: usize = 10_000;
 /// A time event this close to the segment start fires without integrating, s.
@@ -658,6 +660,12 @@ impl<'a> Flyer<'a> {
             step_t: vec![self.t],
         };
         let ig = self.p.integrator;
+        // One absolute tolerance serves every state component; for the mass (kg) it would be
+        // relatively looser the lighter the vehicle, and a vehicle scaled down ×1e-4 would fly
+        // with noise in its propellant that stalls the optimizer. Below 10 t of liftoff mass the
+        // tolerance shrinks with the mass, so any vehicle is integrated to the same relative
+        // accuracy (heavier ones, all demos included, are unchanged).
+        let atol = ig.atol * (self.p.vehicle.liftoff_mass_kg() / ATOL_MASS_REF_KG).min(1.0);
         let sys = Sys {
             p: &self.m,
             law: self.law.as_ref(),
@@ -666,7 +674,7 @@ impl<'a> Flyer<'a> {
             watch: &mut watch,
         };
         let mut com = ContinuousOutputModel::default();
-        let mut solver = Dopri5::new(sys, self.t, t_end, 1.0, self.y, ig.rtol, ig.atol);
+        let mut solver = Dopri5::new(sys, self.t, t_end, 1.0, self.y, ig.rtol, atol);
         let stats = solver
             .integrate_with_continuous_output_model(&mut com)
             .map_err(|e| self.integration_message(&e.to_string()))?;
