@@ -582,3 +582,26 @@ fn outputs_are_checked_before_any_work_and_never_destroy_data() {
     );
     std::fs::remove_dir_all(&dir).expect("cleanup");
 }
+
+#[test]
+fn an_unreachable_target_inclination_with_a_given_azimuth_is_refused_at_once() {
+    // Repro (optimizer issue): the medium demo from its 28.2° N site with `launch.azimuth_deg`
+    // given and a 20° target inclination ran 22–39 s and reported "1048.7 m/s short". A direct
+    // ascent reaches only |φ′| ≤ i ≤ 180° − |φ′| (geocentric latitude φ′; Curtis, Orbital
+    // Mechanics for Engineering Students, §4.7, cos i = cos φ sin A, from memory).
+    let out = kickturn(&["solve", "tests/data/repro/inc20_az90.json"]);
+    assert_eq!(out.status.code(), Some(1));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.starts_with("error: "), "{err}");
+    assert!(err.contains("target.inclination_deg: 20.000°"), "{err}");
+    assert!(err.contains("launch.allow_dog_leg"), "{err}");
+    assert!(out.stdout.is_empty());
+    let out = kickturn(&["solve", "tests/data/repro/inc20_az90.json", "--json"]);
+    assert_eq!(out.status.code(), Some(1));
+    let r = json_of(&out);
+    assert_eq!(r["status"], "unreachable_inclination");
+    assert_eq!(r["field"], "target.inclination_deg");
+    // Plane change 2·v·sin(Δi/2) at 200 km (v ≈ 7784 m/s): about 1091 m/s for Δi ≈ 8.04°.
+    let dv = r["plane_change_mps"].as_f64().unwrap_or(f64::NAN);
+    assert!((dv - 1091.4).abs() < 1.0, "{dv}");
+}

@@ -92,11 +92,20 @@ impl Case {
     /// The problem, or why a direct ascent cannot reach its inclination (dog legs allowed by
     /// `launch.allow_dog_leg` pass).
     pub fn reachable(&self) -> Result<&Problem, UnreachableInclination> {
-        match self
-            .problem
-            .unreachable_inclination()
-            .filter(|_| !self.problem.allow_dog_leg)
-        {
+        self.check(self.problem.unreachable_inclination())
+    }
+
+    /// [`Self::reachable`] for a solve: a target inclination out of reach of a direct ascent is
+    /// refused also when the launch azimuth is given (the optimizer would need a dog leg).
+    pub fn target_reachable(&self) -> Result<&Problem, UnreachableInclination> {
+        self.check(self.problem.unreachable_target_inclination())
+    }
+
+    fn check(
+        &self,
+        unreachable: Option<UnreachableInclination>,
+    ) -> Result<&Problem, UnreachableInclination> {
+        match unreachable.filter(|_| !self.problem.allow_dog_leg) {
             Some(u) => Err(u),
             None => Ok(&self.problem),
         }

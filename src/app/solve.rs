@@ -310,7 +310,7 @@ impl SolveReport {
 /// controls); [`Error::WriteBack`] when the tuned program does not validate in the file form.
 pub fn solve(case: &Case, s: &SolveSettings, obs: &dyn Observer) -> Result<SolveRun, Error> {
     s.check()?;
-    let p = case.reachable()?;
+    let p = case.target_reachable()?;
     let sol = tune_observed(p, &s.solver, obs)?;
     let mut tuned_file = case.file.clone();
     for (v, x) in &sol.variables {

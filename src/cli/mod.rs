@@ -294,12 +294,28 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
 }
 
 /// Maps an application error to the exit code and message: an unreachable target exits 1 with
-/// its reason, anything else is bad input (exit 2).
-fn app_error(problem: &std::path::Path, e: app::Error) -> anyhow::Result<u8> {
+/// its reason on stderr (and, with `--json`, a JSON object on stdout that says why), anything
+/// else is bad input (exit 2).
+fn app_error(problem: &std::path::Path, e: app::Error, json: bool) -> anyhow::Result<u8> {
     if e.is_bad_input() {
         bail!("{}: {e}", problem.display());
     }
-    eprintln!("{}: {e}", problem.display());
+    eprintln!("error: {}: {e}", problem.display());
+    if json {
+        let mut obj = serde_json::json!({
+            "tool": app::tool_version(),
+            "status": "error",
+            "message": e.to_string(),
+        });
+        if let app::Error::Unreachable(u) = &e {
+            obj["status"] = "unreachable_inclination".into();
+            obj["field"] = u.field.into();
+            obj["inclination_deg"] = u.inclination_deg.into();
+            obj["site_geocentric_latitude_deg"] = u.latitude_deg.into();
+            obj["plane_change_mps"] = u.plane_change_mps.into();
+        }
+        io::emit(&format!("{}\n", serde_json::to_string_pretty(&obj)?))?;
+    }
     Ok(EXIT_NOT_REACHED)
 }
 
@@ -353,7 +369,7 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
     let case = load_case(&a.problem)?;
     let run = match app::fly::fly(&case, &FlyOptions { record_step_s }) {
         Ok(r) => r,
-        Err(e) => return app_error(&a.problem, e),
+        Err(e) => return app_error(&a.problem, e, a.out.json),
     };
     write_flight_outputs(&a.out, &a.problem, &run.report, &run.flight, None)?;
     if a.out.json {

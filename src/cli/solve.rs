@@ -41,7 +41,7 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
     let case = load_case(&a.problem)?;
     let run = match solve(&case, &settings, &Progress::new()) {
         Ok(r) => r,
-        Err(e) => return app_error(&a.problem, e),
+        Err(e) => return app_error(&a.problem, e, a.out.json),
     };
     if let Some(path) = &a.write_program {
         let json = serde_json::to_string_pretty(&run.tuned_file)? + "\n";

@@ -58,13 +58,18 @@ pub fn in_range(field: &str, x: f64, lo: f64, hi: f64, closed: bool) -> Result<f
 /// command reports it and exits with code 1.
 #[derive(Debug, Error, Clone, PartialEq)]
 #[error(
-    "launch.inclination_deg: {inclination_deg:.3}° cannot be reached by a direct ascent from \
+    "{field}: {inclination_deg:.3}° cannot be reached by a direct ascent from \
      geocentric latitude {latitude_deg:.3}° (reachable: {latitude_deg:.3}° to \
      {reach_max:.3}°); a plane change of {plane_change_mps:.0} m/s at the target's circular speed \
-     would still be needed (upper bound 2·v·sin(Δi/2), not combined with another burn)",
+     would still be needed (upper bound 2·v·sin(Δi/2), not combined with another burn); {hint}",
     reach_max = 180.0 - latitude_deg
 )]
 pub struct UnreachableInclination {
+    /// The field that asks for the inclination (`launch.inclination_deg` or
+    /// `target.inclination_deg`).
+    pub field: &'static str,
+    /// How to fly it anyway.
+    pub hint: &'static str,
     /// Requested inclination, degrees.
     pub inclination_deg: f64,
     /// Site geocentric latitude, degrees (absolute value).

@@ -457,7 +457,7 @@ fn terminal_vars(
     }
     if t.inclination_rad.is_some() {
         let (heading, yaw) = (plane.first().copied(), plane.get(1).copied());
-        if p.allow_dog_leg && p.unreachable_inclination().is_some() {
+        if p.allow_dog_leg && p.unreachable_target_inclination().is_some() {
             // Dog-leg: the yaw term makes the plane change; the heading is tuned outside.
             inner.extend(yaw);
             outer.extend(heading);

@@ -192,6 +192,37 @@ impl Problem {
         else {
             return None;
         };
+        self.unreachable(
+            "launch.inclination_deg",
+            "set launch.allow_dog_leg to true to let the upper stage yaw into the plane",
+            inclination_rad,
+        )
+    }
+
+    /// [`Self::unreachable_inclination`] for a solve: the target's inclination also counts when
+    /// the launch azimuth is given directly (the optimizer steers to the target's plane).
+    pub fn unreachable_target_inclination(&self) -> Option<UnreachableInclination> {
+        match (
+            self.azimuth_source,
+            self.target.and_then(|t| t.inclination_rad),
+        ) {
+            (AzimuthSource::Fixed, Some(i)) => self.unreachable(
+                "target.inclination_deg",
+                "to let the upper stage yaw into the plane, give launch.inclination_deg with \
+                 launch.allow_dog_leg: true in place of launch.azimuth_deg",
+                i,
+            ),
+            _ => self.unreachable_inclination(),
+        }
+    }
+
+    /// Why `inclination_rad` cannot be reached by a direct ascent from the site, if it cannot.
+    fn unreachable(
+        &self,
+        field: &'static str,
+        hint: &'static str,
+        inclination_rad: f64,
+    ) -> Option<UnreachableInclination> {
         let lat = validate::geocentric_latitude_rad(self.site.geodetic.latitude_rad).abs();
         let (lo, hi) = (lat, std::f64::consts::PI - lat);
         let nearest = inclination_rad.clamp(lo, hi);
@@ -202,6 +233,8 @@ impl Problem {
         let r = WGS84_A_M + self.target.map_or(200e3, |t| t.perigee_alt_m);
         let v = crate::core::physics::orbit::circular_speed_mps(r, WGS84_GM_M3_S2);
         Some(UnreachableInclination {
+            field,
+            hint,
             inclination_deg: inclination_rad.to_degrees(),
             latitude_deg: lat.to_degrees(),
             plane_change_mps: 2.0 * v * (0.5 * di).sin(),
