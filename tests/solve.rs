@@ -491,7 +491,13 @@ fn the_sqp_method_reaches_the_nested_optimum_with_few_trajectories() {
     // (0.5 kg or 1e-4 of the final mass), on a fixed trajectory budget of 400 (the nested search
     // needs 1300 to 1900).
     for name in DEMOS {
-        let nested = solved(name, &SolveOptions::default());
+        let nested = solved(
+            name,
+            &SolveOptions {
+                method: kickturn::optimize::Method::Nested,
+                ..SolveOptions::default()
+            },
+        );
         let sqp = solved(
             name,
             &SolveOptions {
@@ -522,4 +528,58 @@ fn the_sqp_method_reaches_the_nested_optimum_with_few_trajectories() {
             nested.convergence.trajectories
         );
     }
+}
+
+/// Runs `kickturn solve FILE --json` and returns the exit code and the report.
+fn solve_json(file: &str) -> (Option<i32>, serde_json::Value) {
+    let out = kickturn(&["solve", file, "--json"]);
+    let v = serde_json::from_slice(&out.stdout).unwrap_or_else(|e| {
+        panic!(
+            "{file}: stdout is not JSON ({e}); stderr: {}",
+            String::from_utf8_lossy(&out.stderr)
+        )
+    });
+    (out.status.code(), v)
+}
+
+#[test]
+fn a_low_thrust_to_weight_vehicle_is_solved_not_called_infeasible() {
+    // Repro (issue 9): the medium demo with its first-stage sea-level thrust lowered to 3.91 MN
+    // (liftoff T/W 1.20). The nested search's kick grid started at 0.25°, every kick of it
+    // crashed, and it reported "NOT SOLVED … 7019.9 m/s short"; the same file started by hand
+    // from a 0.1° kick solved with a 968.1 kg margin. The start grid now reaches 0.05° and the
+    // SQP variables are scaled by their sensitivity (the kick moves perigee by ~10⁴ km per
+    // degree here).
+    let (code, r) = solve_json("tests/data/repro/tw12.json");
+    assert_eq!(code, Some(0), "{}", r["convergence"]);
+    assert_eq!(r["convergence"]["status"], "converged");
+    assert_eq!(r["target_deviation"]["met"], true);
+    let margin = r["margin_kg"].as_f64().unwrap_or(f64::NAN);
+    assert!(margin >= 968.1, "margin {margin} kg");
+    // Within a fixed trajectory budget of a few hundred per start (not thousands).
+    let n = r["convergence"]["trajectories"]
+        .as_u64()
+        .unwrap_or(u64::MAX);
+    assert!(n <= 1500, "{n} trajectories");
+}
+
+#[test]
+fn a_vehicle_scaled_down_ten_thousand_times_reaches_the_same_relative_margin() {
+    // Repro (issue 9): the medium demo with masses, thrusts and areas ×1e-4 flies the same
+    // trajectory (same accelerations; Tsiolkovsky's ΔV depends on mass ratios only), so its
+    // margin must be 1e-4 of the full-scale margin (±0.1 %). It used to stop at its start and
+    // say converged; later it stalled on integration noise in its 30 kg mass.
+    let (code, full) = solve_json("problems/medium-2stage-leo200.json");
+    assert_eq!(code, Some(0));
+    let (code, small) = solve_json("tests/data/repro/scaled_medium_m4.json");
+    assert_eq!(code, Some(0), "{}", small["convergence"]);
+    assert_eq!(small["convergence"]["status"], "converged");
+    let (a, b) = (
+        full["margin_kg"].as_f64().unwrap_or(f64::NAN),
+        small["margin_kg"].as_f64().unwrap_or(f64::NAN) * 1e4,
+    );
+    assert!(
+        ((b - a) / a).abs() < 1e-3,
+        "full {a} kg, scaled ×1e4 {b} kg"
+    );
 }

@@ -165,9 +165,14 @@ pub struct SolveArgs {
     /// Start from the file's program instead of the automatic guess and kick scan.
     #[arg(long)]
     pub no_scan: bool,
-    /// Experimental: tune every parameter in one constrained program solved by SQP (about 5×
-    /// fewer trajectories) instead of the nested search.
-    #[arg(long)]
+    /// Use the former nested search (Newton solves of the terminal conditions inside a
+    /// Nelder–Mead search, after a kick scan; 5–10× more trajectories) instead of the default
+    /// constrained SQP program. The SQP method falls back to it by itself where it cannot verify
+    /// an optimum.
+    #[arg(long, conflicts_with = "sqp")]
+    pub nested: bool,
+    /// The SQP method, now the default (accepted for scripts written when it was opt-in).
+    #[arg(long, hide = true)]
     pub sqp: bool,
     /// Also solve richer programs (free pitch-over rate and vertical rise; separate laws for
     /// continued upper burns) and report what each would save.

@@ -19,7 +19,11 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
             scan: !a.no_scan,
             perturb_seed: a.perturb_seed,
             polish: true,
-            method: if a.sqp { Method::Sqp } else { Method::Nested },
+            method: if a.nested {
+                Method::Nested
+            } else {
+                Method::Sqp
+            },
             objective: if a.max_payload {
                 Objective::MaxPayload
             } else {

@@ -53,7 +53,7 @@ pub struct SolveOptions {
     pub scan: bool,
     /// What to optimize.
     pub objective: Objective,
-    /// The search method (default: nested).
+    /// The search method (default: SQP).
     pub method: Method,
     /// Restart the outer Nelder–Mead once from its best point (default true; sweeps turn it off:
     /// the restart refines the optimum by about a kilogram at about a third more trajectories).
@@ -74,7 +74,7 @@ impl Default for SolveOptions {
             perturb_seed: None,
             objective: Objective::LeastPropellant,
             polish: true,
-            method: Method::Nested,
+            method: Method::Sqp,
         }
     }
 }
@@ -84,12 +84,12 @@ impl Default for SolveOptions {
 #[serde(rename_all = "snake_case")]
 pub enum Method {
     /// Terminal conditions by Levenberg–Marquardt nested in a Brent or Nelder–Mead search over
-    /// the remaining parameters, after a kick scan (the default while the single formulation is
-    /// being completed).
-    #[default]
+    /// the remaining parameters, after a kick scan (the former default; still used for the pass
+    /// that holds a max-Q limit, and as the SQP method's fallback).
     Nested,
-    /// One constrained program over every parameter, solved by SQP ([`sqp`], [`nlp`]):
-    /// experimental.
+    /// One constrained program over every parameter, solved by SQP ([`sqp`], [`nlp`]), with the
+    /// nested search as fallback where it cannot verify an optimum (the default).
+    #[default]
     Sqp,
 }
 
@@ -618,13 +618,18 @@ fn solve_timed(p: &Problem, o: &SolveOptions, run: &Run) -> Result<Solution, Sol
     let mut b = free.problem.clone();
     match b.program.bucket.as_mut() {
         None => b.program.bucket = Some(bucket_guess(&free.problem, q_lim)),
-        // Start below full throttle: at the bound the forward difference sees no slope.
+        // Nested: start below full throttle (at the bound the forward difference sees no slope).
         Some(k) => k.throttle = k.throttle.min(0.9).max(b.vehicle.stages[0].min_throttle),
     }
     let mut inner_q = inner;
     inner_q.push(Param::BucketThrottle);
     // The trajectory budget is for the whole solve: later passes get what is left.
+    // The held pass runs the nested search whatever the method: where the bucket splits the q
+    // history into two humps, max-Q has a kink at the held optimum (both humps at the limit),
+    // on which the SQP method stalls; the nested search holds max-Q = limit as one of its inner
+    // Newton conditions instead. (A max-Q constraint per hump would make it smooth: not built.)
     let held = SolveOptions {
+        method: Method::Nested,
         scan: false,
         max_trajectories: o
             .max_trajectories
@@ -794,7 +799,61 @@ fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
             found.outcome.status, found.outcome.iterations, found.outcome.evaluations
         )
     });
-    finish_found(&ctx, found)
+    let k = ctx.spec.inner.len();
+    let sqp_point = outer::Candidate {
+        outer: found.x[k..].to_vec(),
+        inner: found.x[..k].to_vec(),
+        eval: found.eval.clone(),
+        iterations: 0,
+        budget_hit: false,
+        reason: String::new(),
+        at_iteration_limit: false,
+        kick_bracket: None,
+    };
+    let sol = finish_found(&ctx, found);
+    if matches!(
+        sol.convergence.status,
+        SolveStatus::Converged | SolveStatus::BudgetExhausted
+    ) || ctx.out_of_budget()
+    {
+        return sol;
+    }
+    // The SQP method did not verify an optimum (a kink in max-Q where two humps meet, noise in
+    // the finite differences, or no feasible point found): the nested search, whose inner
+    // Newton solves keep every outer point on the target and whose simplex does not need
+    // gradients, continues from the SQP point (or from its own kick scan when that point misses
+    // the target). The better verified answer is kept.
+    let starts = if sol.eval.reached && sol.eval.max_abs() < targeting::INSERTION_TOL {
+        vec![sqp_point]
+    } else {
+        outer::initial_guess(&ctx, o)
+    };
+    let mut nested = finish(&ctx, outer::search_all(&ctx, starts));
+    nested.convergence.reason = format!(
+        "{}; then {}",
+        sol.convergence.reason, nested.convergence.reason
+    );
+    nested.convergence.iterations += sol.convergence.iterations;
+    let rank = |s: &Solution| {
+        (
+            s.convergence.status != SolveStatus::Converged,
+            !(s.eval.reached && s.eval.max_abs() < targeting::INSERTION_TOL),
+        )
+    };
+    if rank(&nested) < rank(&sol)
+        || (rank(&nested) == rank(&sol) && objective(&nested.eval) <= objective(&sol.eval))
+    {
+        nested
+    } else {
+        Solution {
+            convergence: Convergence {
+                trajectories: nested.convergence.trajectories,
+                reason: nested.convergence.reason.clone(),
+                ..sol.convergence
+            },
+            ..sol
+        }
+    }
 }
 
 /// The solution of a pass from the search's result.

@@ -108,6 +108,12 @@ pub struct Settings {
     pub max_step: f64,
     /// Rescale the variables from the first derivatives (default false; see `Sqp::rescale`).
     pub auto_scale: bool,
+    /// Converged also when, at a feasible point, the quadratic model (with the full step box)
+    /// predicts less than this gain: `|∇fᵀp| + Σ|λᵢcᵢ|` (Kraft's SLSQP test, DFVLR-FB 88-28,
+    /// 1988), in objective units (default 1e-10). Finite-difference truncation leaves a
+    /// Lagrangian-gradient floor near `h·‖∇²L‖`, above a relative `tol_opt`, at points whose
+    /// remaining gain is far below anything that matters.
+    pub tol_gain: f64,
 }
 
 impl Default for Settings {
@@ -121,6 +127,7 @@ impl Default for Settings {
             fd_step: 1e-4,
             max_step: 1.0,
             auto_scale: false,
+            tol_gain: 1e-10,
         }
     }
 }
@@ -318,6 +325,9 @@ impl<'a> Sqp<'a> {
         let mut stationarity = f64::INFINITY;
         let mut iterations = 0;
         let mut flat = 0;
+        let mut restarts = 0;
+        // The Hessian approximation was just reset: its model says nothing about the gain left.
+        let mut fresh = false;
         for k in 0..self.s.max_iterations {
             iterations = k + 1;
             let feasible = self.v.max_violation() <= self.s.tol_feas;
@@ -347,6 +357,11 @@ impl<'a> Sqp<'a> {
             };
             self.lam_eq.clone_from(&step.lam_eq);
             self.lam_in.clone_from(&step.lam_in);
+            if feasible && !fresh && self.model_gain(&derivs, &step) <= self.s.tol_gain {
+                status = Status::Converged;
+                break;
+            }
+            fresh = false;
             // The linearized violation cannot be reduced and is not zero: the nonlinear
             // constraints are (locally) out of reach.
             if step.lin_violation > self.s.tol_feas && step.p.amax() <= 1e-9 && !feasible {
@@ -359,6 +374,38 @@ impl<'a> Sqp<'a> {
             }
             let (x_old, phi_old) = (self.x.clone(), Self::merit(&self.v, self.mu));
             if !self.line_search(&derivs, &step) {
+                // A failed line search at a feasible point is most often a Hessian approximation
+                // gone stale along a curved valley: start it afresh (at most twice) before
+                // judging the point (Nocedal & Wright §6.1, on resetting quasi-Newton matrices).
+                if feasible && restarts < 2 && self.evals < self.s.max_evaluations {
+                    restarts += 1;
+                    let n = self.x.len();
+                    self.b = DMatrix::identity(n, n);
+                    self.delta = self.s.max_step;
+                    fresh = true;
+                    continue;
+                }
+                // Nearly feasible: one least-norm Newton step on the equalities restores
+                // feasibility at the cost of one trajectory (and a fresh Jacobian).
+                if !feasible
+                    && restarts < 2
+                    && self.v.max_violation() <= 1e3 * self.s.tol_feas
+                    && self.evals + 1 + self.x.len() <= self.s.max_evaluations
+                {
+                    let zero = DVector::zeros(self.x.len());
+                    let here = self.v.clone();
+                    if let Some(c) = self.correction(&derivs, &here, &zero) {
+                        let vc = self.eval(std::slice::from_ref(&c)).remove(0);
+                        if vc.max_violation() < here.max_violation() {
+                            restarts += 1;
+                            self.x = c;
+                            self.v = vc;
+                            self.delta = self.s.max_step;
+                            derivs = self.derivatives(false);
+                            continue;
+                        }
+                    }
+                }
                 status = if self.evals >= self.s.max_evaluations {
                     Status::EvaluationLimit
                 } else if step.lin_violation > self.s.tol_feas && !feasible {
@@ -569,9 +616,39 @@ impl<'a> Sqp<'a> {
         }
     }
 
+    /// The gain the quadratic model promises at a feasible point (Kraft's test), with the step
+    /// re-solved in the full box when the step box is smaller (a small box would promise little).
+    fn model_gain(&self, d: &Derivs, step: &Step) -> f64 {
+        let full;
+        let st = if self.delta < self.s.max_step {
+            match self.subproblem_in(d, self.s.max_step) {
+                Some(s) => {
+                    full = s;
+                    &full
+                }
+                None => return f64::INFINITY,
+            }
+        } else {
+            step
+        };
+        let c: f64 = st
+            .lam_eq
+            .iter()
+            .zip(&self.v.eq)
+            .chain(st.lam_in.iter().zip(&self.v.ineq))
+            .map(|(l, c)| (l * c).abs())
+            .sum();
+        d.g.dot(&st.p).abs() + c
+    }
+
     /// The elastic quadratic subproblem (variables `p`, then slacks `v`, `w` on the equalities and
     /// `t` on the inequalities, each ≥ 0 and penalized by `ρ`).
     fn subproblem(&self, d: &Derivs) -> Option<Step> {
+        self.subproblem_in(d, self.delta)
+    }
+
+    /// [`Self::subproblem`] in the step box `delta`.
+    fn subproblem_in(&self, d: &Derivs, delta: f64) -> Option<Step> {
         let n = self.x.len();
         let (me, mi) = (self.v.eq.len(), self.v.ineq.len());
         let nz = n + 2 * me + mi;
@@ -589,7 +666,7 @@ impl<'a> Sqp<'a> {
         // An inequality the step cannot change (a zero Jacobian row) is left to its slack: its
         // multiplier would be arbitrary.
         let movable: Vec<bool> = (0..mi).map(|i| d.ji.row(i).amax() > 0.0).collect();
-        let (rows, rhs) = self.elastic_rows(d, &movable);
+        let (rows, rhs) = self.elastic_rows(d, &movable, delta);
         let (z, duals) = solve_qp(&p_upper, &q, &rows, &rhs, me)?;
         Some(Step {
             p: DVector::from_iterator(n, z[..n].iter().copied()),
@@ -606,7 +683,7 @@ impl<'a> Sqp<'a> {
     /// The subproblem's constraint rows over `[p, v, w, t]` and their right-hand sides: first the
     /// equalities `J_E p − v + w = −c_E`, then (as `row · z ≤ rhs`) `J_I p − t ≤ −c_I`, the step
     /// box and bounds on `p`, and the slacks `≥ 0`.
-    fn elastic_rows(&self, d: &Derivs, movable: &[bool]) -> (Vec<Vec<f64>>, Vec<f64>) {
+    fn elastic_rows(&self, d: &Derivs, movable: &[bool], delta: f64) -> (Vec<Vec<f64>>, Vec<f64>) {
         let n = self.x.len();
         let (me, mi) = (self.v.eq.len(), self.v.ineq.len());
         let nz = n + 2 * me + mi;
@@ -642,9 +719,9 @@ impl<'a> Sqp<'a> {
         }
         for j in 0..n {
             rows.push(row(None, Some((j, 1.0))));
-            rhs.push((self.hi[j] - self.x[j]).min(self.delta).max(0.0));
+            rhs.push((self.hi[j] - self.x[j]).min(delta).max(0.0));
             rows.push(row(None, Some((j, -1.0))));
-            rhs.push((self.x[j] - self.lo[j]).min(self.delta).max(0.0));
+            rhs.push((self.x[j] - self.lo[j]).min(delta).max(0.0));
         }
         for k in n..nz {
             rows.push(row(None, Some((k, -1.0))));
@@ -738,7 +815,11 @@ impl<'a> Sqp<'a> {
                 self.delta
             }
         } else {
-            (alpha * p_len).max(1e-3 * self.s.max_step)
+            // Halve rather than shrink to the accepted length: a short step taken once (a
+            // kink, a curved valley) must not hold every later step to its length.
+            (0.5 * self.delta)
+                .max(alpha * p_len)
+                .max(1e-3 * self.s.max_step)
         };
     }
 
