@@ -73,7 +73,11 @@ impl LineFile {
         if f.error.is_some() {
             return;
         }
-        match f.file.write_all(line.as_bytes()).and_then(|()| f.file.flush()) {
+        match f
+            .file
+            .write_all(line.as_bytes())
+            .and_then(|()| f.file.flush())
+        {
             Ok(()) => f.kept += 1,
             Err(e) => f.error = Some(e.to_string()),
         }
@@ -84,7 +88,11 @@ impl LineFile {
         lock(&OPEN).retain(|o| !Arc::ptr_eq(o, &self.0));
         let mut f = lock(&self.0);
         if let (None, Some(l)) = (&f.error, last) {
-            if let Err(e) = f.file.write_all(l.as_bytes()).and_then(|()| f.file.sync_all()) {
+            if let Err(e) = f
+                .file
+                .write_all(l.as_bytes())
+                .and_then(|()| f.file.sync_all())
+            {
                 f.error = Some(e.to_string());
             }
         }

@@ -100,7 +100,11 @@ where
         };
         let csv = match &a.csv {
             Some(p) => Some(LineFile::create(
-                "--csv", p, &csv.header, csv.rows, csv.unit,
+                "--csv",
+                p,
+                &csv.header,
+                csv.rows,
+                csv.unit,
             )?),
             None => None,
         };
@@ -177,7 +181,8 @@ pub fn run_sweep(
         |i, p| render::stream::point_line(i, PointLabel::Sweep, p),
         |i, p| Some(render::csv::points_stream_row(label, i, p)),
     )?;
-    let report = SweepReport::run_streamed(&file, sha, axis, &values, &opts, &Progress::new(), &keep);
+    let report =
+        SweepReport::run_streamed(&file, sha, axis, &values, &opts, &Progress::new(), &keep);
     keep.close(report.points.len(), report.succeeded())?;
     if let Some(path) = &a.csv {
         let text = render::csv::points(label, &report.points);
@@ -270,7 +275,9 @@ pub fn run_trade(problem: &Path, a: &StudyArgs) -> anyhow::Result<u8> {
     let factor_row = |i: usize, p: &Point| -> Option<String> {
         let k = i / 2;
         let param = *traded.get(k)?;
-        let mut w = waiting.lock().unwrap_or_else(std::sync::PoisonError::into_inner);
+        let mut w = waiting
+            .lock()
+            .unwrap_or_else(std::sync::PoisonError::into_inner);
         let other = w.get_mut(i ^ 1)?.take();
         let Some(other) = other else {
             *w.get_mut(i)? = Some(p.clone());
