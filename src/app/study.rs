@@ -697,3 +697,50 @@ impl TradeReport {
         self.factors.iter().all(|f| f.ok)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::sync::Mutex;
+
+    #[test]
+    fn every_finished_item_is_handed_on_once_with_its_index_and_the_results_keep_input_order() {
+        let items: Vec<u64> = (0..64).collect();
+        let seen = Mutex::new(Vec::new());
+        let out = run_each_streamed(
+            "test",
+            &items,
+            &crate::core::observe::Silent,
+            |x| x * x,
+            |i, r| {
+                if let Ok(mut s) = seen.lock() {
+                    s.push((i, *r));
+                }
+            },
+        );
+        assert_eq!(out, items.iter().map(|x| x * x).collect::<Vec<_>>());
+        let mut seen = seen.into_inner().unwrap_or_default();
+        seen.sort_unstable();
+        let want: Vec<(usize, u64)> = items.iter().map(|x| (*x as usize, x * x)).collect();
+        assert_eq!(seen, want);
+    }
+
+    #[test]
+    fn a_closure_is_a_point_sink() {
+        let count = std::sync::atomic::AtomicUsize::new(0);
+        let sink = |i: usize, p: &Point| {
+            assert_eq!(p.value, i as f64);
+            count.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+        };
+        let p = Point {
+            value: 1.0,
+            status: PointStatus::BadInput,
+            message: None,
+            report: None,
+        };
+        let s: &dyn PointSink = &sink;
+        s.point(1, &p);
+        Discard.point(1, &p);
+        assert_eq!(count.load(std::sync::atomic::Ordering::Relaxed), 1);
+    }
+}

@@ -245,3 +245,26 @@ pub fn trade(r: &TradeReport) -> String {
         Ok(())
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::app::study::PointStatus;
+
+    #[test]
+    fn a_streamed_row_has_every_column_of_the_streamed_header() {
+        let p = Point {
+            value: 42.5,
+            status: PointStatus::Unreachable,
+            message: Some("target.inclination_deg: 10 is below the site latitude".into()),
+            report: None,
+        };
+        let head = points_stream_header("inclination_deg");
+        let row = points_stream_row("inclination_deg", 7, &p);
+        assert!(head.starts_with("index,swept_inclination_deg,status,payload_kg,"));
+        assert!(head.ends_with(",trajectories\n"));
+        assert_eq!(head.split(',').count(), 19);
+        assert_eq!(row, format!("7,42.5,unreachable{}\n", ",".repeat(16)));
+        assert_eq!(trade_stream_header(), "index,parameter,step,factor,unit,ok\n");
+    }
+}
