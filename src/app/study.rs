@@ -729,7 +729,7 @@ mod tests {
     fn a_closure_is_a_point_sink() {
         let count = std::sync::atomic::AtomicUsize::new(0);
         let sink = |i: usize, p: &Point| {
-            assert_eq!(p.value, i as f64);
+            assert_eq!(p.value as usize, i);
             count.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
         };
         let p = Point {

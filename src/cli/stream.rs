@@ -103,6 +103,14 @@ impl LineFile {
     }
 }
 
+impl Drop for LineFile {
+    /// A file left without [`LineFile::close`] (an error before the study ran) is forgotten by
+    /// the interrupt handler too.
+    fn drop(&mut self) {
+        lock(&OPEN).retain(|o| !Arc::ptr_eq(o, &self.0));
+    }
+}
+
 /// For the interrupt handler: takes the lock of every open line file, so that no line is cut
 /// and none starts later, and returns what each keeps. The locks stay taken (the process is
 /// about to exit).

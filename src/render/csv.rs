@@ -265,6 +265,9 @@ mod tests {
         assert!(head.ends_with(",trajectories\n"));
         assert_eq!(head.split(',').count(), 19);
         assert_eq!(row, format!("7,42.5,unreachable{}\n", ",".repeat(16)));
-        assert_eq!(trade_stream_header(), "index,parameter,step,factor,unit,ok\n");
+        assert_eq!(
+            trade_stream_header(),
+            "index,parameter,step,factor,unit,ok\n"
+        );
     }
 }
