@@ -95,6 +95,16 @@ impl PointStatus {
         }
     }
 
+    /// The status of a solved point: the search's `status`, unless the search counts as solved
+    /// but the written program's flight does not meet the target (`flown_ok`: the same rule as
+    /// `solve`'s exit code), which is [`PointStatus::NotReached`].
+    pub fn of_solve(status: SolveStatus, flown_ok: bool) -> Self {
+        match PointStatus::from(status) {
+            s if s.is_solved() && !flown_ok => PointStatus::NotReached,
+            s => s,
+        }
+    }
+
     /// The point counts as solved.
     pub fn is_solved(&self) -> bool {
         matches!(self, PointStatus::Converged | PointStatus::IterationLimit)
@@ -180,11 +190,7 @@ pub fn solve_file(file: &ProblemFile, value: f64, opts: &SolveOptions) -> Point 
     match solve(&case, &settings, &crate::core::observe::Silent) {
         Ok(run) => Point {
             value,
-            status: match PointStatus::from(run.report.convergence.status) {
-                // Solved as `solve` says it: the written program's flight meets the target.
-                s if s.is_solved() && !run.report.succeeded() => PointStatus::NotReached,
-                s => s,
-            },
+            status: PointStatus::of_solve(run.report.convergence.status, run.report.succeeded()),
             message: None,
             report: Some(Box::new(run.report)),
         },
@@ -723,6 +729,25 @@ mod tests {
         seen.sort_unstable();
         let want: Vec<(usize, u64)> = items.iter().map(|x| (*x as usize, x * x)).collect();
         assert_eq!(seen, want);
+    }
+
+    #[test]
+    fn a_search_that_ends_solved_but_whose_flight_misses_is_not_reached() {
+        use SolveStatus as S;
+        for s in [S::Converged, S::IterationLimit] {
+            assert_eq!(PointStatus::of_solve(s, false), PointStatus::NotReached);
+            assert_eq!(PointStatus::of_solve(s, false).as_str(), "not_reached");
+            assert!(PointStatus::of_solve(s, true).is_solved());
+        }
+        // An unsolved search keeps its own status whatever the flight does.
+        for (s, p) in [
+            (S::BudgetExhausted, PointStatus::BudgetExhausted),
+            (S::Infeasible, PointStatus::Infeasible),
+            (S::Stalled, PointStatus::Stalled),
+        ] {
+            assert_eq!(PointStatus::of_solve(s, false), p);
+            assert_eq!(PointStatus::of_solve(s, true), p);
+        }
     }
 
     #[test]
