@@ -62,7 +62,9 @@ pub struct StudyArgs {
     pub csv: Option<PathBuf>,
     /// Write each point to this file as JSON Lines the moment it finishes (flushed per line):
     /// a header line, one line per point with its index and the fields of the `--json` point,
-    /// and a last `"complete": true` line only when the run ends normally.
+    /// and a last `"complete": true` line only when the run ends normally. On SIGINT or SIGTERM
+    /// this file and `--csv` keep whole lines, stderr says how many points they keep, and the exit
+    /// code is 130.
     #[arg(long, value_name = "FILE")]
     pub jsonl: Option<PathBuf>,
     /// Maximize payload at full propellant loads (default: least propellant for the file's
