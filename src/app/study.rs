@@ -5,7 +5,9 @@
 //!
 //! Every study runs its points through one runner ([`run_each`], with [`solve_points`] for
 //! re-solved points): in parallel (rayon), in input order, one [`Observer::advanced`] per point,
-//! errors kept as the point's status.
+//! errors kept as the point's status. The `*_streamed` forms also hand each point to a
+//! [`PointSink`] the moment it is finished, so that the caller can keep finished points of a run
+//! that is stopped before its end; the report is the same either way.
 
 use rayon::prelude::*;
 use serde::Serialize;
@@ -90,6 +92,16 @@ impl PointStatus {
             PointStatus::Infeasible => "infeasible",
             PointStatus::Unreachable => "unreachable",
             PointStatus::BadInput => "bad_input",
+        }
+    }
+
+    /// The status of a solved point: the search's `status`, unless the search counts as solved
+    /// but the written program's flight does not meet the target (`flown_ok`: the same rule as
+    /// `solve`'s exit code), which is [`PointStatus::NotReached`].
+    pub fn of_solve(status: SolveStatus, flown_ok: bool) -> Self {
+        match PointStatus::from(status) {
+            s if s.is_solved() && !flown_ok => PointStatus::NotReached,
+            s => s,
         }
     }
 
@@ -178,16 +190,36 @@ pub fn solve_file(file: &ProblemFile, value: f64, opts: &SolveOptions) -> Point 
     match solve(&case, &settings, &crate::core::observe::Silent) {
         Ok(run) => Point {
             value,
-            status: match PointStatus::from(run.report.convergence.status) {
-                // Solved as `solve` says it: the written program's flight meets the target.
-                s if s.is_solved() && !run.report.succeeded() => PointStatus::NotReached,
-                s => s,
-            },
+            status: PointStatus::of_solve(run.report.convergence.status, run.report.succeeded()),
             message: None,
             report: Some(Box::new(run.report)),
         },
         Err(e @ Error::Unreachable(_)) => bad(PointStatus::Unreachable, e.to_string()),
         Err(e) => bad(PointStatus::BadInput, e.to_string()),
+    }
+}
+
+/// Receives each study point as soon as it is solved, before the study ends, so that a caller can
+/// keep finished points of a long run (the command line streams them to a file). Called from
+/// worker threads in the order the points finish, which is not their input order: `index` is the
+/// point's place in the study's input order (for a trade, point `2k` is `+step` and `2k + 1` is
+/// `−step` of `traded(file)[k]`). The final report is the same with or without a sink.
+pub trait PointSink: Sync {
+    /// Point `index` (input order) is finished.
+    fn point(&self, index: usize, point: &Point);
+}
+
+/// The sink that keeps nothing.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Discard;
+
+impl PointSink for Discard {
+    fn point(&self, _index: usize, _point: &Point) {}
+}
+
+impl<F: Fn(usize, &Point) + Sync> PointSink for F {
+    fn point(&self, index: usize, point: &Point) {
+        self(index, point)
     }
 }
 
@@ -200,11 +232,25 @@ pub fn run_each<T: Sync, R: Send>(
     obs: &dyn Observer,
     each: impl Fn(&T) -> R + Sync,
 ) -> Vec<R> {
+    run_each_streamed(what, items, obs, each, |_, _| {})
+}
+
+/// [`run_each`] that also hands each result to `done(index, &result)` as soon as it is finished
+/// (from the worker thread, in finish order), before it counts as progress.
+pub fn run_each_streamed<T: Sync, R: Send>(
+    what: &str,
+    items: &[T],
+    obs: &dyn Observer,
+    each: impl Fn(&T) -> R + Sync,
+    done: impl Fn(usize, &R) + Sync,
+) -> Vec<R> {
     obs.started(what, items.len());
     let out = items
         .par_iter()
-        .map(|item| {
+        .enumerate()
+        .map(|(i, item)| {
             let r = each(item);
+            done(i, &r);
             obs.advanced();
             r
         })
@@ -220,7 +266,24 @@ pub fn solve_points(
     opts: &SolveOptions,
     obs: &dyn Observer,
 ) -> Vec<Point> {
-    run_each(what, points, obs, |(f, v)| solve_file(f, *v, opts))
+    solve_points_streamed(what, points, opts, obs, &Discard)
+}
+
+/// [`solve_points`] that hands each finished point to `sink`.
+pub fn solve_points_streamed(
+    what: &str,
+    points: &[(ProblemFile, f64)],
+    opts: &SolveOptions,
+    obs: &dyn Observer,
+    sink: &dyn PointSink,
+) -> Vec<Point> {
+    run_each_streamed(
+        what,
+        points,
+        obs,
+        |(f, v)| solve_file(f, *v, opts),
+        |i, p| sink.point(i, p),
+    )
 }
 
 /// Solves every value of a sweep in parallel, in input order.
@@ -231,6 +294,18 @@ pub fn sweep(
     opts: &SolveOptions,
     obs: &dyn Observer,
 ) -> Vec<Point> {
+    sweep_streamed(file, axis, values, opts, obs, &Discard)
+}
+
+/// [`sweep`] that hands each finished point to `sink` (index: the value's place in `values`).
+pub fn sweep_streamed(
+    file: &ProblemFile,
+    axis: Axis,
+    values: &[f64],
+    opts: &SolveOptions,
+    obs: &dyn Observer,
+    sink: &dyn PointSink,
+) -> Vec<Point> {
     // Sweeps trade the last kilogram of each point for speed: no outer restart.
     let fast = SolveOptions {
         polish: false,
@@ -238,7 +313,7 @@ pub fn sweep(
     };
     let points: Vec<(ProblemFile, f64)> =
         values.iter().map(|v| (apply(file, axis, *v), *v)).collect();
-    solve_points("sweep", &points, &fast, obs)
+    solve_points_streamed("sweep", &points, &fast, obs, sink)
 }
 
 /// `FROM:TO:STEP` into values (inclusive of TO within half a step).
@@ -287,12 +362,25 @@ impl SweepReport {
         opts: &SolveOptions,
         obs: &dyn Observer,
     ) -> Self {
+        Self::run_streamed(file, input_sha256, axis, values, opts, obs, &Discard)
+    }
+
+    /// [`SweepReport::run`] that hands each finished point to `sink` (see [`PointSink`]).
+    pub fn run_streamed(
+        file: &ProblemFile,
+        input_sha256: String,
+        axis: Axis,
+        values: &[f64],
+        opts: &SolveOptions,
+        obs: &dyn Observer,
+        sink: &dyn PointSink,
+    ) -> Self {
         SweepReport {
             tool: tool_version(),
             input_sha256,
             axis,
             objective: opts.objective,
-            points: sweep(file, axis, values, opts, obs),
+            points: sweep_streamed(file, axis, values, opts, obs, sink),
             caution: CAUTION,
         }
     }
@@ -319,13 +407,23 @@ pub struct CompareReport {
 impl CompareReport {
     /// Solves each `(file, input SHA-256)` and lines them up in input order.
     pub fn run(files: Vec<(ProblemFile, String)>, opts: &SolveOptions, obs: &dyn Observer) -> Self {
+        Self::run_streamed(files, opts, obs, &Discard)
+    }
+
+    /// [`CompareReport::run`] that hands each finished point to `sink` (index: the file's place).
+    pub fn run_streamed(
+        files: Vec<(ProblemFile, String)>,
+        opts: &SolveOptions,
+        obs: &dyn Observer,
+        sink: &dyn PointSink,
+    ) -> Self {
         let (files, shas): (Vec<ProblemFile>, Vec<String>) = files.into_iter().unzip();
         let points: Vec<(ProblemFile, f64)> = files
             .iter()
             .enumerate()
             .map(|(i, f)| (f.clone(), i as f64))
             .collect();
-        let pts = solve_points("compare", &points, opts, obs);
+        let pts = solve_points_streamed("compare", &points, opts, obs, sink);
         CompareReport {
             tool: tool_version(),
             input_sha256: shas,
@@ -467,8 +565,48 @@ fn objective_value(p: &Point, objective: Objective) -> Option<f64> {
     })
 }
 
+impl TradeFactor {
+    /// The factor of `param` from its two re-solved points, `plus` (`+step`) and `minus`
+    /// (`−step`), for `objective`: `NaN` and not `ok` unless both met the target.
+    pub fn of(
+        f: &ProblemFile,
+        param: Traded,
+        plus: &Point,
+        minus: &Point,
+        objective: Objective,
+    ) -> Self {
+        let h = param.step(f);
+        let (a, b) = (
+            objective_value(plus, objective),
+            objective_value(minus, objective),
+        );
+        TradeFactor {
+            param,
+            name: param.name(f),
+            step: h,
+            factor: match (a, b) {
+                (Some(a), Some(b)) => (a - b) / (2.0 * h),
+                _ => f64::NAN,
+            },
+            unit: param.unit(),
+            ok: a.is_some() && b.is_some(),
+        }
+    }
+}
+
 /// Trade factors by central differences of re-solved problems, in parallel.
 pub fn trade(f: &ProblemFile, opts: &SolveOptions, obs: &dyn Observer) -> Vec<TradeFactor> {
+    trade_streamed(f, opts, obs, &Discard)
+}
+
+/// [`trade`] that hands each finished point to `sink`: point `2k` is `+step` and `2k + 1` is
+/// `−step` of `traded(f)[k]` (its `value` is the signed step).
+pub fn trade_streamed(
+    f: &ProblemFile,
+    opts: &SolveOptions,
+    obs: &dyn Observer,
+    sink: &dyn PointSink,
+) -> Vec<TradeFactor> {
     let ps = traded(f);
     let points: Vec<(ProblemFile, f64)> = ps
         .iter()
@@ -477,27 +615,10 @@ pub fn trade(f: &ProblemFile, opts: &SolveOptions, obs: &dyn Observer) -> Vec<Tr
             [(p.apply(f, h), h), (p.apply(f, -h), -h)]
         })
         .collect();
-    let pts = solve_points("trade", &points, opts, obs);
+    let pts = solve_points_streamed("trade", &points, opts, obs, sink);
     ps.iter()
         .enumerate()
-        .map(|(i, p)| {
-            let h = p.step(f);
-            let (a, b) = (
-                objective_value(&pts[2 * i], opts.objective),
-                objective_value(&pts[2 * i + 1], opts.objective),
-            );
-            TradeFactor {
-                param: *p,
-                name: p.name(f),
-                step: h,
-                factor: match (a, b) {
-                    (Some(a), Some(b)) => (a - b) / (2.0 * h),
-                    _ => f64::NAN,
-                },
-                unit: p.unit(),
-                ok: a.is_some() && b.is_some(),
-            }
-        })
+        .map(|(i, p)| TradeFactor::of(f, *p, &pts[2 * i], &pts[2 * i + 1], opts.objective))
         .collect()
 }
 
@@ -553,6 +674,17 @@ impl TradeReport {
         opts: &SolveOptions,
         obs: &dyn Observer,
     ) -> Self {
+        Self::run_streamed(file, input_sha256, opts, obs, &Discard)
+    }
+
+    /// [`TradeReport::run`] that hands each finished point to `sink` (see [`trade_streamed`]).
+    pub fn run_streamed(
+        file: &ProblemFile,
+        input_sha256: String,
+        opts: &SolveOptions,
+        obs: &dyn Observer,
+        sink: &dyn PointSink,
+    ) -> Self {
         TradeReport {
             tool: tool_version(),
             problem: file.name.clone(),
@@ -561,7 +693,7 @@ impl TradeReport {
             ideal_isp_factors: (0..file.vehicle.stages.len())
                 .map(|k| ideal_isp_factor(file, k))
                 .collect(),
-            factors: trade(file, opts, obs),
+            factors: trade_streamed(file, opts, obs, sink),
             caution: CAUTION,
         }
     }
@@ -569,5 +701,71 @@ impl TradeReport {
     /// Every factor from two solved points.
     pub fn succeeded(&self) -> bool {
         self.factors.iter().all(|f| f.ok)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::sync::Mutex;
+
+    #[test]
+    fn every_finished_item_is_handed_on_once_with_its_index_and_the_results_keep_input_order() {
+        let items: Vec<u64> = (0..64).collect();
+        let seen = Mutex::new(Vec::new());
+        let out = run_each_streamed(
+            "test",
+            &items,
+            &crate::core::observe::Silent,
+            |x| x * x,
+            |i, r| {
+                if let Ok(mut s) = seen.lock() {
+                    s.push((i, *r));
+                }
+            },
+        );
+        assert_eq!(out, items.iter().map(|x| x * x).collect::<Vec<_>>());
+        let mut seen = seen.into_inner().unwrap_or_default();
+        seen.sort_unstable();
+        let want: Vec<(usize, u64)> = items.iter().map(|x| (*x as usize, x * x)).collect();
+        assert_eq!(seen, want);
+    }
+
+    #[test]
+    fn a_search_that_ends_solved_but_whose_flight_misses_is_not_reached() {
+        use SolveStatus as S;
+        for s in [S::Converged, S::IterationLimit] {
+            assert_eq!(PointStatus::of_solve(s, false), PointStatus::NotReached);
+            assert_eq!(PointStatus::of_solve(s, false).as_str(), "not_reached");
+            assert!(PointStatus::of_solve(s, true).is_solved());
+        }
+        // An unsolved search keeps its own status whatever the flight does.
+        for (s, p) in [
+            (S::BudgetExhausted, PointStatus::BudgetExhausted),
+            (S::Infeasible, PointStatus::Infeasible),
+            (S::Stalled, PointStatus::Stalled),
+        ] {
+            assert_eq!(PointStatus::of_solve(s, false), p);
+            assert_eq!(PointStatus::of_solve(s, true), p);
+        }
+    }
+
+    #[test]
+    fn a_closure_is_a_point_sink() {
+        let count = std::sync::atomic::AtomicUsize::new(0);
+        let sink = |i: usize, p: &Point| {
+            assert_eq!(p.value as usize, i);
+            count.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+        };
+        let p = Point {
+            value: 1.0,
+            status: PointStatus::BadInput,
+            message: None,
+            report: None,
+        };
+        let s: &dyn PointSink = &sink;
+        s.point(1, &p);
+        Discard.point(1, &p);
+        assert_eq!(count.load(std::sync::atomic::Ordering::Relaxed), 1);
     }
 }

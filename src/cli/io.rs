@@ -168,8 +168,10 @@ fn temporary(path: &Path) -> anyhow::Result<std::path::PathBuf> {
 /// Temporary files being written, removed by the interrupt handler.
 static PENDING: std::sync::Mutex<Vec<std::path::PathBuf>> = std::sync::Mutex::new(Vec::new());
 
-/// Removes the temporary files of writes under way and exits with 130 on SIGINT or SIGTERM, so
-/// that an interrupted run leaves no temporary file behind (the outputs it had finished stay).
+/// On SIGINT or SIGTERM: removes the temporary files of writes under way, stops the line files
+/// of a running study after their last whole line and says what each keeps, and exits with
+/// [`super::EXIT_INTERRUPTED`]. An interrupted run leaves no temporary file behind; the outputs it had
+/// finished stay, and so do the finished points of a study (`--jsonl`, `--csv`).
 pub fn remove_temporaries_on_interrupt() {
     let _ = ctrlc::set_handler(|| {
         if let Ok(list) = PENDING.lock() {
@@ -177,8 +179,16 @@ pub fn remove_temporaries_on_interrupt() {
                 let _ = std::fs::remove_file(p);
             }
         }
-        eprintln!("interrupted: temporary files removed; finished outputs kept");
-        std::process::exit(130);
+        let kept = super::stream::stop_all();
+        for m in &kept {
+            eprintln!("{m}");
+        }
+        if kept.is_empty() {
+            eprintln!("interrupted: temporary files removed; finished outputs kept");
+        } else {
+            eprintln!("interrupted: the run did not finish; temporary files removed");
+        }
+        std::process::exit(super::EXIT_INTERRUPTED.into());
     });
 }
 

@@ -4,10 +4,13 @@
 //! (`kickturn::render`) and writes the results. Results go to stdout, diagnostics to stderr.
 //!
 //! Exit codes: 0 success (orbit reached, target met), 1 ran but did not reach orbit or the target
-//! (or the target inclination is out of reach of a direct ascent), 2 bad input or usage.
+//! (or the target inclination is out of reach of a direct ascent), 2 bad input or usage, 130
+//! interrupted by SIGINT or SIGTERM (a study keeps the points it finished in `--jsonl` and
+//! `--csv`; see `stream`).
 
 mod io;
 mod solve;
+mod stream;
 mod study;
 
 use std::path::PathBuf;
@@ -52,9 +55,18 @@ pub struct StudyArgs {
     /// Print one JSON object instead of the table.
     #[arg(long)]
     pub json: bool,
-    /// Write the table as CSV to this file.
+    /// Write the table as CSV to this file. While the study runs, each finished row is appended
+    /// at once (an `index` column first, rows in the order they finish), so that an interrupted
+    /// run keeps them; at the end the file is replaced by the table in input order.
     #[arg(long, value_name = "FILE")]
     pub csv: Option<PathBuf>,
+    /// Write each point to this file as JSON Lines the moment it finishes (flushed per line):
+    /// a header line, one line per point with its index and the fields of the `--json` point,
+    /// and a last `"complete": true` line only when the run ends normally. On SIGINT or SIGTERM
+    /// this file and `--csv` keep whole lines, stderr says how many points they keep, and the exit
+    /// code is 130.
+    #[arg(long, value_name = "FILE")]
+    pub jsonl: Option<PathBuf>,
     /// Maximize payload at full propellant loads (default: least propellant for the file's
     /// payload).
     #[arg(long)]
@@ -63,6 +75,9 @@ pub struct StudyArgs {
     /// that results do not depend on the machine).
     #[arg(long, value_name = "S")]
     pub max_wall_s: Option<f64>,
+    /// Trajectory budget of each point's solve.
+    #[arg(long, default_value_t = 50_000, value_name = "N")]
+    pub max_trajectories: usize,
 }
 
 impl StudyArgs {
@@ -71,6 +86,7 @@ impl StudyArgs {
         let o = kickturn::app::solve::SolveSettings {
             solver: kickturn::optimize::SolveOptions {
                 max_wall_s: self.max_wall_s,
+                max_trajectories: self.max_trajectories,
                 ..Default::default()
             },
             ..Default::default()
@@ -80,6 +96,7 @@ impl StudyArgs {
         }
         Ok(kickturn::optimize::SolveOptions {
             max_wall_s: self.max_wall_s,
+            max_trajectories: self.max_trajectories,
             objective: if self.max_payload {
                 kickturn::optimize::Objective::MaxPayload
             } else {
@@ -231,6 +248,8 @@ pub const EXIT_OK: u8 = 0;
 pub const EXIT_NOT_REACHED: u8 = 1;
 /// Exit code for bad input or usage.
 pub const EXIT_BAD_INPUT: u8 = 2;
+/// Exit code of a run stopped by SIGINT or SIGTERM (128 + SIGINT, as shells report it).
+pub const EXIT_INTERRUPTED: u8 = 130;
 
 /// Parses arguments, runs, and maps the outcome to an exit code.
 pub fn main_with_args(args: impl IntoIterator<Item = std::ffi::OsString>) -> ExitCode {
@@ -273,28 +292,10 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
                 (_, _, _, Some(r)) => (Axis::Payload, r),
                 _ => bail!("sweep: give one of --azimuth, --inclination, --altitude, --payload"),
             };
-            study::run_sweep(
-                &a.problem,
-                axis,
-                range,
-                &a.study.options()?,
-                a.study.json,
-                a.study.csv.as_ref(),
-                a.plot.as_ref(),
-            )
+            study::run_sweep(&a.problem, axis, range, &a.study, a.plot.as_ref())
         }
-        Command::Compare(a) => study::run_compare(
-            &a.problems,
-            &a.study.options()?,
-            a.study.json,
-            a.study.csv.as_ref(),
-        ),
-        Command::Trade(a) => study::run_trade(
-            &a.problem,
-            &a.study.options()?,
-            a.study.json,
-            a.study.csv.as_ref(),
-        ),
+        Command::Compare(a) => study::run_compare(&a.problems, &a.study),
+        Command::Trade(a) => study::run_trade(&a.problem, &a.study),
     }
 }
 

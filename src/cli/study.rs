@@ -1,19 +1,30 @@
 //! `kickturn sweep`, `compare` and `trade`: read the files, run the study in the application
-//! layer with a progress bar, write the CSV and figures, print the table or JSON.
+//! layer with a progress bar, keep each finished point (`--jsonl`, `--csv`) as it comes, write
+//! the CSV and figures, print the table or JSON.
+//!
+//! `--csv` is written twice: while the study runs, each finished row is appended to the file
+//! (an `index` column first, rows in the order they finish, flushed per row), so that an
+//! interrupted run keeps them; when the study ends, the file is replaced atomically by the table
+//! in input order, without the `index` column (the same bytes as a run that was never streamed).
 
 use std::path::{Path, PathBuf};
+use std::sync::Mutex;
 
 use anyhow::{bail, Context};
 
-use kickturn::app::study::{self, Axis, CompareReport, SweepReport, TradeReport};
-use kickturn::optimize::SolveOptions;
+use kickturn::app::study::{
+    self, Axis, CompareReport, Point, PointSink, SweepReport, TradeFactor, TradeReport,
+};
 use kickturn::problem::ProblemFile;
 use kickturn::render;
+use kickturn::render::stream::{PointLabel, StreamHeader};
 
 use super::exit_code;
 use super::io::{
     check_outputs, emit, read_file, write_atomic, write_figures, OutputKind, Progress,
 };
+use super::stream::LineFile;
+use super::StudyArgs;
 
 /// Prints `report` as JSON or as the text `table`.
 fn print<T: serde::Serialize>(
@@ -35,37 +46,153 @@ fn read_valid(path: &Path) -> anyhow::Result<(ProblemFile, String)> {
     Ok((file, sha))
 }
 
+/// The file outputs of every study (`--csv`, `--jsonl`), for [`check_outputs`].
+fn study_outputs(a: &StudyArgs) -> Vec<(&'static str, &Path, OutputKind)> {
+    let mut v = Vec::new();
+    if let Some(p) = &a.csv {
+        v.push(("--csv", p.as_path(), OutputKind::File));
+    }
+    if let Some(p) = &a.jsonl {
+        v.push(("--jsonl", p.as_path(), OutputKind::File));
+    }
+    v
+}
+
+/// Where a running study keeps each finished point: the `--jsonl` line of `line(index, point)`
+/// and the `--csv` row of `row(index, point)` (none while a trade factor waits for its other
+/// point).
+struct Keep<L, R> {
+    jsonl: Option<LineFile>,
+    csv: Option<LineFile>,
+    line: L,
+    row: R,
+}
+
+/// The header of the `--csv` stream, and how many rows of what it plans.
+struct CsvPlan {
+    header: String,
+    rows: usize,
+    unit: &'static str,
+}
+
+impl<L, R> Keep<L, R>
+where
+    L: Fn(usize, &Point) -> String + Sync,
+    R: Fn(usize, &Point) -> Option<String> + Sync,
+{
+    /// Creates the files the options name and writes their header lines.
+    fn open(
+        a: &StudyArgs,
+        header: &StreamHeader<'_>,
+        csv: CsvPlan,
+        line: L,
+        row: R,
+    ) -> anyhow::Result<Self> {
+        let jsonl = match &a.jsonl {
+            Some(p) => Some(LineFile::create(
+                "--jsonl",
+                p,
+                &render::stream::header_line(header),
+                header.planned_points,
+                "points",
+            )?),
+            None => None,
+        };
+        let csv = match &a.csv {
+            Some(p) => Some(LineFile::create(
+                "--csv",
+                p,
+                &csv.header,
+                csv.rows,
+                csv.unit,
+            )?),
+            None => None,
+        };
+        Ok(Keep {
+            jsonl,
+            csv,
+            line,
+            row,
+        })
+    }
+
+    /// The run ended normally: the completion line ends the JSON Lines file.
+    fn close(self, points: usize, succeeded: bool) -> anyhow::Result<()> {
+        if let Some(f) = self.jsonl {
+            f.close(Some(&render::stream::complete_line(points, succeeded)))?;
+        }
+        if let Some(f) = self.csv {
+            f.close(None)?;
+        }
+        Ok(())
+    }
+}
+
+impl<L, R> PointSink for Keep<L, R>
+where
+    L: Fn(usize, &Point) -> String + Sync,
+    R: Fn(usize, &Point) -> Option<String> + Sync,
+{
+    fn point(&self, index: usize, point: &Point) {
+        if let Some(f) = &self.jsonl {
+            f.record(&(self.line)(index, point));
+        }
+        if let (Some(f), Some(row)) = (&self.csv, (self.row)(index, point)) {
+            f.record(&row);
+        }
+    }
+}
+
 /// Runs `kickturn sweep`.
 pub fn run_sweep(
     problem: &Path,
     axis: Axis,
     range: &str,
-    opts: &SolveOptions,
-    json: bool,
-    csv_path: Option<&PathBuf>,
+    a: &StudyArgs,
     plot: Option<&PathBuf>,
 ) -> anyhow::Result<u8> {
+    let opts = a.options()?;
     let values =
         study::parse_range(range).map_err(|e| anyhow::anyhow!("--{}: {e}", axis_flag(axis)))?;
-    let mut outputs = Vec::new();
-    if let Some(p) = csv_path {
-        outputs.push(("--csv", p.as_path(), OutputKind::File));
-    }
+    let mut outputs = study_outputs(a);
     if let Some(p) = plot {
         outputs.push(("--plot", p.as_path(), OutputKind::Folder));
     }
     check_outputs(&[problem], &outputs)?;
     let (file, sha) = read_valid(problem)?;
-    let report = SweepReport::run(&file, sha, axis, &values, opts, &Progress::new());
-    if let Some(path) = csv_path {
-        let text = render::csv::points(axis.label(), &report.points);
+    let label = axis.label();
+    let shas = [sha.clone()];
+    let header = StreamHeader {
+        study: "sweep",
+        planned_points: values.len(),
+        value: label,
+        objective: opts.objective,
+        input_sha256: &shas,
+    };
+    let csv = CsvPlan {
+        header: render::csv::points_stream_header(label),
+        rows: values.len(),
+        unit: "points",
+    };
+    let keep = Keep::open(
+        a,
+        &header,
+        csv,
+        |i, p| render::stream::point_line(i, PointLabel::Sweep, p),
+        |i, p| Some(render::csv::points_stream_row(label, i, p)),
+    )?;
+    let report =
+        SweepReport::run_streamed(&file, sha, axis, &values, &opts, &Progress::new(), &keep);
+    keep.close(report.points.len(), report.succeeded())?;
+    if let Some(path) = &a.csv {
+        let text = render::csv::points(label, &report.points);
         write_atomic(path, problem, text.as_bytes())?;
     }
     if let Some(dir) = plot {
         let figures = render::figures::sweep_figures(&file.name, axis, &report.points)?;
         write_figures(dir, problem, &figures)?;
     }
-    print(json, &report, || render::study::sweep(&report, range))?;
+    print(a.json, &report, || render::study::sweep(&report, range))?;
     Ok(exit_code(report.succeeded()))
 }
 
@@ -79,48 +206,106 @@ fn axis_flag(a: Axis) -> &'static str {
 }
 
 /// Runs `kickturn compare`.
-pub fn run_compare(
-    files: &[PathBuf],
-    opts: &SolveOptions,
-    json: bool,
-    csv_path: Option<&PathBuf>,
-) -> anyhow::Result<u8> {
+pub fn run_compare(files: &[PathBuf], a: &StudyArgs) -> anyhow::Result<u8> {
+    let opts = a.options()?;
     if files.len() < 2 {
         bail!("compare: give at least two problem files");
     }
     let inputs: Vec<&Path> = files.iter().map(PathBuf::as_path).collect();
-    if let Some(p) = csv_path {
-        check_outputs(&inputs, &[("--csv", p.as_path(), OutputKind::File)])?;
-    }
+    check_outputs(&inputs, &study_outputs(a))?;
     let read: Vec<(ProblemFile, String)> = files
         .iter()
         .map(|p| read_file(p))
         .collect::<anyhow::Result<_>>()?;
-    let report = CompareReport::run(read, opts, &Progress::new());
-    if let Some(path) = csv_path {
-        let pts: Vec<study::Point> = report.problems.iter().map(|(_, p)| p.clone()).collect();
+    let names: Vec<String> = read.iter().map(|(f, _)| f.name.clone()).collect();
+    let shas: Vec<String> = read.iter().map(|(_, s)| s.clone()).collect();
+    let header = StreamHeader {
+        study: "compare",
+        planned_points: read.len(),
+        value: "problem_index",
+        objective: opts.objective,
+        input_sha256: &shas,
+    };
+    let csv = CsvPlan {
+        header: render::csv::points_stream_header("index"),
+        rows: read.len(),
+        unit: "points",
+    };
+    let name = |i: usize| names.get(i).map_or("", String::as_str);
+    let keep = Keep::open(
+        a,
+        &header,
+        csv,
+        |i, p| render::stream::point_line(i, PointLabel::Problem(name(i)), p),
+        |i, p| Some(render::csv::points_stream_row("index", i, p)),
+    )?;
+    let report = CompareReport::run_streamed(read, &opts, &Progress::new(), &keep);
+    keep.close(report.problems.len(), report.succeeded())?;
+    if let Some(path) = &a.csv {
+        let pts: Vec<Point> = report.problems.iter().map(|(_, p)| p.clone()).collect();
         let text = render::csv::points("index", &pts);
         write_atomic(path, &files[0], text.as_bytes())?;
     }
-    print(json, &report, || render::study::compare(&report))?;
+    print(a.json, &report, || render::study::compare(&report))?;
     Ok(exit_code(report.succeeded()))
 }
 
 /// Runs `kickturn trade`.
-pub fn run_trade(
-    problem: &Path,
-    opts: &SolveOptions,
-    json: bool,
-    csv_path: Option<&PathBuf>,
-) -> anyhow::Result<u8> {
-    if let Some(p) = csv_path {
-        check_outputs(&[problem], &[("--csv", p.as_path(), OutputKind::File)])?;
-    }
+pub fn run_trade(problem: &Path, a: &StudyArgs) -> anyhow::Result<u8> {
+    let opts = a.options()?;
+    check_outputs(&[problem], &study_outputs(a))?;
     let (file, sha) = read_valid(problem)?;
-    let report = TradeReport::run(&file, sha, opts, &Progress::new());
-    if let Some(path) = csv_path {
+    let traded = study::traded(&file);
+    let names: Vec<String> = traded.iter().map(|t| t.name(&file)).collect();
+    let shas = [sha.clone()];
+    let header = StreamHeader {
+        study: "trade",
+        planned_points: 2 * traded.len(),
+        value: "signed_step",
+        objective: opts.objective,
+        input_sha256: &shas,
+    };
+    let csv = CsvPlan {
+        header: render::csv::trade_stream_header(),
+        rows: traded.len(),
+        unit: "trade factors",
+    };
+    // Point 2k is +step and 2k + 1 is −step of traded[k]; a factor's row waits for both.
+    let waiting: Mutex<Vec<Option<Point>>> = Mutex::new(vec![None; 2 * traded.len()]);
+    let factor_row = |i: usize, p: &Point| -> Option<String> {
+        let k = i / 2;
+        let param = *traded.get(k)?;
+        let mut w = waiting
+            .lock()
+            .unwrap_or_else(std::sync::PoisonError::into_inner);
+        let other = w.get_mut(i ^ 1)?.take();
+        let Some(other) = other else {
+            *w.get_mut(i)? = Some(p.clone());
+            return None;
+        };
+        let (plus, minus) = if i % 2 == 0 { (p, &other) } else { (&other, p) };
+        let f = TradeFactor::of(&file, param, plus, minus, opts.objective);
+        Some(render::csv::trade_stream_row(k, &f))
+    };
+    let keep = Keep::open(
+        a,
+        &header,
+        csv,
+        |i, p| {
+            let k = i / 2;
+            let label = match (traded.get(k), names.get(k)) {
+                (Some(t), Some(n)) => PointLabel::Traded(*t, n),
+                _ => PointLabel::Sweep,
+            };
+            render::stream::point_line(i, label, p)
+        },
+        factor_row,
+    )?;
+    let report = TradeReport::run_streamed(&file, sha, &opts, &Progress::new(), &keep);
+    keep.close(2 * report.factors.len(), report.succeeded())?;
+    if let Some(path) = &a.csv {
         write_atomic(path, problem, render::csv::trade(&report).as_bytes())?;
     }
-    print(json, &report, || render::study::trade(&report))?;
+    print(a.json, &report, || render::study::trade(&report))?;
     Ok(exit_code(report.succeeded()))
 }

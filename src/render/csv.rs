@@ -1,10 +1,15 @@
 //! CSV renderings: the time history (one row per recorded instant, units in the column names;
 //! cumulative losses named `_rel_` are in the Earth-relative bookkeeping), study points (one
 //! column set for sweeps and comparisons) and trade factors.
+//!
+//! A study that is still running writes its CSV one finished row at a time (`*_stream_*`): the
+//! same columns with an `index` column first (the row's place in input order; rows come in the
+//! order they finish, and sweep and comparison rows always carry every result column). When the
+//! study ends the file is replaced by the whole table in input order ([`points`], [`trade`]).
 
 use std::io::Write;
 
-use crate::app::study::{Point, TradeReport};
+use crate::app::study::{Point, TradeFactor, TradeReport};
 use crate::core::sim::Snapshot;
 
 /// Runs `write` on an in-memory CSV writer and returns the text (writing to memory cannot fail;
@@ -85,6 +90,26 @@ fn history_rows<W: Write>(out: &mut csv::Writer<W>, rows: &[Snapshot]) -> Result
     Ok(())
 }
 
+/// Result columns of a solved study point, after `swept_<label>` and `status`.
+const POINT_RESULTS: [&str; 16] = [
+    "payload_kg",
+    "propellant_used_kg",
+    "margin_kg",
+    "margin_mps",
+    "ideal_mps",
+    "gravity_loss_mps",
+    "drag_loss_mps",
+    "steering_loss_mps",
+    "back_pressure_loss_mps",
+    "earth_rotation_mps",
+    "rotating_frame_mps",
+    "inclination_deg",
+    "perigee_alt_km",
+    "max_dynamic_pressure_kpa",
+    "max_axial_accel_g",
+    "trajectories",
+];
+
 /// Columns of a study point row: (header, value).
 fn point_row(label: &str, p: &Point) -> Vec<(String, String)> {
     // The swept value gets its own column name: `payload_kg` is also a result column.
@@ -97,27 +122,25 @@ fn point_row(label: &str, p: &Point) -> Vec<(String, String)> {
     if let Some(r) = &p.report {
         let b = &r.flight.budget;
         let o = &r.flight.orbit;
-        for (h, x) in [
-            ("payload_kg", r.payload_kg),
-            ("propellant_used_kg", r.propellant_used_kg),
-            ("margin_kg", r.margin_kg),
-            ("margin_mps", r.margin_mps),
-            ("ideal_mps", b.ideal_mps),
-            ("gravity_loss_mps", b.gravity_loss_mps),
-            ("drag_loss_mps", b.drag_loss_mps),
-            ("steering_loss_mps", b.steering_loss_mps),
-            ("back_pressure_loss_mps", b.back_pressure_loss_mps),
-            ("earth_rotation_mps", b.earth_rotation_mps),
-            ("rotating_frame_mps", b.rotating_frame_mps),
-            ("inclination_deg", o.inclination_deg),
-            ("perigee_alt_km", o.perigee_alt_km),
-            (
-                "max_dynamic_pressure_kpa",
-                r.flight.max_dynamic_pressure_pa / 1e3,
-            ),
-            ("max_axial_accel_g", r.flight.max_axial_accel_g),
-        ] {
-            v.push((h.into(), f(x)));
+        let values = [
+            r.payload_kg,
+            r.propellant_used_kg,
+            r.margin_kg,
+            r.margin_mps,
+            b.ideal_mps,
+            b.gravity_loss_mps,
+            b.drag_loss_mps,
+            b.steering_loss_mps,
+            b.back_pressure_loss_mps,
+            b.earth_rotation_mps,
+            b.rotating_frame_mps,
+            o.inclination_deg,
+            o.perigee_alt_km,
+            r.flight.max_dynamic_pressure_pa / 1e3,
+            r.flight.max_axial_accel_g,
+        ];
+        for (h, x) in POINT_RESULTS.iter().zip(values) {
+            v.push(((*h).into(), f(x)));
         }
         v.push((
             "trajectories".into(),
@@ -125,6 +148,61 @@ fn point_row(label: &str, p: &Point) -> Vec<(String, String)> {
         ));
     }
     v
+}
+
+/// One CSV record (fields quoted as needed) and its line end, as text.
+fn line<I, S>(fields: I) -> String
+where
+    I: IntoIterator<Item = S>,
+    S: AsRef<[u8]>,
+{
+    to_string(|out| {
+        out.write_record(fields)?;
+        out.flush()?;
+        Ok(())
+    })
+}
+
+/// The header line of a study's streamed CSV: `index`, `swept_<label>`, `status` and every result
+/// column.
+pub fn points_stream_header(label: &str) -> String {
+    let swept = format!("swept_{label}");
+    let head = ["index", swept.as_str(), "status"];
+    line(head.iter().chain(POINT_RESULTS.iter()))
+}
+
+/// One streamed row of point `index` (input order), in the columns of [`points_stream_header`];
+/// an unsolved point leaves the result columns empty.
+pub fn points_stream_row(label: &str, index: usize, p: &Point) -> String {
+    let r = point_row(label, p);
+    let mut rec = vec![index.to_string()];
+    rec.extend(r.iter().map(|(_, v)| v.clone()));
+    rec.resize(3 + POINT_RESULTS.len(), String::new());
+    line(rec)
+}
+
+/// Columns of the trade CSV.
+const TRADE_COLUMNS: [&str; 5] = ["parameter", "step", "factor", "unit", "ok"];
+
+fn trade_record(f: &TradeFactor) -> [String; 5] {
+    [
+        f.name.clone(),
+        f.step.to_string(),
+        f.factor.to_string(),
+        f.unit.to_string(),
+        f.ok.to_string(),
+    ]
+}
+
+/// The header line of a trade's streamed CSV: `index` and the trade columns.
+pub fn trade_stream_header() -> String {
+    line(std::iter::once(&"index").chain(TRADE_COLUMNS.iter()))
+}
+
+/// One streamed trade row: factor `index` (its place in the finished table), once both of its
+/// points are finished.
+pub fn trade_stream_row(index: usize, f: &TradeFactor) -> String {
+    line(std::iter::once(index.to_string()).chain(trade_record(f)))
 }
 
 /// Study points as CSV text; `label` names the swept column (`swept_<label>`). Every row has
@@ -159,17 +237,37 @@ pub fn points(label: &str, pts: &[Point]) -> String {
 /// Trade factors as CSV text.
 pub fn trade(r: &TradeReport) -> String {
     to_string(|out| {
-        out.write_record(["parameter", "step", "factor", "unit", "ok"])?;
+        out.write_record(TRADE_COLUMNS)?;
         for f in &r.factors {
-            out.write_record([
-                f.name.clone(),
-                f.step.to_string(),
-                f.factor.to_string(),
-                f.unit.to_string(),
-                f.ok.to_string(),
-            ])?;
+            out.write_record(trade_record(f))?;
         }
         out.flush()?;
         Ok(())
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::app::study::PointStatus;
+
+    #[test]
+    fn a_streamed_row_has_every_column_of_the_streamed_header() {
+        let p = Point {
+            value: 42.5,
+            status: PointStatus::Unreachable,
+            message: Some("target.inclination_deg: 10 is below the site latitude".into()),
+            report: None,
+        };
+        let head = points_stream_header("inclination_deg");
+        let row = points_stream_row("inclination_deg", 7, &p);
+        assert!(head.starts_with("index,swept_inclination_deg,status,payload_kg,"));
+        assert!(head.ends_with(",trajectories\n"));
+        assert_eq!(head.split(',').count(), 19);
+        assert_eq!(row, format!("7,42.5,unreachable{}\n", ",".repeat(16)));
+        assert_eq!(
+            trade_stream_header(),
+            "index,parameter,step,factor,unit,ok\n"
+        );
+    }
 }

@@ -10,5 +10,6 @@ pub mod html;
 #[cfg(feature = "figures")]
 pub mod plots;
 pub mod solve;
+pub mod stream;
 pub mod study;
 pub mod text;
