@@ -605,3 +605,31 @@ fn an_unreachable_target_inclination_with_a_given_azimuth_is_refused_at_once() {
     let dv = r["plane_change_mps"].as_f64().unwrap_or(f64::NAN);
     assert!((dv - 1091.4).abs() < 1.0, "{dv}");
 }
+
+#[test]
+fn a_tuned_variable_on_its_bound_is_flagged() {
+    // Issue 9: a solve that ends on a variable's bound must say so. The small demo's staging
+    // coasts stay at their written lengths (the shortest allowed): flagged `lower`; the kick and
+    // the steering are free optima: not flagged.
+    let out = kickturn(&["solve", "problems/small-3stage-sso500.json", "--json"]);
+    assert_eq!(out.status.code(), Some(0));
+    let r = json_of(&out);
+    let tuned = r["tuned"].as_array().cloned().unwrap_or_default();
+    let flag = |field: &str| {
+        tuned
+            .iter()
+            .find(|t| t["field"] == field)
+            .map(|t| t["at_bound"].clone())
+            .unwrap_or_else(|| panic!("{field} not tuned: {tuned:?}"))
+    };
+    assert_eq!(flag("ascent.arcs[1].coast.duration_s"), "lower");
+    assert_eq!(flag("ascent.arcs[3].coast.duration_s"), "lower");
+    assert!(flag("ascent.liftoff.kick_deg").is_null());
+    let text = kickturn(&["solve", "problems/small-3stage-sso500.json"]);
+    let text = String::from_utf8_lossy(&text.stdout);
+    assert!(
+        text.lines()
+            .any(|l| l.contains("arcs[1].coast.duration_s") && l.ends_with("(at its lower bound)")),
+        "{text}"
+    );
+}

@@ -12,6 +12,7 @@ use super::{check_range, check_step, Case, Error};
 use crate::core::observe::Observer;
 use crate::core::optimize::{tune_observed, Convergence, SolveOptions, SolveStatus};
 use crate::core::problem::file::{AscentFile, LaunchFile, ProblemFile};
+use crate::core::problem::params::Param;
 use crate::core::problem::{validate, Problem};
 use crate::core::sim::{fly, EventKind, Flight, FlyOptions};
 
@@ -31,6 +32,37 @@ pub struct Tuned {
     pub field: String,
     /// Value in the field's unit.
     pub value: f64,
+    /// The bound the value sits on, if any: the optimum may lie beyond it (widen it, or free
+    /// another variable), so it is not a free optimum in this variable.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub at_bound: Option<AtBound>,
+}
+
+/// Which bound a tuned variable sits on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum AtBound {
+    /// Its lower bound (for a timed coast: the written length, the shortest allowed).
+    Lower,
+    /// Its upper bound.
+    Upper,
+}
+
+/// The bound `x` (SI) of `v` sits on: the registry's bounds, and for a timed coast its written
+/// length in `written` (the shortest allowed). Within 1e-6 of the variable's scale.
+fn bound_hit(v: &Param, x: f64, written: &Problem) -> Option<AtBound> {
+    let (mut lo, hi) = v.bounds();
+    if matches!(v, Param::Coast(_)) {
+        lo = lo.max(v.get(written).unwrap_or(lo));
+    }
+    let tol = 1e-6 * v.scale().max(x.abs());
+    if x - lo <= tol {
+        Some(AtBound::Lower)
+    } else if hi - x <= tol {
+        Some(AtBound::Upper)
+    } else {
+        None
+    }
 }
 
 /// Everything `solve` reports (the `--json` document): the `fly` report of the tuned program plus
@@ -380,6 +412,7 @@ fn report(
             .map(|(v, x)| Tuned {
                 field: v.name(),
                 value: v.to_file_unit(*x),
+                at_bound: bound_hit(v, *x, p),
             })
             .collect(),
         propellant_used_kg: flown.vehicle.propellant_loaded_kg() - report.propellant_remaining_kg,

@@ -71,7 +71,12 @@ pub fn summary(r: &SolveReport) -> String {
     let _ = writeln!(s, "terminal residuals: {}", res.join(", "));
     let _ = writeln!(s, "tuned program:");
     for t in &r.tuned {
-        let _ = writeln!(s, "  {:<64} {:>14.6}", t.field, t.value);
+        let bound = match t.at_bound {
+            None => "",
+            Some(crate::app::solve::AtBound::Lower) => "  (at its lower bound)",
+            Some(crate::app::solve::AtBound::Upper) => "  (at its upper bound)",
+        };
+        let _ = writeln!(s, "  {:<64} {:>14.6}{bound}", t.field, t.value);
     }
     for a in &r.active_constraints {
         let _ = writeln!(s, "active: {a}");
