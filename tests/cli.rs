@@ -633,3 +633,28 @@ fn a_tuned_variable_on_its_bound_is_flagged() {
         "{text}"
     );
 }
+
+#[test]
+fn explore_never_reports_a_negative_gain() {
+    // Repro (issue 9): `--explore` on a two-stage vehicle reported "would gain −3110.2 kg": the
+    // richer search (free pitch-over rate and vertical rise) ended below the base program,
+    // which lies inside its space. It now starts from the base optimum, and a search that ends
+    // above it counts as no gain.
+    let out = kickturn(&[
+        "solve",
+        "problems/medium-2stage-leo200.json",
+        "--explore",
+        "--json",
+    ]);
+    assert_eq!(out.status.code(), Some(0));
+    let r = json_of(&out);
+    let richer = r["richer_programs"].as_array().cloned().unwrap_or_default();
+    assert!(!richer.is_empty());
+    for x in richer {
+        let saves = x["saves_kg"].as_f64().unwrap_or(f64::NAN);
+        assert!(saves >= 0.0, "{x}");
+        // A gain is a real one: under 1 % of the propellant (a pitch-over rate is not worth
+        // tonnes on a vehicle whose kick is already tuned).
+        assert!(saves < 3000.0, "{x}");
+    }
+}

@@ -110,7 +110,8 @@ pub struct Richer {
     pub variant: String,
     /// How to ask for it.
     pub how: String,
-    /// Propellant saved (payload mode: payload gained), kg.
+    /// Propellant saved (payload mode: payload gained), kg; zero when the richer search found
+    /// nothing better than the base program (which lies inside its space).
     pub saves_kg: f64,
     /// The saving as last-stage ΔV at cutoff, m/s.
     pub saves_mps: f64,
@@ -118,9 +119,13 @@ pub struct Richer {
     pub status: SolveStatus,
 }
 
-/// Solves the richer variants of `p` and compares them with `base` (objective value, kg).
+/// Solves the richer variants of `p` and compares them with `base` (objective value, kg) of the
+/// tuned program `tuned`. The base program lies inside the space of the freed variables: that
+/// search starts from it, and a richer search that ends above it counts as no gain (never a
+/// negative one).
 fn explore(
     p: &Problem,
+    tuned: &Problem,
     opts: &SolveOptions,
     base: f64,
     m_f: f64,
@@ -129,13 +134,16 @@ fn explore(
 ) -> Vec<Richer> {
     use crate::core::steering::{Arc, LinearTangent, Steering};
     let mut variants: Vec<(String, String, Problem, SolveOptions)> = Vec::new();
-    let mut free = opts.clone();
+    let mut free = SolveOptions {
+        scan: false,
+        ..opts.clone()
+    };
     free.free
         .extend(["pitch_rate".to_string(), "rise_time".to_string()]);
     variants.push((
         "free pitch-over rate and vertical rise".into(),
         "--free pitch_rate,rise_time".into(),
-        p.clone(),
+        tuned.clone(),
         free,
     ));
     let mut per_arc = p.clone();
@@ -171,7 +179,7 @@ fn explore(
                     s.convergence.status,
                 )
             });
-            let saves = base - value;
+            let saves = (base - value).max(0.0);
             Richer {
                 variant,
                 how,
@@ -426,7 +434,7 @@ fn report(
         shortfall_mps: shortfall_mps(flown, &flight.y1),
         richer_programs: if s.explore {
             let base = crate::core::optimize::objective(&sol.eval);
-            explore(p, &s.solver, base, m_f, c, obs)
+            explore(p, &sol.problem, &s.solver, base, m_f, c, obs)
         } else {
             Vec::new()
         },
