@@ -341,6 +341,18 @@ fn an_infeasible_target_is_reported_with_exit_1() {
     assert_eq!(r["convergence"]["status"], "infeasible");
     let short = r["shortfall_mps"].as_f64().unwrap_or(0.0);
     assert!(short > 100.0, "ΔV shortfall {short}");
+    // Promptly (issue 9: it took 8 501 trajectories): the SQP verdict of infeasibility, a
+    // stationary point of the violation from the two best starts, is final.
+    let n = r["convergence"]["trajectories"]
+        .as_u64()
+        .unwrap_or(u64::MAX);
+    assert!(n <= 1000, "{n} trajectories");
+    // A flight that misses the target shows no margin in the headline.
+    let text = kickturn(&["solve", &p]);
+    let head = String::from_utf8_lossy(&text.stdout);
+    let head = head.lines().next().unwrap_or_default();
+    assert!(head.starts_with("NOT SOLVED"), "{head}");
+    assert!(!head.contains("margin -"), "{head}");
     let _ = std::fs::remove_dir_all(&dir);
 }
 

@@ -34,18 +34,33 @@ pub fn render(r: &SolveReport) -> String {
 pub fn summary(r: &SolveReport) -> String {
     let mut s = String::new();
     let c = &r.convergence;
-    let _ = writeln!(
-        s,
-        "{}: propellant used {:.1} kg, left {:.1} kg, reserves {:.1} kg, margin {:.1} kg \
-         ({:.1} m/s), payload {:.1} kg",
-        status_line(c),
-        r.propellant_used_kg,
-        r.propellant_remaining_kg,
-        r.reserves.total_kg(),
-        r.margin_kg,
-        r.margin_mps,
-        r.payload_kg
-    );
+    let met = r.flight.reached_orbit() && r.flight.target_deviation.is_some_and(|d| d.met);
+    if met {
+        let _ = writeln!(
+            s,
+            "{}: propellant used {:.1} kg, left {:.1} kg, reserves {:.1} kg, margin {:.1} kg \
+             ({:.1} m/s), payload {:.1} kg",
+            status_line(c),
+            r.propellant_used_kg,
+            r.propellant_remaining_kg,
+            r.reserves.total_kg(),
+            r.margin_kg,
+            r.margin_mps,
+            r.payload_kg
+        );
+    } else {
+        // A flight that misses the target has no margin to show (the propellant left is that of
+        // a different, failed flight).
+        let _ = writeln!(
+            s,
+            "{}: the tuned program's flight does not reach the target, so it has no margin; \
+             propellant used {:.1} kg, left {:.1} kg, payload {:.1} kg",
+            status_line(c),
+            r.propellant_used_kg,
+            r.propellant_remaining_kg,
+            r.payload_kg
+        );
+    }
     let _ = writeln!(
         s,
         "search: {} outer iterations, {} trajectories, {:.2} s; {}",
