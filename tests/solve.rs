@@ -595,3 +595,43 @@ fn a_vehicle_scaled_down_ten_thousand_times_reaches_the_same_relative_margin() {
         "full {a} kg, scaled ×1e4 {b} kg"
     );
 }
+
+#[test]
+fn a_limit_held_by_the_pitch_program_is_reported_so_and_never_beside_exceeded() {
+    // Repro (issue 9): the medium demo with `min_throttle` 1 and a 35 kPa max-Q limit. It ended
+    // `infeasible` with max-Q 37.1 kPa; and where a bucket cannot throttle, the report said the
+    // limit was held by a bucket and wrote an inert one. Now: the limit holds, no bucket is
+    // written, the report names the pitch program, and no "EXCEEDED" beside "held".
+    let (code, r) = solve_json("tests/data/repro/medium_thr1_q35.json");
+    let status = r["convergence"]["status"]
+        .as_str()
+        .unwrap_or_default()
+        .to_string();
+    assert!(
+        matches!(status.as_str(), "converged" | "iteration_limit"),
+        "{}",
+        r["convergence"]
+    );
+    assert_eq!(code, Some(0));
+    let q = r["max_dynamic_pressure_pa"].as_f64().unwrap_or(f64::NAN);
+    assert!(q <= 35_000.0 * (1.0 + 1e-6), "max-Q {q} Pa");
+    assert!(
+        r["program"]["ascent"]["throttle_bucket"].is_null(),
+        "{}",
+        r["program"]
+    );
+    let active: Vec<String> = r["active_constraints"]
+        .as_array()
+        .cloned()
+        .unwrap_or_default()
+        .iter()
+        .map(|v| v.as_str().unwrap_or_default().to_string())
+        .collect();
+    assert!(
+        active
+            .iter()
+            .any(|a| a.contains("held at 35.0 kPa by a pitch program")),
+        "{active:?}"
+    );
+    assert!(!active.iter().any(|a| a.contains("EXCEEDED")), "{active:?}");
+}

@@ -243,7 +243,11 @@ fn active_constraints(
         v.push("max_axial_accel_g: the throttle holds the limit".to_string());
     }
     let solved = matches!(r.status, Status::Orbit) && r.target_deviation.is_some_and(|d| d.met);
-    for c in held.iter().filter(|_| solved) {
+    // A limit is reported held only when the flight keeps it: never "held" beside "EXCEEDED".
+    let kept = |c: &crate::core::optimize::ActiveConstraint| {
+        r.max_dynamic_pressure_pa <= c.value * (1.0 + 1e-6)
+    };
+    for c in held.iter().filter(|c| solved && kept(c)) {
         v.push(format!(
             "{}: held at {:.1} kPa by a {}; the unconstrained optimum reached {:.1} kPa; cost \
              {:.1} kg ({:.1} kg per kPa)",

@@ -650,6 +650,19 @@ fn solve_timed(p: &Problem, o: &SolveOptions, run: &Run) -> Result<Solution, Sol
     );
     sol.convergence.trajectories += free.convergence.trajectories;
     sol.convergence.iterations += free.convergence.iterations;
+    // A bucket left at full throttle holds nothing (a first stage that cannot throttle, or a
+    // limit the pitch program holds alone): it is not written into the program, and the report
+    // says what holds the limit.
+    let inert = !from_file
+        && sol
+            .problem
+            .program
+            .bucket
+            .is_some_and(|k| k.throttle >= 1.0 - 1e-9);
+    if inert {
+        sol.problem.program.bucket = None;
+        sol.variables.retain(|(v, _)| *v != Param::BucketThrottle);
+    }
     let cost = sol.eval.propellant_used_kg - free.eval.propellant_used_kg;
     sol.active.push(ActiveConstraint {
         limit: "limits.max_dynamic_pressure_pa".into(),
@@ -657,7 +670,11 @@ fn solve_timed(p: &Problem, o: &SolveOptions, run: &Run) -> Result<Solution, Sol
         unconstrained: free.eval.max_q_pa,
         cost_kg: cost,
         cost_kg_per_unit: cost / ((free.eval.max_q_pa - q_lim) / 1e3),
-        how: if from_file {
+        how: if inert {
+            "pitch program (kick and steering; the first-stage throttle bucket stays at full \
+             throttle)"
+                .into()
+        } else if from_file {
             "first-stage throttle bucket (depth solved; start and duration from the file)".into()
         } else {
             "first-stage throttle bucket (depth solved; start and duration from the \
@@ -917,7 +934,7 @@ fn finish(ctx: &Ctx, best: outer::Candidate) -> Solution {
         .chain(&ctx.spec.outer)
         .map(|v| (*v, v.get(&problem).unwrap_or(f64::NAN)))
         .collect();
-    let met = best.eval.reached && best.eval.max_abs() < targeting::INSERTION_TOL;
+    let met = best.eval.reached && conditions_met(ctx, &best.eval);
     let status = if best.budget_hit {
         SolveStatus::BudgetExhausted
     } else if !met {
@@ -942,6 +959,18 @@ fn finish(ctx: &Ctx, best: outer::Candidate) -> Solution {
         convergence,
         active: Vec::new(),
     }
+}
+
+/// The terminal conditions and a held max-Q limit are met within the insertion tolerance: the
+/// max-Q residual (the one before the last, when a limit is held) counts only above the limit,
+/// a flight that peaks below it meets the limit.
+fn conditions_met(ctx: &Ctx, e: &Eval) -> bool {
+    let n = e.residuals.len();
+    let q_at = (ctx.spec.q_limit.is_some() && n >= 2).then(|| n - 2);
+    e.residuals.iter().enumerate().all(|(i, r)| {
+        let r = if Some(i) == q_at { r.max(0.0) } else { r.abs() };
+        r < targeting::INSERTION_TOL
+    })
 }
 
 /// Residuals in physical units with their names.
