@@ -624,12 +624,13 @@ fn solve_timed(p: &Problem, o: &SolveOptions, run: &Run) -> Result<Solution, Sol
     let mut inner_q = inner;
     inner_q.push(Param::BucketThrottle);
     // The trajectory budget is for the whole solve: later passes get what is left.
-    // The held pass runs the nested search whatever the method: where the bucket splits the q
-    // history into two humps, max-Q has a kink at the held optimum (both humps at the limit),
-    // on which the SQP method stalls; the nested search holds max-Q = limit as one of its inner
-    // Newton conditions instead. (A max-Q constraint per hump would make it smooth: not built.)
+    // Where the bucket splits the q history into two humps, max-Q has a kink at the held
+    // optimum (both humps at the limit): the SQP method's final test looks again at the
+    // resolution of its failed trial steps there, and the nested search (which holds max-Q =
+    // limit as an inner Newton condition) takes over where it still cannot verify an optimum.
+    // (A max-Q constraint per hump would make it smooth: not built.)
     let held = SolveOptions {
-        method: Method::Nested,
+        method: o.method,
         scan: false,
         max_trajectories: o
             .max_trajectories

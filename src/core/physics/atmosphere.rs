@@ -28,6 +28,8 @@
 //! - Values above 86 km: see `UPPER` for which entries are from memory,
 //!   from a public reproduction of Table I, or derived.
 
+use std::sync::LazyLock;
+
 /// Universal gas constant R* as defined by the standard, J/(kmol·K).
 const R_STAR_J_PER_KMOL_K: f64 = 8314.32;
 /// Sea-level mean molecular weight M0, kg/kmol.
@@ -233,7 +235,9 @@ fn lower_atmosphere(h_m: f64) -> AtmosphereState {
     let p_pa = if layer.isothermal {
         layer.base_p_pa * (layer.k * dh_m).exp()
     } else {
-        layer.base_p_pa * (1.0 + layer.lapse_over_t_per_m * dh_m).powf(layer.k)
+        // p_b (T/T_b)^k written as p_b exp(k ln(1 + (L_b/T_b)(H − H_b))): one `ln_1p` and one
+        // `exp` instead of `powf` (cheaper, equally accurate).
+        layer.base_p_pa * (layer.k * (layer.lapse_over_t_per_m * dh_m).ln_1p()).exp()
     };
     state(t_k, p_pa, p_pa / (R_AIR_J_PER_KG_K * t_k))
 }
@@ -346,9 +350,22 @@ const UPPER: [(f64, f64, f64); 88] = [
     (1_000_000.0, 7.5138e-9, 3.561e-15),                           // mem
 ];
 
+/// Natural logarithms (dimensionless) of the pressure and density ratios
+/// p_{i+1}/p_i and ρ_{i+1}/ρ_i of each `UPPER` segment, computed once on first
+/// use (no allocation), so that an evaluation needs two `exp` and no `powf`.
+static UPPER_LOG_RATIOS: LazyLock<[(f64, f64); UPPER.len() - 1]> = LazyLock::new(|| {
+    let mut t = [(0.0, 0.0); UPPER.len() - 1];
+    for (i, w) in UPPER.windows(2).enumerate() {
+        t[i] = ((w[1].1 / w[0].1).ln(), (w[1].2 / w[0].2).ln());
+    }
+    t
+});
+
 /// Region above 86 km at geometric altitude `z_m` (86 km ≤ z_m ≤ Z_MAX_M):
 /// ln p and ln ρ linear in Z between table rows; beyond the last row the
-/// last segment is continued (constant scale height).
+/// last segment is continued (constant scale height). With s the fraction of
+/// the segment, p = p_i (p_{i+1}/p_i)^s = p_i exp(s ln(p_{i+1}/p_i)), the
+/// logarithm taken from `UPPER_LOG_RATIOS` (likewise ρ).
 fn upper_atmosphere(z_m: f64) -> AtmosphereState {
     // Index of the segment [i, i + 1] holding z_m; the last one extrapolates.
     let i = UPPER
@@ -356,10 +373,11 @@ fn upper_atmosphere(z_m: f64) -> AtmosphereState {
         .clamp(1, UPPER.len() - 1)
         - 1;
     let (z_lo_m, p_lo_pa, rho_lo) = UPPER[i];
-    let (z_hi_m, p_hi_pa, rho_hi) = UPPER[i + 1];
+    let z_hi_m = UPPER[i + 1].0;
+    let (ln_p_ratio, ln_rho_ratio) = UPPER_LOG_RATIOS[i];
     let s = (z_m - z_lo_m) / (z_hi_m - z_lo_m);
-    let p_pa = p_lo_pa * (p_hi_pa / p_lo_pa).powf(s);
-    let rho_kg_m3 = rho_lo * (rho_hi / rho_lo).powf(s);
+    let p_pa = p_lo_pa * (s * ln_p_ratio).exp();
+    let rho_kg_m3 = rho_lo * (s * ln_rho_ratio).exp();
     state(kinetic_temperature_k(z_m), p_pa, rho_kg_m3)
 }
 

@@ -49,13 +49,10 @@ pub struct Environment {
     pub atmosphere: AtmosphereModel,
 }
 
-/// Local conditions at one state. Vectors are in the integration frame.
+/// Local conditions at one state. Vectors are in the integration frame. Latitude and longitude
+/// are not here (the right-hand side never needs the angles): see [`Environment::geodetic`].
 #[derive(Debug, Clone, Copy)]
 pub struct Local {
-    /// Geodetic latitude, rad (0 in the flat model).
-    pub latitude_rad: f64,
-    /// Earth-fixed longitude, rad (0 in the flat model).
-    pub longitude_rad: f64,
     /// Altitude above the ellipsoid (flat: z), m.
     pub altitude_m: f64,
     /// Local vertical (ellipsoid normal), unit.
@@ -148,13 +145,29 @@ impl Environment {
         }
     }
 
-    /// Local conditions at time `t_s`, position `r_m`, inertial velocity `v_mps`. No allocation.
-    pub fn local(&self, t_s: f64, r_m: &Vector3<f64>, v_mps: &Vector3<f64>) -> Local {
+    /// Geodetic latitude, Earth-fixed longitude (rad) and altitude (m) at time `t_s` and
+    /// inertial position `r_m`, for reports (flat model: 0, 0, z). Uses `atan2` and a rotation
+    /// to Earth-fixed axes, which [`Environment::local`] avoids.
+    pub fn geodetic(&self, t_s: f64, r_m: &Vector3<f64>) -> Geodetic {
         match self.earth {
-            EarthModel::Wgs84 { j2, .. } => self.local_wgs84(t_s, r_m, v_mps, j2),
-            EarthModel::Flat { gravity_mps2 } => Local {
+            EarthModel::Wgs84 { .. } => {
+                earth::ecef_to_geodetic(&earth::eci_to_ecef(r_m, self.rotation_angle_rad(t_s)))
+            }
+            EarthModel::Flat { .. } => Geodetic {
                 latitude_rad: 0.0,
                 longitude_rad: 0.0,
+                altitude_m: r_m.z,
+            },
+        }
+    }
+
+    /// Local conditions at time `t_s`, position `r_m`, inertial velocity `v_mps`. No allocation.
+    /// The time is not used by the models offered: in the inertial frame the rotating Earth's
+    /// geodetic latitude, height and local frame depend on `r_m` alone (see `local_wgs84`).
+    pub fn local(&self, _t_s: f64, r_m: &Vector3<f64>, v_mps: &Vector3<f64>) -> Local {
+        match self.earth {
+            EarthModel::Wgs84 { j2, .. } => self.local_wgs84(r_m, v_mps, j2),
+            EarthModel::Flat { gravity_mps2 } => Local {
                 altitude_m: r_m.z,
                 up: Vector3::z(),
                 east: Vector3::x(),
@@ -167,25 +180,33 @@ impl Environment {
         }
     }
 
-    fn local_wgs84(&self, t_s: f64, r: &Vector3<f64>, v: &Vector3<f64>, j2: bool) -> Local {
+    /// Local conditions on the WGS-84 model; the time is not needed (see below).
+    fn local_wgs84(&self, r: &Vector3<f64>, v: &Vector3<f64>, j2: bool) -> Local {
         let omega = self.omega_rad_s();
-        let theta = omega.z * t_s;
-        let g = earth::ecef_to_geodetic(&earth::eci_to_ecef(r, theta));
-        // Rotating about z by θ adds θ to the longitude, so the inertial local frame is the
-        // Earth-fixed frame evaluated at λ + θ.
-        let (up, east, north) = earth::local_frame(g.latitude_rad, g.longitude_rad + theta);
+        // Geodetic latitude and height depend only on the distance p from the spin axis and on
+        // z, which the rotation θ = ω t about that axis leaves unchanged: no rotation to
+        // Earth-fixed axes. The local frame in inertial axes is the Earth-fixed one at λ + θ,
+        // the inertial azimuth of r, so cos(λ + θ) = x/p and sin(λ + θ) = y/p; with
+        // (sin φ, cos φ) from the geodetic step, U = (cosφ cos(λ+θ), cosφ sin(λ+θ), sinφ),
+        // E = (−sin(λ+θ), cos(λ+θ), 0), N = U × E (domain brief §1). No trigonometric call.
+        let p = (r.x * r.x + r.y * r.y).sqrt();
+        let m = earth::meridian_point(p, r.z);
+        let (cos_az, sin_az) = if p > 0.0 {
+            (r.x / p, r.y / p)
+        } else {
+            (1.0, 0.0)
+        };
+        let (sin_lat, cos_lat) = (m.sin_lat, m.cos_lat);
         let w_x_r = omega.cross(r);
         Local {
-            latitude_rad: g.latitude_rad,
-            longitude_rad: g.longitude_rad,
-            altitude_m: g.altitude_m,
-            up,
-            east,
-            north,
+            altitude_m: m.altitude_m,
+            up: Vector3::new(cos_lat * cos_az, cos_lat * sin_az, sin_lat),
+            east: Vector3::new(-sin_az, cos_az, 0.0),
+            north: Vector3::new(-sin_lat * cos_az, -sin_lat * sin_az, cos_lat),
             gravity_mps2: earth::gravity(r, j2),
             v_rel_mps: v - w_x_r,
             centrifugal_mps2: -omega.cross(&w_x_r),
-            air: self.air(g.altitude_m),
+            air: self.air(m.altitude_m),
         }
     }
 }

@@ -279,6 +279,23 @@ pub fn derivative(
     y: &State,
     dy: &mut State,
 ) {
+    derivative_keeping(p, mode, law, t_s, y, dy, None);
+}
+
+/// [`derivative`], also storing the local conditions and forces it computed in `keep` when
+/// given, so that the caller can reuse them at the same (t, y) (events and extrema at a step's
+/// end). Stored only on request: copying them on every evaluation would cost about what the
+/// reuse saves. No allocation.
+#[inline]
+pub fn derivative_keeping(
+    p: &FlightModel,
+    mode: &Mode,
+    law: &dyn ActiveLaw,
+    t_s: f64,
+    y: &State,
+    dy: &mut State,
+    keep: Option<&mut Option<(Local, Forces)>>,
+) {
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);
     let m = y[ix::M];
@@ -300,4 +317,13 @@ pub fn derivative(
     dy[ix::DRAG_R] = -f.aero_n.dot(&vrhat) / m;
     dy[ix::GRAV_R] = -loc.gravity_mps2.dot(&vrhat);
     dy[ix::CENTRIF] = loc.centrifugal_mps2.dot(&vrhat);
+    if let Some(k) = keep {
+        *k = Some((loc, f));
+    }
+}
+
+/// Sensed axial acceleration (thrust plus aerodynamic force along the thrust axis, over the
+/// mass `m_kg`) of the forces `f`, m/s².
+pub fn axial_accel_mps2(f: &Forces, m_kg: f64) -> f64 {
+    (f.thrust_n + f.aero_n.dot(&f.dir)) / m_kg
 }

@@ -1,14 +1,21 @@
 //! The flight driver: arcs, segments, events.
 
+use std::cell::RefCell;
+
 use nalgebra::Vector3;
 use ode_solvers::continuous_output_model::ContinuousOutputModel;
 use ode_solvers::{Dopri5, System};
 use serde::Serialize;
 
-use super::dynamics::{derivative, ix, Attitude, FlightModel, Mode, State, Throttle};
+use super::dynamics::{
+    axial_accel_mps2, derivative_keeping, forces, ix, Attitude, FlightModel, Forces, Mode, State,
+    Throttle,
+};
 use super::events::{self, StateEvent};
 use super::record::{snapshot, Snapshot};
+use crate::core::physics::earth::G0_MPS2;
 use crate::core::physics::earth::WGS84_A_M;
+use crate::core::physics::environment::Local;
 use crate::core::problem::Problem;
 use crate::core::steering::gravity_turn::ZeroAlpha;
 use crate::core::steering::{ActiveLaw, Arc, ArcStart, CoastEnd, Cutoff, GuidanceInput, RiseEnd};
@@ -237,40 +244,85 @@ struct Flags {
     next_guidance_s: Option<f64>,
 }
 
-/// ODE system handed to the integrator; watches state events after each accepted step.
+/// ODE system handed to the integrator; watches state events and extrema after each accepted
+/// step.
 struct Sys<'a> {
     p: &'a FlightModel<'a>,
     law: &'a dyn ActiveLaw,
     mode: Mode,
     evs: &'a [StateEvent],
-    watch: &'a mut Watch,
+    /// Interior mutability: the integrator calls `system` through a shared reference.
+    watch: &'a RefCell<Watch>,
 }
 
+/// What the system records during one segment. Kept by the flyer and reused from segment to
+/// segment, so that its vectors keep their capacity: no allocation per step.
 #[derive(Default)]
 struct Watch {
+    /// Switching-function values at the latest accepted step, one per state event.
     g_prev: Vec<f64>,
+    /// State events whose switching function crossed from negative to ≥ 0.
     fired: Vec<bool>,
-    step_t: Vec<f64>,
+    /// (t s, dynamic pressure Pa, sensed axial acceleration g0) at the segment start and at
+    /// each accepted step's end.
+    samples: Vec<(f64, f64, f64)>,
+    /// Local conditions and forces of the latest stage-7 right-hand-side evaluation, at
+    /// (`last_t_s`, `last_y`). Dormand–Prince evaluates its last stage at the step's end state
+    /// ("first same as last"), so after an accepted step this is the end of that step, and the
+    /// event check and the extrema reuse it instead of recomputing.
+    last: Option<(Local, Forces)>,
+    /// Time of `last`, s.
+    last_t_s: f64,
+    /// State of `last`.
+    last_y: State,
+    /// Time of the latest right-hand-side evaluation, s.
+    prev_rhs_t: f64,
+}
+
+/// Dynamic pressure (Pa) and sensed axial acceleration (g0) of forces `f` at mass `m_kg`.
+fn q_and_accel_of(f: &Forces, m_kg: f64) -> (f64, f64) {
+    (f.q_pa, axial_accel_mps2(f, m_kg) / G0_MPS2)
 }
 
 impl System<f64, State> for Sys<'_> {
     fn system(&self, t: f64, y: &State, dy: &mut State) {
-        derivative(self.p, &self.mode, self.law, t, y, dy);
+        let mut w = self.watch.borrow_mut();
+        // Dormand–Prince's stages 6 and 7 share the node c = 1, so a call at the same time as
+        // the one before is a stage 7, the candidate end of step: keep only those.
+        let keep = t.to_bits() == w.prev_rhs_t.to_bits();
+        w.prev_rhs_t = t;
+        if keep {
+            let w = &mut *w;
+            derivative_keeping(self.p, &self.mode, self.law, t, y, dy, Some(&mut w.last));
+            w.last_t_s = t;
+            w.last_y = *y;
+        } else {
+            derivative_keeping(self.p, &self.mode, self.law, t, y, dy, None);
+        }
     }
 
     fn solout(&mut self, t: f64, y: &State, _dy: &State) -> bool {
-        self.watch.step_t.push(t);
+        let mut w = self.watch.borrow_mut();
+        let (loc, f) = match w.last {
+            // The identical (t, y), not a close one: then the cached values are exact.
+            Some(kept) if w.last_t_s.to_bits() == t.to_bits() && w.last_y == *y => kept,
+            _ => {
+                let r = Vector3::new(y[0], y[1], y[2]);
+                let v = Vector3::new(y[3], y[4], y[5]);
+                let loc = self.p.environment.local(t, &r, &v);
+                (loc, forces(self.p, &self.mode, self.law, t, y[ix::M], &loc))
+            }
+        };
+        let (q, a) = q_and_accel_of(&f, y[ix::M]);
+        w.samples.push((t, q, a));
         let mut any = false;
-        let r = Vector3::new(y[0], y[1], y[2]);
-        let v = Vector3::new(y[3], y[4], y[5]);
-        let loc = self.p.environment.local(t, &r, &v);
         for (i, ev) in self.evs.iter().enumerate() {
             let g = events::value_at(self.p, &self.mode, self.law, ev, t, y, &loc);
-            if self.watch.g_prev[i] < 0.0 && g >= 0.0 {
-                self.watch.fired[i] = true;
+            if w.g_prev[i] < 0.0 && g >= 0.0 {
+                w.fired[i] = true;
                 any = true;
             }
-            self.watch.g_prev[i] = g;
+            w.g_prev[i] = g;
         }
         any
     }
@@ -291,6 +343,8 @@ struct Flyer<'a> {
     arc_done: bool,
     ended: Option<EndReason>,
     next_record_s: f64,
+    /// The integration recorder, reused by every segment.
+    watch: Watch,
 }
 
 /// Flies the problem's program and returns the trajectory summary.
@@ -371,6 +425,7 @@ impl<'a> Flyer<'a> {
             arc_done: false,
             ended: None,
             next_record_s: t,
+            watch: Watch::default(),
         }
     }
 
@@ -619,9 +674,21 @@ impl<'a> Flyer<'a> {
         }
         let evs = self.state_events();
         let tevs = self.time_events();
+        let r = Vector3::new(self.y[0], self.y[1], self.y[2]);
+        let v = Vector3::new(self.y[3], self.y[4], self.y[5]);
+        let loc0 = self.p.environment.local(self.t, &r, &v);
         // Conditions already true at the segment start fire at once.
         for ev in evs.iter().filter(|e| !e.crossing_only()) {
-            if events::value(&self.m, &self.mode, self.law.as_ref(), ev, self.t, &self.y) >= 0.0 {
+            let g = events::value_at(
+                &self.m,
+                &self.mode,
+                self.law.as_ref(),
+                ev,
+                self.t,
+                &self.y,
+                &loc0,
+            );
+            if g >= 0.0 {
                 return self.apply(Stop::State(*ev));
             }
         }
@@ -638,7 +705,7 @@ impl<'a> Flyer<'a> {
         if t_end <= self.t + TIME_EPS_S {
             return self.apply(Stop::Time(tev));
         }
-        match self.integrate(&evs, t_end) {
+        match self.integrate(&evs, t_end, &loc0) {
             Ok(Some(ev)) => self.apply(Stop::State(ev)),
             Ok(None) => {
                 self.t = t_end;
@@ -649,16 +716,30 @@ impl<'a> Flyer<'a> {
     }
 
     /// Integrates from the current state towards `t_end`; returns the state event that stopped it
-    /// (state and time already moved to its root) or `None` if `t_end` was reached.
-    fn integrate(&mut self, evs: &[StateEvent], t_end: f64) -> Result<Option<StateEvent>, String> {
-        let mut watch = Watch {
-            g_prev: evs
-                .iter()
-                .map(|e| events::value(&self.m, &self.mode, self.law.as_ref(), e, self.t, &self.y))
-                .collect(),
-            fired: vec![false; evs.len()],
-            step_t: vec![self.t],
-        };
+    /// (state and time already moved to its root) or `None` if `t_end` was reached. `loc0`: the
+    /// local conditions at the current state.
+    fn integrate(
+        &mut self,
+        evs: &[StateEvent],
+        t_end: f64,
+        loc0: &Local,
+    ) -> Result<Option<StateEvent>, String> {
+        let law = self.law.as_ref();
+        let mut w = std::mem::take(&mut self.watch);
+        w.g_prev.clear();
+        w.g_prev.extend(
+            evs.iter()
+                .map(|e| events::value_at(&self.m, &self.mode, law, e, self.t, &self.y, loc0)),
+        );
+        w.fired.clear();
+        w.fired.resize(evs.len(), false);
+        w.samples.clear();
+        let f0 = forces(&self.m, &self.mode, law, self.t, self.y[ix::M], loc0);
+        let (q0, a0) = q_and_accel_of(&f0, self.y[ix::M]);
+        w.samples.push((self.t, q0, a0));
+        w.last = None;
+        w.prev_rhs_t = f64::NAN;
+        let watch = RefCell::new(w);
         let ig = self.p.integrator;
         // One absolute tolerance serves every state component; for the mass (kg) it would be
         // relatively looser the lighter the vehicle, and a vehicle scaled down ×1e-4 would fly
@@ -668,41 +749,35 @@ impl<'a> Flyer<'a> {
         let atol = ig.atol * (self.p.vehicle.liftoff_mass_kg() / ATOL_MASS_REF_KG).min(1.0);
         let sys = Sys {
             p: &self.m,
-            law: self.law.as_ref(),
+            law,
             mode: self.mode,
             evs,
-            watch: &mut watch,
+            watch: &watch,
         };
-        let mut com = ContinuousOutputModel::default();
         let mut solver = Dopri5::new(sys, self.t, t_end, 1.0, self.y, ig.rtol, atol);
-        let stats = solver
-            .integrate_with_continuous_output_model(&mut com)
-            .map_err(|e| self.integration_message(&e.to_string()))?;
+        let mut com = ContinuousOutputModel::default();
+        let result = solver.integrate_with_continuous_output_model(&mut com);
         let (t_last, y_last) = match (solver.x_out().last(), solver.y_out().last()) {
             (Some(t), Some(y)) => (*t, *y),
             _ => (self.t, self.y),
         };
         drop(solver);
+        self.watch = watch.into_inner();
+        let stats = result.map_err(|e| self.integration_message(&e.to_string()))?;
         self.out.stats.rhs_evals += u64::from(stats.num_eval);
         self.out.stats.accepted_steps += u64::from(stats.accepted_steps);
         self.out.stats.rejected_steps += u64::from(stats.rejected_steps);
-        let t_prev = watch.step_t.iter().rev().nth(1).copied().unwrap_or(self.t);
+        let w = &self.watch;
+        // Start of the last step: the samples hold the segment start and every step's end.
+        let t_prev = w.samples.iter().rev().nth(1).map_or(self.t, |s| s.0);
         let stop = evs
             .iter()
-            .zip(&watch.fired)
+            .zip(&w.fired)
             .filter(|(_, f)| **f)
             .map(|(e, _)| {
                 (
                     *e,
-                    events::locate(
-                        &self.m,
-                        &self.mode,
-                        self.law.as_ref(),
-                        e,
-                        &com,
-                        t_prev,
-                        t_last,
-                    ),
+                    events::locate(&self.m, &self.mode, law, e, &com, t_prev, t_last),
                 )
             })
             .min_by(|a, b| a.1.total_cmp(&b.1));
@@ -710,7 +785,7 @@ impl<'a> Flyer<'a> {
             Some((_, t)) => (t, com.evaluate(t).unwrap_or(y_last)),
             None => (t_last, y_last),
         };
-        self.track(&com, &watch.step_t, t_stop);
+        self.track(&com, t_stop, &y_stop);
         self.t = t_stop;
         self.y = y_stop;
         Ok(stop.map(|s| s.0))
@@ -728,21 +803,24 @@ impl<'a> Flyer<'a> {
         )
     }
 
-    /// Max-Q, max acceleration and the time history over the segment just integrated.
-    fn track(&mut self, com: &ContinuousOutputModel<f64, State>, steps: &[f64], t_stop: f64) {
+    /// Max-Q, max acceleration and the time history over the segment just integrated, which
+    /// stopped at (`t_stop`, `y_stop`). The samples at the step ends come from the integrator's
+    /// own end-of-step evaluations; only the stop and the refinement evaluate anew.
+    fn track(&mut self, com: &ContinuousOutputModel<f64, State>, t_stop: f64, y_stop: &State) {
         let (p, mode, law) = (&self.m, self.mode, self.law.as_ref());
-        let mut ts: Vec<f64> = steps.iter().copied().filter(|t| *t < t_stop).collect();
-        ts.push(t_stop);
+        let w = &mut self.watch;
+        let kept = w.samples.partition_point(|s| s.0 < t_stop);
+        w.samples.truncate(kept);
+        let (q_stop, a_stop) = q_and_accel(p, &mode, law, t_stop, y_stop);
+        w.samples.push((t_stop, q_stop, a_stop));
         let qa = |t: f64| com.evaluate(t).map(|y| q_and_accel(p, &mode, law, t, &y));
-        let samples: Vec<(f64, f64)> = ts
-            .iter()
-            .map(|t| qa(*t).unwrap_or((f64::NEG_INFINITY, f64::NEG_INFINITY)))
-            .collect();
         let best_q = self.out.max_q.map_or(f64::NEG_INFINITY, |m| m.value);
-        if samples.iter().any(|s| s.0 > best_q) {
-            let q = refine_max(&ts, &samples, 0, |t| {
-                qa(t).map_or(f64::NEG_INFINITY, |s| s.0)
-            });
+        if w.samples.iter().any(|s| s.1 > best_q) {
+            let q = refine_max(
+                &w.samples,
+                |s| s.1,
+                |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.0),
+            );
             if let Some((v, t)) = q.filter(|(v, _)| *v > best_q) {
                 self.out.max_q = com.evaluate(t).map(|y| Extremum {
                     value: v,
@@ -754,10 +832,12 @@ impl<'a> Flyer<'a> {
             .out
             .max_axial_accel
             .map_or(f64::NEG_INFINITY, |m| m.value);
-        if samples.iter().any(|s| s.1 > best_a) {
-            let a = refine_max(&ts, &samples, 1, |t| {
-                qa(t).map_or(f64::NEG_INFINITY, |s| s.1)
-            });
+        if w.samples.iter().any(|s| s.2 > best_a) {
+            let a = refine_max(
+                &w.samples,
+                |s| s.2,
+                |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.1),
+            );
             if let Some((v, t)) = a.filter(|(v, _)| *v > best_a) {
                 self.out.max_axial_accel = com.evaluate(t).map(|y| Extremum {
                     value: v,
@@ -1016,52 +1096,180 @@ fn q_and_accel(p: &FlightModel, mode: &Mode, law: &dyn ActiveLaw, t: f64, y: &St
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);
     let loc = p.environment.local(t, &r, &v);
-    let f = super::dynamics::forces(p, mode, law, t, y[ix::M], &loc);
-    let accel =
-        (f.thrust_n + f.aero_n.dot(&f.dir)) / y[ix::M] / crate::core::physics::earth::G0_MPS2;
-    (f.q_pa, accel)
+    q_and_accel_of(&forces(p, mode, law, t, y[ix::M], &loc), y[ix::M])
 }
 
-/// Largest of the sampled values (`samples[k].{which}` at `ts[k]`), refined by golden-section
-/// search on `f` between the neighbours of the best sample. Returns (value, time).
+/// A maximum is refined until its bracket is this narrow, s (as the golden-section search that
+/// this replaces). Brent's tolerance tol1 is a quarter of it: the search stops when
+/// |x − m| ≤ 2 tol1 − (b − a)/2, i.e. at a bracket of 4 tol1 at most.
+const EXTREMUM_BRACKET_S: f64 = 1e-6;
+/// Values this close (relative) at three distinct points: the function is flat to round-off (an
+/// acceleration held at its limit), and any of them is the maximum.
+const EXTREMUM_FLAT_REL: f64 = 1e-14;
+/// At most this many evaluations refine one maximum (the bracket halves at least every few).
+const EXTREMUM_MAX_EVALS: usize = 100;
+
+/// Largest of the sampled values (`value(sample)` over `samples`, each `(t, q, accel)`, in time
+/// order), refined on `f` (the dense output) between the neighbours of the best sample by
+/// Brent's method: parabolic interpolation through the three best points, with a
+/// golden-section step whenever the parabola's step is not acceptable (R. P. Brent,
+/// *Algorithms for Minimization without Derivatives*, 1973, ch. 5, procedure `localmin`; as in
+/// Press et al., *Numerical Recipes*, 3rd ed., §10.3, from memory). The parabola alone would
+/// stall on a cusp: max-Q can sit on the tropopause (11 km′), where dT/dh, hence dq/dt, jumps.
+/// Returns (value, time).
 fn refine_max(
-    ts: &[f64],
-    samples: &[(f64, f64)],
-    which: usize,
+    samples: &[(f64, f64, f64)],
+    value: impl Fn(&(f64, f64, f64)) -> f64,
     f: impl Fn(f64) -> f64,
 ) -> Option<(f64, f64)> {
-    let val = |k: usize| {
-        if which == 0 {
-            samples[k].0
-        } else {
-            samples[k].1
+    let k = (0..samples.len())
+        .filter(|k| value(&samples[*k]).is_finite())
+        .max_by(|a, b| value(&samples[*a]).total_cmp(&value(&samples[*b])))?;
+    let (t_k, v_k) = (samples[k].0, value(&samples[k]));
+    // Best at either end and the function falling away from it: a maximum on the boundary
+    // (a rising quantity at a segment's end), no search. One evaluation instead of a search
+    // that would crawl to the end.
+    let last = samples.len() - 1;
+    if (k == last && k > 0 && f(t_k - EXTREMUM_BRACKET_S) < v_k)
+        || (k == 0 && last > 0 && f(t_k + EXTREMUM_BRACKET_S) < v_k)
+    {
+        return Some((v_k, t_k));
+    }
+    let (a, b) = (
+        samples[k.saturating_sub(1)].0,
+        samples[(k + 1).min(samples.len() - 1)].0,
+    );
+    let (t, v) = brent_max(a, b, t_k, v_k, f);
+    Some(if v >= v_k { (v, t) } else { (v_k, t_k) })
+}
+
+/// True unless `a` and `b` are the same number (Brent's bookkeeping of which points coincide).
+fn distinct(a: f64, b: f64) -> bool {
+    a.to_bits() != b.to_bits()
+}
+
+/// Maximum of `f` on [a, b] by Brent's `localmin` (on −f), started from x0 ∈ [a, b] with
+/// f(x0) = f0 known. Returns (time, value) of the best point evaluated.
+fn brent_max(mut a: f64, mut b: f64, x0: f64, f0: f64, f: impl Fn(f64) -> f64) -> (f64, f64) {
+    // (3 − √5)/2: the golden-section fraction.
+    const C: f64 = 0.381_966_011_250_105_1;
+    let tol1 = 0.25 * EXTREMUM_BRACKET_S;
+    let tol2 = 2.0 * tol1;
+    // Minimise g = −f. x: best point; w: second best; v: previous w.
+    let (mut x, mut w, mut v) = (x0, x0, x0);
+    let (mut gx, mut gw, mut gv) = (-f0, -f0, -f0);
+    let (mut d, mut e) = (0.0_f64, 0.0_f64);
+    for _ in 0..EXTREMUM_MAX_EVALS {
+        let m = 0.5 * (a + b);
+        if (x - m).abs() <= tol2 - 0.5 * (b - a) {
+            break;
         }
-    };
-    let k = (0..ts.len())
-        .filter(|k| val(*k).is_finite())
-        .max_by(|a, b| val(*a).total_cmp(&val(*b)))?;
-    let (mut a, mut b) = (ts[k.saturating_sub(1)], ts[(k + 1).min(ts.len() - 1)]);
-    let gr = 0.5 * (5f64.sqrt() - 1.0);
-    let (mut c, mut d) = (b - gr * (b - a), a + gr * (b - a));
-    let (mut fc, mut fd) = (f(c), f(d));
-    while b - a > 1e-6 {
-        if fc >= fd {
-            b = d;
-            (d, fd) = (c, fc);
-            c = b - gr * (b - a);
-            fc = f(c);
+        if distinct(w, x) && distinct(v, x) && distinct(v, w) {
+            let scale = gx.abs().max(f64::MIN_POSITIVE);
+            if (gw - gx).abs() <= EXTREMUM_FLAT_REL * scale
+                && (gv - gx).abs() <= EXTREMUM_FLAT_REL * scale
+            {
+                break;
+            }
+        }
+        let mut golden = true;
+        if e.abs() > tol1 {
+            // Parabola through (v, gv), (w, gw), (x, gx): its vertex is x + p/q.
+            let r = (x - w) * (gx - gv);
+            let mut q = (x - v) * (gx - gw);
+            let mut p = (x - v) * q - (x - w) * r;
+            q = 2.0 * (q - r);
+            if q > 0.0 {
+                p = -p;
+            } else {
+                q = -q;
+            }
+            let e_prev = e;
+            e = d;
+            // Accept the parabolic step if it falls inside (a, b) and is less than half the
+            // step before last (so the steps shrink).
+            if p.abs() < (0.5 * q * e_prev).abs() && p > q * (a - x) && p < q * (b - x) {
+                d = p / q;
+                let u = x + d;
+                if u - a < tol2 || b - u < tol2 {
+                    d = tol1.copysign(m - x);
+                }
+                golden = false;
+            }
+        }
+        if golden {
+            e = if x >= m { a - x } else { b - x };
+            d = C * e;
+        }
+        let u = if d.abs() >= tol1 {
+            x + d
         } else {
-            a = c;
-            (c, fc) = (d, fd);
-            d = a + gr * (b - a);
-            fd = f(d);
+            x + tol1.copysign(d)
+        };
+        let gu = -f(u);
+        if gu <= gx {
+            if u >= x {
+                a = x;
+            } else {
+                b = x;
+            }
+            (v, gv) = (w, gw);
+            (w, gw) = (x, gx);
+            (x, gx) = (u, gu);
+        } else {
+            if u < x {
+                a = u;
+            } else {
+                b = u;
+            }
+            if gu <= gw || !distinct(w, x) {
+                (v, gv) = (w, gw);
+                (w, gw) = (u, gu);
+            } else if gu <= gv || !distinct(v, x) || !distinct(v, w) {
+                (v, gv) = (u, gu);
+            }
         }
     }
-    let t = 0.5 * (a + b);
-    let v = f(t);
-    if v >= val(k) {
-        Some((v, t))
-    } else {
-        Some((val(k), ts[k]))
+    (x, -gx)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Samples `(t, f(t), 0)` at the given times.
+    fn sampled(ts: &[f64], f: impl Fn(f64) -> f64) -> Vec<(f64, f64, f64)> {
+        ts.iter().map(|t| (*t, f(*t), 0.0)).collect()
+    }
+
+    #[test]
+    fn refine_max_finds_smooth_and_cusped_maxima() {
+        // Source: closed forms: the maximum of 1 − (t − 0.37)² and of 1 − |t − 0.37| is 1 at
+        // t = 0.37; the search's bracket is 1e-6 s.
+        let ts = [0.0, 0.3, 0.55, 1.0];
+        let smooth = |t: f64| 1.0 - (t - 0.37).powi(2);
+        let (v, t) = refine_max(&sampled(&ts, smooth), |s| s.1, smooth).unwrap();
+        assert!((t - 0.37).abs() < 1e-6, "{t}");
+        assert!((v - 1.0).abs() < 1e-12, "{v}");
+        let cusp = |t: f64| 1.0 - (t - 0.37).abs();
+        let (v, t) = refine_max(&sampled(&ts, cusp), |s| s.1, cusp).unwrap();
+        assert!((t - 0.37).abs() < 1e-6, "{t}");
+        assert!((v - 1.0).abs() < 1e-6, "{v}");
+    }
+
+    #[test]
+    fn refine_max_keeps_a_maximum_on_the_boundary() {
+        // Source: closed form: a rising function's maximum on [0, 1] is at t = 1.
+        let ts = [0.0, 0.4, 1.0];
+        let rising = |t: f64| t * t;
+        let (v, t) = refine_max(&sampled(&ts, rising), |s| s.1, rising).unwrap();
+        assert!((v - 1.0).abs() < 1e-15 && (t - 1.0).abs() < 1e-15);
+        let falling = |t: f64| -t;
+        let (v, t) = refine_max(&sampled(&ts, falling), |s| s.1, falling).unwrap();
+        assert!(v.abs() < 1e-15 && t.abs() < 1e-15);
+        // A held value (an acceleration at its limit): any point is the maximum.
+        let flat = |_: f64| 5.0;
+        let (v, _) = refine_max(&sampled(&ts, flat), |s| s.1, flat).unwrap();
+        assert!((v - 5.0).abs() < 1e-15);
     }
 }

@@ -87,6 +87,7 @@ pub fn snapshot(p: &FlightModel, mode: &Mode, law: &dyn ActiveLaw, t: f64, y: &S
     let v = Vector3::new(y[3], y[4], y[5]);
     let m = y[ix::M];
     let loc = p.environment.local(t, &r, &v);
+    let geo = p.environment.geodetic(t, &r);
     let f = forces(p, mode, law, t, m, &loc);
     let thrusting = f.thrust_vac_n > 0.0;
     let axis = if thrusting { f.dir } else { loc.v_rel_mps };
@@ -94,8 +95,8 @@ pub fn snapshot(p: &FlightModel, mode: &Mode, law: &dyn ActiveLaw, t: f64, y: &S
         t_s: t,
         altitude_m: loc.altitude_m,
         downrange_m: downrange_m(p, t, &r),
-        latitude_deg: loc.latitude_rad.to_degrees(),
-        longitude_deg: loc.longitude_rad.to_degrees(),
+        latitude_deg: geo.latitude_rad.to_degrees(),
+        longitude_deg: geo.longitude_rad.to_degrees(),
         speed_rel_mps: loc.v_rel_mps.norm(),
         speed_inertial_mps: v.norm(),
         flight_path_rel_deg: elevation_deg(&loc.v_rel_mps, &loc.up),
