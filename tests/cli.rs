@@ -658,3 +658,75 @@ fn explore_never_reports_a_negative_gain() {
         assert!(saves < 3000.0, "{x}");
     }
 }
+
+#[test]
+fn a_dash_reads_the_problem_from_stdin_and_sends_one_output_to_stdout() {
+    use std::io::Write;
+    use std::process::Stdio;
+    // Issue 12: `fly -` failed with "-: No such file or directory"; `--csv -` wrote a file
+    // named `-`.
+    let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
+        .unwrap_or_default();
+    let mut child = Command::new(env!("CARGO_BIN_EXE_kickturn"))
+        .args(["fly", "-", "--json"])
+        .current_dir(root())
+        .stdin(Stdio::piped())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("spawn kickturn");
+    if let Some(mut stdin) = child.stdin.take() {
+        stdin.write_all(text.as_bytes()).expect("write stdin");
+    }
+    let piped = child.wait_with_output().expect("kickturn output");
+    assert_eq!(
+        piped.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&piped.stderr)
+    );
+    let from_file = kickturn(&["fly", "problems/medium-2stage-leo200.json", "--json"]);
+    // The same bytes in give the same report (input hash included).
+    assert_eq!(json_of(&piped), json_of(&from_file));
+
+    let csv = kickturn(&["fly", "problems/medium-2stage-leo200.json", "--csv", "-"]);
+    assert_eq!(csv.status.code(), Some(0));
+    let out = String::from_utf8_lossy(&csv.stdout);
+    assert!(
+        out.starts_with("t_s,altitude_m,"),
+        "{}",
+        &out[..out.len().min(200)]
+    );
+    assert!(
+        !out.contains("ORBIT REACHED"),
+        "the report gives way to the output"
+    );
+    assert!(!root().join("-").exists(), "no file named `-`");
+
+    for args in [
+        &[
+            "fly",
+            "problems/medium-2stage-leo200.json",
+            "--csv",
+            "-",
+            "--json",
+        ][..],
+        &[
+            "fly",
+            "problems/medium-2stage-leo200.json",
+            "--csv",
+            "-",
+            "--report",
+            "-",
+        ][..],
+        &["fly", "problems/medium-2stage-leo200.json", "--plot", "-"][..],
+    ] {
+        let out = kickturn(args);
+        assert_eq!(out.status.code(), Some(2), "{args:?}");
+        assert!(out.stdout.is_empty(), "{args:?}");
+        assert!(
+            String::from_utf8_lossy(&out.stderr).starts_with("error: "),
+            "{args:?}"
+        );
+    }
+}

@@ -19,14 +19,23 @@ pub const MAX_INPUT_BYTES: u64 = 16 * 1024 * 1024;
 pub fn read_text(path: &Path) -> anyhow::Result<String> {
     use std::io::Read;
     let name = || format!("{}", path.display());
-    let file = std::fs::File::open(path).with_context(name)?;
-    if file.metadata().is_ok_and(|m| m.is_dir()) {
-        bail!("{}: is a folder, not a problem file", path.display());
-    }
     let mut bytes = Vec::new();
-    file.take(MAX_INPUT_BYTES + 1)
-        .read_to_end(&mut bytes)
-        .with_context(name)?;
+    if is_dash(path) {
+        // `-`: the problem comes on standard input (bounded like a file).
+        std::io::stdin()
+            .lock()
+            .take(MAX_INPUT_BYTES + 1)
+            .read_to_end(&mut bytes)
+            .context("-: standard input")?;
+    } else {
+        let file = std::fs::File::open(path).with_context(name)?;
+        if file.metadata().is_ok_and(|m| m.is_dir()) {
+            bail!("{}: is a folder, not a problem file", path.display());
+        }
+        file.take(MAX_INPUT_BYTES + 1)
+            .read_to_end(&mut bytes)
+            .with_context(name)?;
+    }
     if bytes.len() as u64 > MAX_INPUT_BYTES {
         bail!(
             "{}: larger than {} MiB; a problem file is a few kilobytes of JSON",
@@ -49,6 +58,33 @@ pub fn read_file(path: &Path) -> anyhow::Result<(ProblemFile, String)> {
     let text = read_text(path)?;
     let f = problem::parse(&text).with_context(|| format!("{}", path.display()))?;
     Ok((f, problem::sha256_hex(text.as_bytes())))
+}
+
+/// `-`: standard input as a problem, standard output as an output.
+pub fn is_dash(p: &Path) -> bool {
+    p.as_os_str() == "-"
+}
+
+/// Set once an output is `-`: that output takes standard output, the report is not printed.
+static STDOUT_OUTPUT: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
+
+/// Prints the command's report (text or JSON) unless an output given as `-` holds standard
+/// output.
+pub fn emit_report(text: &str) -> anyhow::Result<()> {
+    if STDOUT_OUTPUT.load(std::sync::atomic::Ordering::Relaxed) {
+        return Ok(());
+    }
+    emit(text)
+}
+
+/// Refuses `--json` beside an output given as `-`: both would need standard output.
+pub fn check_json_stdout(json: bool) -> anyhow::Result<()> {
+    if json && STDOUT_OUTPUT.load(std::sync::atomic::Ordering::Relaxed) {
+        bail!(
+            "--json and an output given as `-` both need standard output; give that output a file"
+        );
+    }
+    Ok(())
 }
 
 /// Writes results to stdout; a closed pipe (`kickturn fly … | head`) is not an error.
@@ -90,9 +126,39 @@ pub fn check_outputs(
             _ => p.to_path_buf(),
         }
     };
-    let ins: Vec<std::path::PathBuf> = inputs.iter().map(|p| canon(p)).collect();
+    let ins: Vec<std::path::PathBuf> = inputs
+        .iter()
+        .filter(|p| !is_dash(p))
+        .map(|p| canon(p))
+        .collect();
     let mut seen: Vec<(std::path::PathBuf, &str)> = Vec::new();
+    let dashes: Vec<&str> = outputs
+        .iter()
+        .filter(|(_, p, _)| is_dash(p))
+        .map(|(f, _, _)| *f)
+        .collect();
+    if dashes.len() > 1 {
+        bail!(
+            "{} and {}: only one output can go to standard output (`-`)",
+            dashes[0],
+            dashes[1]
+        );
+    }
     for (flag, path, kind) in outputs {
+        if is_dash(path) {
+            if *kind == OutputKind::Folder || *flag == "--jsonl" {
+                bail!(
+                    "{flag} -: needs a {}, not standard output",
+                    if *kind == OutputKind::Folder {
+                        "folder"
+                    } else {
+                        "file (the stream is read while it grows)"
+                    }
+                );
+            }
+            STDOUT_OUTPUT.store(true, std::sync::atomic::Ordering::Relaxed);
+            continue;
+        }
         let c = canon(path);
         if ins.contains(&c) {
             bail!(
@@ -227,6 +293,9 @@ fn write_temporary(path: &Path, bytes: &[u8]) -> anyhow::Result<std::path::PathB
 /// Writes `bytes` to `path` atomically (temporary file in the same folder, then rename), keeping
 /// the replaced file's mode; refuses to write over the input file.
 pub fn write_atomic(path: &Path, input: &Path, bytes: &[u8]) -> anyhow::Result<()> {
+    if is_dash(path) {
+        return emit(&String::from_utf8_lossy(bytes));
+    }
     check_outputs(&[input], &[("output", path, OutputKind::File)])?;
     let tmp = write_temporary(path, bytes)?;
     let renamed = std::fs::rename(&tmp, path).map_err(|e| {

@@ -22,7 +22,7 @@ use clap::{Parser, Subcommand};
 use kickturn::app::{self, fly::FlyOptions};
 use kickturn::render;
 
-pub use io::{check_outputs, emit, load_case, write_atomic, OutputKind};
+pub use io::{check_outputs, load_case, write_atomic, OutputKind};
 
 /// kickturn: ascent pitch-program optimizer with an exact ΔV loss budget.
 #[derive(Debug, Parser)]
@@ -372,6 +372,7 @@ fn check_flight_outputs(
 fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
     let record_step_s = record_step(&a.out)?;
     check_flight_outputs(&a.out, &a.problem, None)?;
+    io::check_json_stdout(a.out.json)?;
     let case = load_case(&a.problem)?;
     let run = match app::fly::fly(&case, &FlyOptions { record_step_s }) {
         Ok(r) => r,
@@ -379,9 +380,9 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
     };
     write_flight_outputs(&a.out, &a.problem, &run.report, &run.flight, None)?;
     if a.out.json {
-        emit(&format!("{}\n", serde_json::to_string_pretty(&run.report)?))?;
+        io::emit_report(&format!("{}\n", serde_json::to_string_pretty(&run.report)?))?;
     } else {
-        emit(&render::text::render(&run.report))?;
+        io::emit_report(&render::text::render(&run.report))?;
     }
     Ok(exit_code(run.succeeded()))
 }

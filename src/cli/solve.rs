@@ -4,7 +4,7 @@ use kickturn::app::solve::{solve, SolveSettings};
 use kickturn::optimize::{Method, Objective, SolveOptions};
 use kickturn::render;
 
-use super::io::{emit, load_case, write_atomic, Progress};
+use super::io::{load_case, write_atomic, Progress};
 use super::{app_error, exit_code, record_step, write_flight_outputs, SolveArgs};
 
 /// Runs `kickturn solve`.
@@ -42,6 +42,7 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         }
     }
     super::check_flight_outputs(&a.out, &a.problem, a.write_program.as_deref())?;
+    super::io::check_json_stdout(a.out.json)?;
     let case = load_case(&a.problem)?;
     let run = match solve(&case, &settings, &Progress::new()) {
         Ok(r) => r,
@@ -54,9 +55,9 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
     let r = &run.report;
     write_flight_outputs(&a.out, &a.problem, &r.flight, &run.flight, Some(r))?;
     if a.out.json {
-        emit(&format!("{}\n", serde_json::to_string_pretty(r)?))?;
+        super::io::emit_report(&format!("{}\n", serde_json::to_string_pretty(r)?))?;
     } else {
-        emit(&render::solve::render(r))?;
+        super::io::emit_report(&render::solve::render(r))?;
     }
     Ok(exit_code(run.succeeded()))
 }

@@ -20,9 +20,7 @@ use kickturn::render;
 use kickturn::render::stream::{PointLabel, StreamHeader};
 
 use super::exit_code;
-use super::io::{
-    check_outputs, emit, read_file, write_atomic, write_figures, OutputKind, Progress,
-};
+use super::io::{check_outputs, read_file, write_atomic, write_figures, OutputKind, Progress};
 use super::stream::LineFile;
 use super::StudyArgs;
 
@@ -33,9 +31,9 @@ fn print<T: serde::Serialize>(
     table: impl FnOnce() -> String,
 ) -> anyhow::Result<()> {
     if json {
-        emit(&format!("{}\n", serde_json::to_string_pretty(report)?))
+        super::io::emit_report(&format!("{}\n", serde_json::to_string_pretty(report)?))
     } else {
-        emit(&table())
+        super::io::emit_report(&table())
     }
 }
 
@@ -99,6 +97,8 @@ where
             None => None,
         };
         let csv = match &a.csv {
+            // `--csv -`: the table goes to standard output at the end (nothing to stream into).
+            Some(p) if super::io::is_dash(p) => None,
             Some(p) => Some(LineFile::create(
                 "--csv",
                 p,
@@ -159,6 +159,7 @@ pub fn run_sweep(
         outputs.push(("--plot", p.as_path(), OutputKind::Folder));
     }
     check_outputs(&[problem], &outputs)?;
+    super::io::check_json_stdout(a.json)?;
     let (file, sha) = read_valid(problem)?;
     let label = axis.label();
     let shas = [sha.clone()];
@@ -213,6 +214,7 @@ pub fn run_compare(files: &[PathBuf], a: &StudyArgs) -> anyhow::Result<u8> {
     }
     let inputs: Vec<&Path> = files.iter().map(PathBuf::as_path).collect();
     check_outputs(&inputs, &study_outputs(a))?;
+    super::io::check_json_stdout(a.json)?;
     let read: Vec<(ProblemFile, String)> = files
         .iter()
         .map(|p| read_file(p))
@@ -254,6 +256,7 @@ pub fn run_compare(files: &[PathBuf], a: &StudyArgs) -> anyhow::Result<u8> {
 pub fn run_trade(problem: &Path, a: &StudyArgs) -> anyhow::Result<u8> {
     let opts = a.options()?;
     check_outputs(&[problem], &study_outputs(a))?;
+    super::io::check_json_stdout(a.json)?;
     let (file, sha) = read_valid(problem)?;
     let traded = study::traded(&file);
     let names: Vec<String> = traded.iter().map(|t| t.name(&file)).collect();
