@@ -279,16 +279,69 @@ fn with_hint(msg: &str) -> String {
     else {
         return msg.to_string();
     };
+    // Names compare with and without their unit suffix (`latitude` is `latitude_deg`, not
+    // `altitude_m`), and common shorthands of the trade stand for the schema's words.
+    let typed = [expand(stem(got)), expand(got)];
     let best = list
         .split('`')
         .skip(1)
         .step_by(2)
-        .map(|c| (levenshtein(got, c), c))
+        .map(|c| {
+            let d = typed
+                .iter()
+                .map(|t| levenshtein(t, stem(c)))
+                .chain([levenshtein(got, c), levenshtein(got, stem(c))])
+                .min()
+                .unwrap_or(usize::MAX);
+            (d, c)
+        })
         .min();
     match best {
         Some((d, c)) if d <= got.len().max(3) / 2 => format!("{msg} (did you mean `{c}`?)"),
         _ => msg.to_string(),
     }
+}
+
+/// Unit suffixes of the schema's keys, longest first.
+const UNIT_SUFFIXES: [&str; 14] = [
+    "_percent_dv",
+    "_per_s",
+    "_deg_s",
+    "_mps",
+    "_m2",
+    "_deg",
+    "_km",
+    "_kg",
+    "_pa",
+    "_s",
+    "_n",
+    "_m",
+    "_g",
+    "_rad",
+];
+
+/// A key without its unit suffix.
+fn stem(key: &str) -> &str {
+    UNIT_SUFFIXES
+        .iter()
+        .find_map(|u| key.strip_suffix(u))
+        .filter(|s| !s.is_empty())
+        .unwrap_or(key)
+}
+
+/// Shorthands of the trade written out as the schema spells them.
+fn expand(stem: &str) -> String {
+    match stem {
+        "max_q" | "q_max" | "maxq" | "qmax" | "max_dynamic_pressure" => "max_dynamic_pressure",
+        "max_g" | "g_max" | "max_accel" | "max_acceleration" => "max_axial_accel",
+        "isp" => "isp_vac",
+        "thrust" => "thrust_vac",
+        "lat" => "latitude",
+        "lon" | "long" => "longitude",
+        "alt" => "altitude",
+        other => other,
+    }
+    .to_string()
 }
 
 /// Edit distance between two strings (insertions, deletions, substitutions).
@@ -327,5 +380,21 @@ mod tests {
         assert!(e.is_some_and(|m| m.contains("did you mean `site`?")));
         assert_eq!(levenshtein("isp_s", "isp_vac_s"), 4);
         assert_eq!(levenshtein("", "abc"), 3);
+    }
+
+    #[test]
+    fn a_hint_compares_names_without_their_unit_and_knows_shorthands() {
+        // Issue 12: `latitude` suggested `altitude_m`; `max_q_pa` got no suggestion.
+        let hint = |got: &str, list: &str| {
+            with_hint(&format!("unknown field `{got}`, expected one of {list}"))
+        };
+        let site = "`name`, `latitude_deg`, `longitude_deg`, `altitude_m`";
+        assert!(hint("latitude", site).ends_with("(did you mean `latitude_deg`?)"));
+        assert!(hint("lat", site).ends_with("(did you mean `latitude_deg`?)"));
+        let limits = "`max_dynamic_pressure_pa`, `max_axial_accel_g`, `min_orbit_perigee_alt_km`";
+        assert!(hint("max_q_pa", limits).ends_with("(did you mean `max_dynamic_pressure_pa`?)"));
+        assert!(hint("max_g", limits).ends_with("(did you mean `max_axial_accel_g`?)"));
+        // Far from everything: no guess.
+        assert!(!hint("colour", site).contains("did you mean"));
     }
 }
