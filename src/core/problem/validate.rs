@@ -234,6 +234,18 @@ fn engine(path: &str, t_vac: f64, isp: f64, ae: Option<f64>, t_sl: Option<f64>) 
         (Some(a), None) => range(&format!("{path}.exit_area_m2"), a, 0.0, 1e4, true)?,
         (None, Some(t)) => {
             let f = format!("{path}.thrust_sl_n");
+            // A vacuum thrust below the sea-level one by about a thousand is a thrust in kN:
+            // name that field, not the one written in newtons.
+            if t > thrust_vac_n && t <= 2000.0 * thrust_vac_n && thrust_vac_n < 1e5 {
+                return bad(
+                    &format!("{path}.thrust_vac_n"),
+                    format!(
+                        "{} N is below thrust_sl_n ({} N); is it in kN? Both fields are in \
+                         newtons",
+                        thrust_vac_n, t
+                    ),
+                );
+            }
             range(&f, t, 0.0, thrust_vac_n, false)?;
             (thrust_vac_n - t) / P_SL_PA
         }
@@ -587,6 +599,20 @@ fn limits(l: &LimitsFile) -> R<Limits> {
         .max_dynamic_pressure_pa
         .map(|q| positive("limits.max_dynamic_pressure_pa", q))
         .transpose()?;
+    // Launch vehicles peak at 20 to 60 kPa (common practice): under 1 kPa the value cannot be
+    // meant, and a kilopascal figure is the likely slip.
+    if let Some(q) = q.filter(|q| *q < 1000.0) {
+        return bad(
+            "limits.max_dynamic_pressure_pa",
+            format!(
+                "{} Pa is under 1 kPa, far below any ascent's max-Q (20 to 60 kPa); is it in \
+                 kPa? The field is in pascals ({} kPa = {} Pa)",
+                q,
+                q,
+                q * 1e3
+            ),
+        );
+    }
     let rp = range(
         "limits.min_orbit_perigee_alt_km",
         l.min_orbit_perigee_alt_km.unwrap_or(100.0),
@@ -617,9 +643,14 @@ fn check_liftoff_thrust(v: &Vehicle, site: &Site, env: &Environment) -> R<()> {
             "vehicle.stages[0]",
             format!(
                 "liftoff thrust-to-weight is {tw:.3} (thrust {:.0} kN at the pad, mass {:.0} kg): \
-                 it must exceed 1",
+                 it must exceed 1{}",
                 thrust / 1e3,
-                v.liftoff_mass_kg()
+                v.liftoff_mass_kg(),
+                if tw < 0.01 {
+                    "; is a thrust in kN or a mass in grams? Thrusts are in newtons, masses in kg"
+                } else {
+                    ""
+                }
             ),
         )
     }
