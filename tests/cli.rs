@@ -730,3 +730,41 @@ fn a_dash_reads_the_problem_from_stdin_and_sends_one_output_to_stdout() {
         );
     }
 }
+
+#[test]
+fn compare_shows_each_problem_by_its_full_name() {
+    // Issue 12: compare cut names at 24 characters, so two variants both read
+    // "… to 400 km circ". Every column now is as wide as its full name.
+    let dir = std::env::temp_dir().join(format!("kickturn-compare-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
+        .unwrap_or_default();
+    let mut paths = Vec::new();
+    for v in ["A", "B"] {
+        let name = format!("Brannock M2 to 200 km circular, variant {v}");
+        let t = text.replacen(
+            "\"name\": \"Brannock M2 to 200 km circular\"",
+            &format!("\"name\": \"{name}\""),
+            1,
+        );
+        assert_ne!(t, text, "the demo's name line moved");
+        let p = dir.join(format!("variant-{v}.json"));
+        std::fs::write(&p, t).expect("write variant");
+        paths.push(p.to_string_lossy().to_string());
+    }
+    let out = kickturn(&[
+        "compare",
+        &paths[0],
+        &paths[1],
+        "--max-trajectories",
+        "2000",
+    ]);
+    let table = String::from_utf8_lossy(&out.stdout);
+    for v in ["A", "B"] {
+        assert!(
+            table.contains(&format!("Brannock M2 to 200 km circular, variant {v}")),
+            "{table}"
+        );
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}

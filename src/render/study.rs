@@ -70,10 +70,15 @@ pub fn compare(r: &CompareReport) -> String {
         s,
         "comparison of solved ascents (Earth-relative bookkeeping, m/s unless noted)"
     );
+    // Each column as wide as its problem's full name (two variants may share a long prefix).
+    let widths: Vec<usize> = r
+        .problems
+        .iter()
+        .map(|(name, _)| name.chars().count().max(12))
+        .collect();
     let _ = write!(s, "  {:<34}", "");
-    for (name, _) in &r.problems {
-        let short: String = name.chars().take(24).collect();
-        let _ = write!(s, " {short:>24}");
+    for ((name, _), w) in r.problems.iter().zip(&widths) {
+        let _ = write!(s, " {name:>w$}");
     }
     let _ = writeln!(s);
     type Get = fn(&crate::app::solve::SolveReport) -> f64;
@@ -102,19 +107,19 @@ pub fn compare(r: &CompareReport) -> String {
         ("max axial acceleration g0", |r| r.flight.max_axial_accel_g),
     ];
     let _ = write!(s, "  {:<34}", "status");
-    for (_, p) in &r.problems {
-        let _ = write!(s, " {:>24}", status_word(p));
+    for ((_, p), w) in r.problems.iter().zip(&widths) {
+        let _ = write!(s, " {:>w$}", status_word(p));
     }
     let _ = writeln!(s);
     for (label, get) in rows {
         let _ = write!(s, "  {label:<34}");
-        for (_, p) in &r.problems {
+        for ((_, p), w) in r.problems.iter().zip(&widths) {
             match &p.report {
                 Some(rep) => {
-                    let _ = write!(s, " {:>24.1}", get(rep));
+                    let _ = write!(s, " {:>w$.1}", get(rep));
                 }
                 None => {
-                    let _ = write!(s, " {:>24}", "-");
+                    let _ = write!(s, " {:>w$}", "-");
                 }
             }
         }
