@@ -2,22 +2,10 @@
 //! bad-input messages.
 
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Command;
 
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
-
-fn kickturn(args: &[&str]) -> Output {
-    match Command::new(env!("CARGO_BIN_EXE_kickturn"))
-        .args(args)
-        .current_dir(root())
-        .output()
-    {
-        Ok(o) => o,
-        Err(e) => panic!("cannot run kickturn: {e}"),
-    }
-}
+mod bin_support;
+use bin_support::{json_of, kickturn, root};
 
 fn demos() -> Vec<String> {
     let mut v: Vec<String> = std::fs::read_dir(root().join("problems"))
@@ -30,16 +18,6 @@ fn demos() -> Vec<String> {
         .unwrap_or_default();
     v.sort();
     v
-}
-
-fn json_of(out: &Output) -> serde_json::Value {
-    match serde_json::from_slice(&out.stdout) {
-        Ok(v) => v,
-        Err(e) => panic!(
-            "stdout is not JSON ({e}): {}",
-            String::from_utf8_lossy(&out.stdout)
-        ),
-    }
 }
 
 #[test]

@@ -2,8 +2,7 @@
 //! perturbed starts, a kick scan around the optimum, the written program reproducing the orbit,
 //! and infeasible targets.
 
-use std::path::{Path, PathBuf};
-use std::process::Command;
+use std::path::Path;
 
 use kickturn::app::outcome::FlightReport;
 use kickturn::optimize::{objective, tune, Param, SolveOptions, SolveStatus};
@@ -12,9 +11,8 @@ use kickturn::problem::{Insertion, Problem, Target};
 use kickturn::sim::{fly, FlyOptions};
 use kickturn::steering::LawParam;
 
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
+mod bin_support;
+use bin_support::{json_of, kickturn, root};
 
 fn demo(name: &str) -> Problem {
     let path = root().join("problems").join(name);
@@ -263,22 +261,6 @@ fn the_optimum_is_a_minimum_along_the_kick() {
     }
 }
 
-fn kickturn(args: &[&str]) -> std::process::Output {
-    match Command::new(env!("CARGO_BIN_EXE_kickturn"))
-        .args(args)
-        .current_dir(root())
-        .output()
-    {
-        Ok(o) => o,
-        Err(e) => panic!("{e}"),
-    }
-}
-
-fn json(out: &std::process::Output) -> serde_json::Value {
-    serde_json::from_slice(&out.stdout)
-        .unwrap_or_else(|e| panic!("{e}: {}", String::from_utf8_lossy(&out.stdout)))
-}
-
 #[test]
 fn the_written_program_flies_to_the_same_orbit() {
     let dir = std::env::temp_dir().join(format!("kickturn-solve-{}", std::process::id()));
@@ -298,7 +280,7 @@ fn the_written_program_flies_to_the_same_orbit() {
         "{}",
         String::from_utf8_lossy(&solved.stderr)
     );
-    let s = json(&solved);
+    let s = json_of(&solved);
     for k in [
         "program",
         "convergence",
@@ -313,7 +295,7 @@ fn the_written_program_flies_to_the_same_orbit() {
     assert_eq!(s["convergence"]["status"], "converged");
     let flown = kickturn(&["fly", &o, "--json"]);
     assert_eq!(flown.status.code(), Some(0));
-    let f = json(&flown);
+    let f = json_of(&flown);
     for k in ["perigee_alt_km", "apogee_alt_km", "inclination_deg"] {
         let a = s["orbit"][k].as_f64().unwrap_or(f64::NAN);
         let b = f["orbit"][k].as_f64().unwrap_or(0.0);
@@ -337,7 +319,7 @@ fn an_infeasible_target_is_reported_with_exit_1() {
     let p = path.to_string_lossy().to_string();
     let out = kickturn(&["solve", &p, "--json"]);
     assert_eq!(out.status.code(), Some(1));
-    let r = json(&out);
+    let r = json_of(&out);
     assert_eq!(r["convergence"]["status"], "infeasible");
     let short = r["shortfall_mps"].as_f64().unwrap_or(0.0);
     assert!(short > 100.0, "ΔV shortfall {short}");
@@ -448,12 +430,12 @@ fn the_payload_mode_fills_the_margin_with_payload() {
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
-    let r = json(&out);
+    let r = json_of(&out);
     let payload = r["payload_kg"].as_f64().unwrap_or(0.0);
     assert!(payload > 9000.0, "payload {payload}");
     let margin = r["margin_kg"].as_f64().unwrap_or(f64::NAN);
     assert!(margin.abs() < 30.0, "margin after reserves {margin} kg");
-    let flown = json(&kickturn(&["fly", &o, "--json"]));
+    let flown = json_of(&kickturn(&["fly", &o, "--json"]));
     let d = &flown["target_deviation"];
     assert_eq!(d["met"], true, "{d}");
     let _ = std::fs::remove_dir_all(&dir);
@@ -485,7 +467,7 @@ fn a_written_program_with_a_throttle_bucket_reproduces_the_held_max_q() {
         "{}",
         String::from_utf8_lossy(&s.stderr)
     );
-    let f = json(&kickturn(&["fly", &o, "--json"]));
+    let f = json_of(&kickturn(&["fly", &o, "--json"]));
     let q = f["max_dynamic_pressure_pa"].as_f64().unwrap_or(f64::NAN);
     assert!(
         (q - 32_000.0).abs() < 1.0,

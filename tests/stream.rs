@@ -4,27 +4,15 @@
 
 use std::io::Read;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output, Stdio};
+use std::process::{Command, Stdio};
 
 use serde_json::Value;
 
+mod bin_support;
+use bin_support::{json_of, kickturn, root};
+
 const MEDIUM: &str = "problems/medium-2stage-leo200.json";
 const HEAVY: &str = "problems/heavy-boosters-leo300.json";
-
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
-
-fn kickturn(args: &[&str]) -> Output {
-    match Command::new(env!("CARGO_BIN_EXE_kickturn"))
-        .args(args)
-        .current_dir(root())
-        .output()
-    {
-        Ok(o) => o,
-        Err(e) => panic!("cannot run kickturn: {e}"),
-    }
-}
 
 /// A fresh folder for one test's outputs.
 fn scratch(name: &str) -> PathBuf {
@@ -45,15 +33,6 @@ fn lines(path: &Path) -> Vec<Value> {
     t.lines()
         .map(|l| serde_json::from_str(l).unwrap_or_else(|e| panic!("not JSON ({e}): {l}")))
         .collect()
-}
-
-fn json_of(out: &Output) -> Value {
-    serde_json::from_slice(&out.stdout).unwrap_or_else(|e| {
-        panic!(
-            "stdout is not JSON ({e}); stderr: {}",
-            String::from_utf8_lossy(&out.stderr)
-        )
-    })
 }
 
 /// A point line without the stream's own keys: the fields of the `--json` point.
