@@ -95,6 +95,10 @@ pub struct SolveReport {
     pub active_constraints: Vec<String>,
     /// Limits held by the optimizer, with their cost.
     pub constraint_costs: Vec<crate::core::optimize::ActiveConstraint>,
+    /// How the optimum moves with the target, the payload and a held max-Q limit, from the
+    /// optimizer's multipliers (one extra trajectory each): trade factors without re-solving.
+    /// Empty unless the search converged.
+    pub sensitivities: Vec<crate::core::optimize::sensitivity::Sensitivity>,
     /// Richer programs tried with `--explore` and what they save.
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub richer_programs: Vec<Richer>,
@@ -435,6 +439,7 @@ fn report(
         margin_mps,
         active_constraints: active_constraints(flown, &report, accel_limited, &sol.active),
         constraint_costs: sol.active.clone(),
+        sensitivities: sol.sensitivities.clone(),
         shortfall_mps: shortfall_mps(flown, &flight.y1),
         richer_programs: if s.explore {
             let base = crate::core::optimize::objective(&sol.eval);

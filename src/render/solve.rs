@@ -96,6 +96,24 @@ pub fn summary(r: &SolveReport) -> String {
     for a in &r.active_constraints {
         let _ = writeln!(s, "active: {a}");
     }
+    if !r.sensitivities.is_empty() {
+        let _ = writeln!(
+            s,
+            "sensitivities of the optimum (from its multipliers; no re-solve):"
+        );
+        for x in &r.sensitivities {
+            let what = if x.of == "payload_kg" {
+                "payload"
+            } else {
+                "propellant"
+            };
+            let _ = writeln!(
+                s,
+                "  {:<40} {:>+10.2} kg {what} per {}",
+                x.field, x.kg_per_unit, x.per
+            );
+        }
+    }
     for x in &r.richer_programs {
         let _ = writeln!(
             s,

@@ -18,6 +18,7 @@
 pub mod inner;
 pub mod nlp;
 mod outer;
+pub mod sensitivity;
 pub mod sqp;
 pub mod targeting;
 
@@ -155,6 +156,9 @@ pub struct Solution {
     pub convergence: Convergence,
     /// Path constraints held at their limit, with their cost.
     pub active: Vec<ActiveConstraint>,
+    /// How the optimum moves with the target, the payload and a held limit (from the
+    /// multipliers; empty unless the SQP search converged).
+    pub sensitivities: Vec<sensitivity::Sensitivity>,
 }
 
 /// A path constraint that is active at the optimum.
@@ -251,6 +255,7 @@ impl Ctx<'_> {
                 apogee_alt_m: f64::NAN,
                 shortfall: 1.0,
                 max_q_pa: f64::NAN,
+                max_q_by_bucket_pa: None,
                 payload_kg: self.spec.base.vehicle.payload_kg,
                 payload_mode: self.max_payload,
             };
@@ -262,6 +267,11 @@ impl Ctx<'_> {
             self.spec.q_limit,
             self.max_payload,
         )
+    }
+
+    /// Counts one trajectory flown outside [`Ctx::eval`].
+    fn count_flight(&self) {
+        self.flights.fetch_add(1, Ordering::Relaxed);
     }
 
     /// True once the trajectory budget (or the optional wall-time cap) is spent.
@@ -619,7 +629,7 @@ fn solve_timed(p: &Problem, o: &SolveOptions, run: &Run) -> Result<Solution, Sol
     match b.program.bucket.as_mut() {
         None => b.program.bucket = Some(bucket_guess(&free.problem, q_lim)),
         // Nested: start below full throttle (at the bound the forward difference sees no slope).
-        Some(k) => k.throttle = k.throttle.min(0.9).max(b.vehicle.stages[0].min_throttle),
+        Some(k) => k.throttle = k.throttle.min(0.97).max(b.vehicle.stages[0].min_throttle),
     }
     let mut inner_q = inner;
     inner_q.push(Param::BucketThrottle);
@@ -764,7 +774,7 @@ fn bucket_guess(p: &Problem, q_lim: f64) -> crate::core::steering::Bucket {
     crate::core::steering::Bucket {
         start_s: t0,
         duration_s: (t1 - t0).max(5.0),
-        throttle: 0.8f64.max(p.vehicle.stages[0].min_throttle),
+        throttle: 0.97f64.max(p.vehicle.stages[0].min_throttle),
     }
 }
 
@@ -829,7 +839,16 @@ fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
         kick_bracket: None,
     };
     let proven_infeasible = found.outcome.status == sqp::Status::Infeasible;
-    let sol = finish_found(&ctx, found);
+    let sens = if found.outcome.status == sqp::Status::Converged {
+        sensitivity::of_optimum(&prog, &found.outcome)
+    } else {
+        Vec::new()
+    };
+    let mut sol = finish_found(&ctx, found);
+    if sol.convergence.status == SolveStatus::Converged {
+        sol.sensitivities = sens;
+        sol.convergence.trajectories = ctx.flights.load(Ordering::Relaxed);
+    }
     // A verdict of infeasibility is evidence (a stationary point of the constraint violation,
     // reached from the two best starts): it is reported at once, with the shortfall of the best
     // point, rather than after thousands of nested trajectories (a 5× payload took 8 805).
@@ -959,6 +978,7 @@ fn finish(ctx: &Ctx, best: outer::Candidate) -> Solution {
         eval: best.eval,
         convergence,
         active: Vec::new(),
+        sensitivities: Vec::new(),
     }
 }
 

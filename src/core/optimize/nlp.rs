@@ -8,7 +8,8 @@
 //! - equality constraints: the terminal conditions (scaled residuals of [`super::targeting`]; in
 //!   the payload mode also the energy at depletion);
 //! - inequality constraints: the energy shortfall (zero once the last cutoff is reached) and,
-//!   when a dynamic-pressure limit is held, `(q_max − q_limit)/1 kPa ≤ 0`.
+//!   when a dynamic-pressure limit is held, `(q_max − q_limit)/1 kPa ≤ 0` (with a throttle
+//!   bucket, one such row for each part of its timeline: before, inside and after it).
 //!
 //! Every function value is one trajectory; the finite-difference columns of an iteration are
 //! flown in parallel. Starting points: the program as written first, then (with the scan) the
@@ -19,7 +20,7 @@
 use rayon::prelude::*;
 
 use super::sqp::{self, Program, Settings, Status, Values};
-use super::targeting::{Eval, SHORTFALL_WEIGHT};
+use super::targeting::{Eval, Q_SCALE_PA, SHORTFALL_WEIGHT};
 use super::{inner, Ctx, SolveOptions};
 use crate::core::problem::params::Param;
 
@@ -92,6 +93,53 @@ impl<'a> Ascent<'a> {
         self.ctx.eval(&y[k..], &y[..k])
     }
 
+    /// Inequality rows of a held max-Q limit: one per part of the bucket's timeline (before,
+    /// inside, after) when the pass flies a bucket, else one; none without a held limit.
+    pub fn q_rows(&self) -> usize {
+        match (self.ctx.spec.q_limit, self.ctx.spec.base.program.bucket) {
+            (None, _) => 0,
+            (Some(_), Some(_)) => 3,
+            (Some(_), None) => 1,
+        }
+    }
+
+    /// The pass this program poses.
+    pub fn ctx(&self) -> &'a Ctx<'a> {
+        self.ctx
+    }
+
+    /// Objective unit, kg.
+    pub fn unit_kg(&self) -> f64 {
+        self.unit_kg
+    }
+
+    /// The objective is minus the payload (largest payload) rather than the propellant.
+    pub fn payload_mode(&self) -> bool {
+        self.ctx.max_payload
+    }
+
+    /// The values of the program's `x` flown after `change` edits the problem and the target
+    /// (one trajectory; for sensitivities). `None` past the wall-time cap.
+    pub fn values_perturbed(
+        &self,
+        x: &[f64],
+        change: impl Fn(&mut crate::core::problem::Problem, &mut crate::core::problem::Target),
+    ) -> Option<Values> {
+        if self.ctx.past_deadline() {
+            return None;
+        }
+        let k = self.n_inner();
+        let y = self.to_pass(x);
+        let mut p = self.ctx.problem_with(&y[k..], &y[..k]);
+        let mut t = self.ctx.spec.target;
+        change(&mut p, &mut t);
+        // The flight cuts its last burn on the problem's own target energy.
+        p.target = Some(t);
+        self.ctx.count_flight();
+        let e = super::targeting::evaluate(&p, &t, self.ctx.spec.q_limit, self.ctx.max_payload);
+        Some(self.values(&e))
+    }
+
     /// The program's values of an evaluation.
     pub fn values(&self, e: &Eval) -> Values {
         let r = &e.residuals;
@@ -100,8 +148,16 @@ impl<'a> Ascent<'a> {
         let last = r.last().copied().unwrap_or(f64::NAN);
         let mut eq = r[..conds].to_vec();
         let mut ineq = Vec::new();
-        if held == 1 {
-            ineq.push(r[conds]);
+        if let Some(lim) = self.ctx.spec.q_limit {
+            // With a bucket, one limit per part of its timeline: the overall maximum has a kink
+            // where two humps are equally high (as at the held optimum); each part's maximum is
+            // smooth. A failed evaluation repeats its overall residual (same row count).
+            match (self.q_rows(), e.max_q_by_bucket_pa) {
+                (3, Some(parts)) if e.max_q_pa.is_finite() => {
+                    ineq.extend(parts.iter().map(|q| (q - lim) / Q_SCALE_PA));
+                }
+                (n, _) => ineq.extend(std::iter::repeat_n(r[conds], n)),
+            }
         }
         if e.payload_mode {
             eq.push(last);

@@ -47,6 +47,9 @@ pub struct Eval {
     pub shortfall: f64,
     /// Maximum dynamic pressure, Pa.
     pub max_q_pa: f64,
+    /// With a throttle bucket: the maximum dynamic pressure before, inside and after it, Pa
+    /// (`None` without a bucket).
+    pub max_q_by_bucket_pa: Option<[f64; 3]>,
     /// Payload, kg.
     pub payload_kg: f64,
     /// Evaluated in the payload mode (objective: largest payload).
@@ -147,6 +150,7 @@ pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>, energy_equality: 
         },
         shortfall,
         max_q_pa,
+        max_q_by_bucket_pa: p.program.bucket.map(|_| f.max_q_by_bucket_pa),
         payload_kg: p.vehicle.payload_kg,
         payload_mode: energy_equality,
     }

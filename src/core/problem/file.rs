@@ -328,6 +328,9 @@ pub enum SteeringFile {
     LinearTangentContinued,
     /// Pitch against time since liftoff, in the launch-azimuth plane.
     PitchTable(Vec<[f64; 2]>),
+    /// Pitch above the local horizontal and heading from north against time since liftoff:
+    /// `[time_s, pitch_deg, heading_deg]` triples (what `solve --refine` writes).
+    AttitudeTable(Vec<[f64; 3]>),
 }
 
 /// Linear tangent law tan θ = tan θ0 − c·τ, τ time since the arc's start, θ above the horizontal

@@ -196,6 +196,10 @@ pub struct Flight {
     pub arcs: Vec<ArcRecord>,
     /// Maximum dynamic pressure.
     pub max_q: Option<Extremum>,
+    /// Maximum dynamic pressure before, inside and after the throttle bucket, Pa (0 for a part
+    /// not flown). Each part's maximum is a smooth function of the program where the overall
+    /// maximum has a kink (two humps at the same height): the optimizer holds a limit on each.
+    pub max_q_by_bucket_pa: [f64; 3],
     /// Maximum sensed axial acceleration, in g0.
     pub max_axial_accel: Option<Extremum>,
     /// Propellant left in the current and later stages, kg.
@@ -398,6 +402,7 @@ impl<'a> Flyer<'a> {
             events: Vec::new(),
             arcs: Vec::new(),
             max_q: None,
+            max_q_by_bucket_pa: [0.0; 3],
             max_axial_accel: None,
             propellant_remaining_kg: 0.0,
             history: Vec::new(),
@@ -814,18 +819,32 @@ impl<'a> Flyer<'a> {
         let (q_stop, a_stop) = q_and_accel(p, &mode, law, t_stop, y_stop);
         w.samples.push((t_stop, q_stop, a_stop));
         let qa = |t: f64| com.evaluate(t).map(|y| q_and_accel(p, &mode, law, t, &y));
+        // The segment lies in one part of the bucket's timeline (its start and end stop
+        // segments); without a bucket every segment is in part 0 and the part's maximum is the
+        // overall one, so this costs nothing extra.
+        let part = if self.flags.in_bucket {
+            1
+        } else if self.flags.bucket_done {
+            2
+        } else {
+            0
+        };
         let best_q = self.out.max_q.map_or(f64::NEG_INFINITY, |m| m.value);
-        if w.samples.iter().any(|s| s.1 > best_q) {
+        let best_part = self.out.max_q_by_bucket_pa[part];
+        if w.samples.iter().any(|s| s.1 > best_part) {
             let q = refine_max(
                 &w.samples,
                 |s| s.1,
                 |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.0),
             );
-            if let Some((v, t)) = q.filter(|(v, _)| *v > best_q) {
-                self.out.max_q = com.evaluate(t).map(|y| Extremum {
-                    value: v,
-                    at: snapshot(p, &mode, law, t, &y),
-                });
+            if let Some((v, t)) = q.filter(|(v, _)| *v > best_part) {
+                self.out.max_q_by_bucket_pa[part] = v;
+                if v > best_q {
+                    self.out.max_q = com.evaluate(t).map(|y| Extremum {
+                        value: v,
+                        at: snapshot(p, &mode, law, t, &y),
+                    });
+                }
             }
         }
         let best_a = self

@@ -32,6 +32,10 @@ pub struct Snapshot {
     pub flight_path_inertial_deg: f64,
     /// Thrust-axis pitch above the local horizontal, deg.
     pub pitch_deg: f64,
+    /// Thrust-axis heading (its horizontal projection, clockwise from north), deg; kept out of
+    /// the reports (the refinement starts its attitude tables from it).
+    #[serde(skip)]
+    pub heading_deg: f64,
     /// Angle between the thrust axis and the Earth-relative velocity, deg.
     pub alpha_deg: f64,
     /// Mach number.
@@ -102,6 +106,7 @@ pub fn snapshot(p: &FlightModel, mode: &Mode, law: &dyn ActiveLaw, t: f64, y: &S
         flight_path_rel_deg: elevation_deg(&loc.v_rel_mps, &loc.up),
         flight_path_inertial_deg: elevation_deg(&v, &loc.up),
         pitch_deg: elevation_deg(&axis, &loc.up),
+        heading_deg: axis.dot(&loc.east).atan2(axis.dot(&loc.north)).to_degrees(),
         alpha_deg: if thrusting {
             angle_deg(&f.dir, &loc.v_rel_mps)
         } else {

@@ -32,7 +32,7 @@ use crate::core::physics::environment::Local;
 use crate::core::problem::file::SteeringFile;
 
 pub use linear_tangent::LinearTangent;
-pub use pitch_table::PitchTable;
+pub use pitch_table::{AttitudeTable, PitchTable};
 
 /// End of the vertical rise.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -329,6 +329,8 @@ pub enum Steering {
     LinearTangentContinued,
     /// Tabulated pitch against time since liftoff, heading = launch azimuth.
     PitchTable(PitchTable),
+    /// Tabulated pitch and heading against time since liftoff (a free thrust direction).
+    AttitudeTable(AttitudeTable),
     /// A law supplied by a program (not from the problem file): closed-loop guidance, tests.
     /// Shared, so the optimizer cannot tune it.
     Custom(SharedLaw),
@@ -342,6 +344,7 @@ impl Steering {
             Steering::LinearTangent(l) => l,
             Steering::LinearTangentContinued => &linear_tangent::Continued,
             Steering::PitchTable(t) => t,
+            Steering::AttitudeTable(t) => t,
             Steering::Custom(l) => l.0.as_ref(),
         }
     }
@@ -356,6 +359,7 @@ impl Steering {
         match self {
             Steering::LinearTangent(l) => Some(l),
             Steering::PitchTable(t) => Some(t),
+            Steering::AttitudeTable(t) => Some(t),
             Steering::GravityTurn | Steering::LinearTangentContinued | Steering::Custom(_) => None,
         }
     }
@@ -370,6 +374,9 @@ impl Steering {
             SteeringFile::PitchTable(pts) => {
                 Steering::PitchTable(PitchTable::from_file(path, pts)?)
             }
+            SteeringFile::AttitudeTable(pts) => {
+                Steering::AttitudeTable(AttitudeTable::from_file(path, pts)?)
+            }
             SteeringFile::LinearTangentContinued => Steering::LinearTangentContinued,
         })
     }
@@ -381,7 +388,8 @@ impl Steering {
             // No tunable parameters in the file form.
             SteeringFile::GravityTurn
             | SteeringFile::LinearTangentContinued
-            | SteeringFile::PitchTable(_) => {}
+            | SteeringFile::PitchTable(_)
+            | SteeringFile::AttitudeTable(_) => {}
         }
     }
 }

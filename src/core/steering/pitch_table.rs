@@ -1,4 +1,5 @@
-//! Tabulated pitch against time since liftoff, in the launch-azimuth plane: linear between nodes,
+//! Tabulated pitch against time since liftoff, in the launch-azimuth plane ([`PitchTable`]), or
+//! pitch and heading ([`AttitudeTable`], what `solve --refine` writes): linear between nodes,
 //! held beyond the ends. The simulator stops at every node (the direction has a kink there).
 
 use nalgebra::Vector3;
@@ -101,5 +102,93 @@ impl ActiveLaw for ActiveTable {
 
     fn next_node_s(&self, t_s: f64) -> Option<f64> {
         self.table.t_s.iter().find(|t| **t > t_s).copied()
+    }
+}
+
+/// Pitch above the local horizontal and heading (clockwise from north) against time since
+/// liftoff, each linear between nodes and held beyond the ends: a free thrust direction (the
+/// form `solve --refine` writes).
+#[derive(Debug, Clone, PartialEq)]
+pub struct AttitudeTable {
+    /// Pitch against time.
+    pub pitch: PitchTable,
+    /// Heading at the same nodes, rad.
+    pub heading_rad: Vec<f64>,
+}
+
+impl AttitudeTable {
+    /// Heading at time `t_s`, rad.
+    pub fn heading_rad(&self, t_s: f64) -> f64 {
+        interpolate(&self.pitch.t_s, &self.heading_rad, t_s)
+    }
+
+    /// Validates `[time_s, pitch_deg, heading_deg]` triples at JSON path `path`.
+    pub fn from_file(path: &str, pts: &[[f64; 3]]) -> Result<AttitudeTable, ProblemError> {
+        let pairs: Vec<[f64; 2]> = pts.iter().map(|p| [p[0], p[1]]).collect();
+        let pitch = PitchTable::from_file(path, &pairs)?;
+        for (i, p) in pts.iter().enumerate() {
+            crate::core::error::in_range(&format!("{path}[{i}]"), p[2], -360.0, 360.0, true)?;
+        }
+        Ok(AttitudeTable {
+            pitch,
+            heading_rad: pts.iter().map(|p| p[2].to_radians()).collect(),
+        })
+    }
+
+    /// The file form: `[time_s, pitch_deg, heading_deg]` triples.
+    pub fn to_file(&self) -> Vec<[f64; 3]> {
+        self.pitch
+            .t_s
+            .iter()
+            .zip(&self.pitch.pitch_rad)
+            .zip(&self.heading_rad)
+            .map(|((t, p), h)| [*t, p.to_degrees(), h.to_degrees()])
+            .collect()
+    }
+}
+
+/// Linear interpolation of `y` over strictly increasing `x`, held beyond the ends.
+fn interpolate(x: &[f64], y: &[f64], at: f64) -> f64 {
+    let n = x.len().min(y.len());
+    if n == 0 {
+        return 0.0;
+    }
+    if at <= x[0] {
+        return y[0];
+    }
+    let i = x[..n].partition_point(|v| *v < at);
+    if i >= n {
+        return y[n - 1];
+    }
+    let f = (at - x[i - 1]) / (x[i] - x[i - 1]);
+    y[i - 1] + f * (y[i] - y[i - 1])
+}
+
+impl SteeringLaw for AttitudeTable {
+    fn file_key(&self) -> &'static str {
+        "attitude_table"
+    }
+
+    fn start(&self, _s: &ArcStart) -> Box<dyn ActiveLaw> {
+        Box::new(ActiveAttitude(self.clone()))
+    }
+}
+
+/// An attitude table in flight.
+#[derive(Debug, Clone)]
+struct ActiveAttitude(AttitudeTable);
+
+impl ActiveLaw for ActiveAttitude {
+    fn direction(&self, t_s: f64, loc: &Local) -> Vector3<f64> {
+        let t = &self.0;
+        pitch_heading_dir(
+            loc,
+            interpolate(&t.pitch.t_s, &t.pitch.pitch_rad, t_s),
+            interpolate(&t.pitch.t_s, &t.heading_rad, t_s),
+        )
+    }
+
+    fn next_node_s(&self, t_s: f64) -> Option<f64> {
+        self.0.pitch.t_s.iter().find(|t| **t > t_s).copied()
     }
 }
