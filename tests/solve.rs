@@ -635,7 +635,8 @@ fn multiplier_sensitivities_match_re_solves_with_the_input_moved() {
             .unwrap_or_else(|| panic!("no sensitivity to {field}: {:?}", base.sensitivities))
             .kg_per_unit
     };
-    let cases: [(&str, f64, fn(&mut Problem, f64)); 2] = [
+    type Move = fn(&mut Problem, f64);
+    let cases: [(&str, f64, Move); 2] = [
         ("target.apogee_alt_m", 5.0, |p, d| {
             if let Some(t) = p.target.as_mut() {
                 t.apogee_alt_m += d * 1e3;
