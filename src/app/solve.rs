@@ -14,6 +14,7 @@ use crate::core::optimize::{tune_observed, Convergence, SolveOptions, SolveStatu
 use crate::core::problem::file::{AscentFile, LaunchFile, ProblemFile};
 use crate::core::problem::params::Param;
 use crate::core::problem::{validate, Problem};
+use crate::core::sim::dynamics::ix;
 use crate::core::sim::{fly, EventKind, Flight, FlyOptions};
 
 /// The tuned program in the problem file's own syntax.
@@ -99,12 +100,41 @@ pub struct SolveReport {
     /// optimizer's multipliers (one extra trajectory each): trade factors without re-solving.
     /// Empty unless the search converged.
     pub sensitivities: Vec<crate::core::optimize::sensitivity::Sensitivity>,
+    /// The free-attitude refinement (`--refine`) and the gap of the simple program.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub refinement: Option<Refinement>,
     /// Richer programs tried with `--explore` and what they save.
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub richer_programs: Vec<Richer>,
     /// When the target energy was not reached: the speed still missing at the end of the best
     /// program found, √(v² + 2ΔE) − v, m/s (null when reached).
     pub shortfall_mps: Option<f64>,
+}
+
+/// What `--refine` found: the simple program's optimality gap against a free thrust direction.
+#[derive(Debug, Clone, Serialize)]
+pub struct Refinement {
+    /// Attitude nodes per powered arc.
+    pub nodes_per_arc: usize,
+    /// Variables of the refinement (node pitches, and headings with an inclination target).
+    pub variables: usize,
+    /// How the refinement's search ended.
+    pub status: SolveStatus,
+    /// Why, in words.
+    pub reason: String,
+    /// Its trajectories (beyond the shooting solve's).
+    pub trajectories: usize,
+    /// Propellant burned by the simple (shooting) program, kg.
+    pub simple_propellant_used_kg: f64,
+    /// Propellant burned by the refined program, kg.
+    pub refined_propellant_used_kg: f64,
+    /// The simple program's gap: propellant the refined program saves, kg.
+    pub gap_kg: f64,
+    /// The gap as ΔV of the last stage at cutoff, c·ln(m_f,refined / m_f,simple), m/s.
+    pub gap_mps: f64,
+    /// The refined program was kept (it met the target and saved propellant); otherwise the
+    /// report flies the simple program.
+    pub kept: bool,
 }
 
 /// A richer program and its saving over the default one.
@@ -284,6 +314,9 @@ pub struct SolveSettings {
     pub explore: bool,
     /// Record the time history of the tuned flight every this many seconds, s; `None`: none.
     pub record_step_s: Option<f64>,
+    /// Refine the solved program with a free thrust direction (`solve --refine`): the report then
+    /// flies and writes the refined program and states the gap. `None`: no refinement.
+    pub refine: Option<crate::core::optimize::refine::RefineOptions>,
 }
 
 /// Variable groups `--free` accepts.
@@ -295,6 +328,9 @@ impl SolveSettings {
     /// Checks the options that do not depend on the problem.
     pub fn check(&self) -> Result<(), Error> {
         check_step("record_step_s", self.record_step_s)?;
+        if let Some(r) = self.refine {
+            check_range("refine_nodes", Some(r.nodes_per_arc as f64), 4.0, 200.0)?;
+        }
         let o = &self.solver;
         // A wall cap is optional: at most about eleven days, and more than a millisecond.
         check_range("max_wall_s", o.max_wall_s, 1e-3, 1e6)?;
@@ -383,11 +419,90 @@ pub fn solve(case: &Case, s: &SolveSettings, obs: &dyn Observer) -> Result<Solve
             initial: None,
         },
     );
-    let report = report(p, &flown, &tuned_file, &flight, &sol, s, obs);
+    let (flown, tuned_file, flight, refinement) = match s.refine {
+        Some(o) if flight.end == crate::core::sim::EndReason::Completed => {
+            refine_program(flown, tuned_file, flight, &o, s.record_step_s)?
+        }
+        _ => (flown, tuned_file, flight, None),
+    };
+    let mut report = report(p, &flown, &tuned_file, &flight, &sol, s, obs);
+    report.refinement = refinement;
     Ok(SolveRun {
         report,
         tuned_file,
         flight,
+    })
+}
+
+/// `--refine`: refines the written program `flown` with a free thrust direction, writes the
+/// attitude tables into the file form and flies them as written. The refined program replaces the
+/// simple one only when it meets the target and burns less.
+fn refine_program(
+    flown: Problem,
+    tuned_file: ProblemFile,
+    flight: Flight,
+    o: &crate::core::optimize::refine::RefineOptions,
+    record_step_s: Option<f64>,
+) -> Result<(Problem, ProblemFile, Flight, Option<Refinement>), Error> {
+    use crate::core::problem::file::{ArcFile, SteeringFile};
+    use crate::core::steering::{Arc, Steering};
+    let r = crate::core::optimize::refine::refine(&flown, o)?;
+    let mut file = tuned_file.clone();
+    for (i, a) in r.problem.program.arcs.iter().enumerate() {
+        if let (
+            Arc::Burn {
+                steering: Steering::AttitudeTable(t),
+                ..
+            },
+            Some(ArcFile::Burn(b)),
+        ) = (a, file.ascent.arcs.get_mut(i))
+        {
+            b.steering = SteeringFile::AttitudeTable(t.to_file());
+            // The table holds the vertical rise as its first nodes; the liftoff manoeuvre
+            // (rise, kick, pitch-over) belongs to a gravity-turn first arc only.
+            if i == 0 {
+                file.ascent.liftoff = None;
+            }
+        }
+    }
+    let mut refined = validate::validate(&file).map_err(Error::WriteBack)?;
+    refined.input_sha256 = flown.input_sha256.clone();
+    let rflight = fly(
+        &refined,
+        &FlyOptions {
+            record_step_s,
+            initial: None,
+        },
+    );
+    let used =
+        |p: &Problem, f: &Flight| p.vehicle.propellant_loaded_kg() - f.propellant_remaining_kg;
+    let (simple, refined_used) = (used(&flown, &flight), used(&refined, &rflight));
+    let met = rflight.end == crate::core::sim::EndReason::Completed
+        && FlightReport::new(&refined, &rflight)
+            .target_deviation
+            .is_some_and(|d| d.met);
+    let kept = met && refined_used <= simple;
+    let last = flown.vehicle.stages.len() - 1;
+    let c = flown.vehicle.stages[flight.final_mode.stage.min(last)]
+        .engine
+        .exhaust_velocity_mps();
+    let (m_s, m_r) = (flight.y1[ix::M], rflight.y1[ix::M]);
+    let summary = Refinement {
+        nodes_per_arc: r.nodes_per_arc,
+        variables: r.variables,
+        status: r.status,
+        reason: r.reason,
+        trajectories: r.trajectories,
+        simple_propellant_used_kg: simple,
+        refined_propellant_used_kg: refined_used,
+        gap_kg: simple - refined_used,
+        gap_mps: c * (m_r / m_s).ln(),
+        kept,
+    };
+    Ok(if kept {
+        (refined, file, rflight, Some(summary))
+    } else {
+        (flown, tuned_file, flight, Some(summary))
     })
 }
 
@@ -439,6 +554,7 @@ fn report(
         margin_mps,
         active_constraints: active_constraints(flown, &report, accel_limited, &sol.active),
         constraint_costs: sol.active.clone(),
+        refinement: None,
         sensitivities: sol.sensitivities.clone(),
         shortfall_mps: shortfall_mps(flown, &flight.y1),
         richer_programs: if s.explore {

@@ -199,6 +199,14 @@ pub struct SolveArgs {
     /// instead of the least propellant for the file's payload.
     #[arg(long)]
     pub max_payload: bool,
+    /// After the solve, free the thrust direction on every powered arc (pitch and heading
+    /// tables) and report the simple program's gap to it; the refined program is the one
+    /// reported and written (`--write-program`) when it meets the target and saves propellant.
+    #[arg(long, conflicts_with = "max_payload")]
+    pub refine: bool,
+    /// Attitude nodes per powered arc for `--refine` (4 to 200).
+    #[arg(long, value_name = "N", default_value_t = 20, requires = "refine")]
+    pub refine_nodes: usize,
     /// Perturb the automatic start with this seed (robustness checks).
     #[arg(long, value_name = "SEED")]
     pub perturb_seed: Option<u64>,

@@ -32,6 +32,10 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         },
         explore: a.explore,
         record_step_s,
+        refine: a.refine.then(|| kickturn::optimize::refine::RefineOptions {
+            nodes_per_arc: a.refine_nodes,
+            ..Default::default()
+        }),
     };
     if let Err(e) = settings.check() {
         match e {

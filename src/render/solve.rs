@@ -96,6 +96,36 @@ pub fn summary(r: &SolveReport) -> String {
     for a in &r.active_constraints {
         let _ = writeln!(s, "active: {a}");
     }
+    if let Some(x) = &r.refinement {
+        let _ = writeln!(
+            s,
+            "refinement (free thrust direction, {} nodes per powered arc, {} variables): {}; {} \
+             trajectories; {}",
+            x.nodes_per_arc,
+            x.variables,
+            serde_json::to_value(x.status)
+                .ok()
+                .and_then(|v| v.as_str().map(str::to_string))
+                .unwrap_or_default(),
+            x.trajectories,
+            x.reason
+        );
+        let _ = writeln!(
+            s,
+            "  simple program {:.1} kg, refined {:.1} kg: the simple program's gap is {:.1} kg \
+             ({:.2} m/s of last-stage ΔV); {}",
+            x.simple_propellant_used_kg,
+            x.refined_propellant_used_kg,
+            x.gap_kg,
+            x.gap_mps,
+            if x.kept {
+                "the refined program is the one reported and written"
+            } else {
+                "the refined program is not kept (it misses the target or saves nothing): the \
+                 simple program is reported"
+            }
+        );
+    }
     if !r.sensitivities.is_empty() {
         let _ = writeln!(
             s,

@@ -18,6 +18,7 @@
 pub mod inner;
 pub mod nlp;
 mod outer;
+pub mod refine;
 pub mod sensitivity;
 pub mod sqp;
 pub mod targeting;
