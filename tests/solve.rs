@@ -789,3 +789,53 @@ fn the_refinement_converges_in_the_node_count_and_never_loses_to_the_simple_prog
         "20 → 40 nodes moves the refined propellant by {d} kg"
     );
 }
+
+#[test]
+fn an_equatorial_target_costs_no_more_than_the_same_ascent_stated_by_azimuth() {
+    // The medium demo moved to the equator: inclination 0° as the target (azimuth and headings
+    // tuned) against the same ascent stated as a due-east launch with due-east steering. Both
+    // reach the same orbit; the inclination form may cost at most twice the trajectories
+    // (it once took 30×: the inclination has a kink at 0°, so the plane is targeted by the
+    // orbit normal's two equatorial components).
+    let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
+        .unwrap_or_default();
+    let base: serde_json::Value = serde_json::from_str(&text).unwrap_or_default();
+    let mut by_inc = base.clone();
+    by_inc["site"]["latitude_deg"] = 0.0.into();
+    by_inc["target"]["inclination_deg"] = 0.0.into();
+    by_inc["launch"] = serde_json::json!({ "inclination_deg": 0.0 });
+    let mut by_az = base;
+    by_az["site"]["latitude_deg"] = 0.0.into();
+    if let Some(t) = by_az["target"].as_object_mut() {
+        t.remove("inclination_deg");
+    }
+    by_az["launch"] = serde_json::json!({ "azimuth_deg": 90.0 });
+    by_az["ascent"]["arcs"][2]["burn"]["steering"]["linear_tangent"]["heading_deg"] = 90.0.into();
+    let solve = |v: &serde_json::Value| {
+        let p = Problem::from_json(&v.to_string()).unwrap_or_else(|e| panic!("{e}"));
+        let s = tune(&p, &SolveOptions::default()).unwrap_or_else(|e| panic!("{e}"));
+        assert_eq!(
+            s.convergence.status,
+            SolveStatus::Converged,
+            "{:?}",
+            s.convergence
+        );
+        let f = fly(&s.problem, &FlyOptions::default());
+        let r = FlightReport::new(&s.problem, &f);
+        assert!(
+            r.target_deviation.is_some_and(|d| d.met),
+            "{:?}",
+            r.target_deviation
+        );
+        (
+            s.convergence.trajectories,
+            s.eval.propellant_used_kg,
+            r.orbit.inclination_deg,
+        )
+    };
+    let (n_inc, m_inc, i_inc) = solve(&by_inc);
+    let (n_az, m_az, _) = solve(&by_az);
+    assert!(i_inc.abs() < 1e-3, "inclination {i_inc}°");
+    assert!(n_inc <= 2 * n_az, "{n_inc} trajectories against {n_az}");
+    assert!((m_inc - m_az).abs() < 1.0, "{m_inc} kg against {m_az} kg");
+}

@@ -1011,8 +1011,13 @@ fn residual_names(t: &Target, e: &Eval) -> Vec<(String, f64)> {
             ("flight_path_angle_error_deg", deg),
         ],
     };
-    if t.inclination_rad.is_some() {
-        names.push(("inclination_error_deg", deg));
+    match t.inclination_rad {
+        Some(i) if targeting::equatorial(i) => {
+            names.push(("orbit_normal_tilt_x_deg", deg));
+            names.push(("orbit_normal_tilt_y_deg", deg));
+        }
+        Some(_) => names.push(("inclination_error_deg", deg)),
+        None => {}
     }
     if e.residuals.len() == targeting::residual_count(t, Some(0.0)) {
         names.push(("max_q_minus_limit_kpa", targeting::Q_SCALE_PA / 1e3));

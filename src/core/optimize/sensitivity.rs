@@ -82,7 +82,10 @@ pub fn of_optimum(prog: &Ascent, out: &Outcome) -> Vec<Sensitivity> {
         qs.push(Quantity::PerigeeAlt);
         qs.push(Quantity::ApogeeAlt);
     }
-    if t.inclination_rad.is_some() {
+    // An equatorial target's cost is V-shaped in the inclination: no derivative to report.
+    if t.inclination_rad
+        .is_some_and(|i| !super::targeting::equatorial(i))
+    {
         qs.push(Quantity::Inclination);
     }
     if !prog.payload_mode() {

@@ -4,7 +4,8 @@
 //! met by construction and the residuals are the remaining conditions (common practice;
 //! docs/method.md): insertion at perigee `[(r − r_p)/100 km, γ/1°]`, free insertion
 //! `[(r_p − r_p*)/100 km]`, insertion state `[(r − r*)/100 km, (γ − γ*)/1°]`, then `(i − i*)/1°`
-//! when an inclination is targeted, and last an energy-shortfall term that is zero whenever the
+//! when an inclination is targeted (for an equatorial target the two equatorial components of
+//! the unit angular momentum, per 1°, which are smooth where `i` has a kink), and last an energy-shortfall term that is zero whenever the
 //! cutoff was reached. A residual of 1e-3 is the insertion tolerance (0.1 km, 0.001°; 100 m for
 //! an insertion state).
 
@@ -69,7 +70,17 @@ pub fn residual_count(t: &Target, q_limit: Option<f64>) -> usize {
         Insertion::Free => 1,
         Insertion::Perigee | Insertion::State { .. } => 2,
     };
-    n + usize::from(t.inclination_rad.is_some()) + usize::from(q_limit.is_some()) + 1
+    let plane = match t.inclination_rad {
+        None => 0,
+        Some(i) if equatorial(i) => 2,
+        Some(_) => 1,
+    };
+    n + plane + usize::from(q_limit.is_some()) + 1
+}
+
+/// An equatorial target (inclination 0° or 180°): the plane condition is two residuals.
+pub fn equatorial(inclination_rad: f64) -> bool {
+    inclination_rad.sin().abs() < 1e-9
 }
 
 /// Residuals of a flight of `p` against `t`, and the energy shortfall.
@@ -94,7 +105,18 @@ pub fn residuals(p: &Problem, t: &Target, f: &Flight) -> (Vec<f64>, f64) {
         ],
     };
     if let Some(i) = t.inclination_rad {
-        res.push((el.inclination_rad - i) / ANGLE_SCALE_RAD);
+        if equatorial(i) {
+            // The inclination of an equatorial target is a |·| of the plane's tilt: a kink at
+            // the solution, where no derivative exists. The tilt's two components (the unit
+            // angular momentum's equatorial components, ≈ i·(sin Ω, −cos Ω)) are smooth, and both
+            // vanish exactly on the equator.
+            let h = r.cross(&v);
+            let n = h.norm().max(f64::MIN_POSITIVE);
+            res.push(h.x / n / ANGLE_SCALE_RAD);
+            res.push(h.y / n / ANGLE_SCALE_RAD);
+        } else {
+            res.push((el.inclination_rad - i) / ANGLE_SCALE_RAD);
+        }
     }
     let e = env.specific_energy_j_kg(&r, &v);
     let e_t = t.energy_j_kg(env);
