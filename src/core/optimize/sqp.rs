@@ -403,6 +403,17 @@ impl<'a> Sqp<'a> {
                         }
                     }
                 }
+                // Infeasible and still moving (the last steps reduced the violation): a failed
+                // line search is no proof that the constraints are out of reach; the same fresh
+                // start as at a feasible point (the medium demo with max-Q 35 kPa held by the
+                // pitch program alone was called infeasible at a violation of 4e-3, falling).
+                if !feasible && restarts < 2 && self.evals < self.s.max_evaluations {
+                    restarts += 1;
+                    let n = self.x.len();
+                    self.b = DMatrix::identity(n, n);
+                    self.delta = self.s.max_step;
+                    continue;
+                }
                 status = if self.evals >= self.s.max_evaluations {
                     Status::EvaluationLimit
                 } else if step.lin_violation > self.s.tol_feas && !feasible {

@@ -218,6 +218,20 @@ pub struct AeroFile {
     pub ref_area_m2: f64,
     /// `[Mach, C_D]` pairs, Mach strictly increasing; linear between points, constant beyond.
     pub cd_mach: Vec<[f64; 2]>,
+    /// How C_D varies between points: `linear` (default) or `monotone_cubic` (smooth, no
+    /// overshoot: fewer rejected integration steps).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cd_interpolation: Option<CdInterpolationFile>,
+}
+
+/// Interpolation of a C_D table between its points.
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+pub enum CdInterpolationFile {
+    /// Straight lines.
+    Linear,
+    /// Monotone piecewise cubic (Fritsch–Carlson).
+    MonotoneCubic,
 }
 
 /// A mass dropped on a condition.

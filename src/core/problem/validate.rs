@@ -224,7 +224,13 @@ fn aero(path: &str, a: &AeroFile) -> R<DragTable> {
             return bad(&fp, "Mach numbers must be strictly increasing");
         }
     }
-    Ok(DragTable::new(a.ref_area_m2, &a.cd_mach))
+    use crate::core::physics::aero::CdInterpolation;
+    use crate::core::problem::file::CdInterpolationFile;
+    let how = match a.cd_interpolation {
+        None | Some(CdInterpolationFile::Linear) => CdInterpolation::Linear,
+        Some(CdInterpolationFile::MonotoneCubic) => CdInterpolation::MonotoneCubic,
+    };
+    Ok(DragTable::with(a.ref_area_m2, &a.cd_mach, how))
 }
 
 fn engine(path: &str, t_vac: f64, isp: f64, ae: Option<f64>, t_sl: Option<f64>) -> R<Engine> {
