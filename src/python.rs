@@ -294,10 +294,21 @@ fn trade(
     to_json(&report)
 }
 
-/// How many re-solved points a trade has (two per traded parameter).
+/// How many re-solved points a trade has (two per traded parameter), after checking the problem
+/// and the options as `trade` does (so that a distributed trade fails at once on bad input).
 #[pyfunction]
-#[pyo3(signature = (text, file=None))]
-fn trade_size(py: Python<'_>, text: String, file: Option<String>) -> PyResult<usize> {
+#[pyo3(signature = (
+    text, file=None, *, max_payload=false, max_wall_s=None, max_trajectories=50_000
+))]
+fn trade_size(
+    py: Python<'_>,
+    text: String,
+    file: Option<String>,
+    max_payload: bool,
+    max_wall_s: Option<f64>,
+    max_trajectories: usize,
+) -> PyResult<usize> {
+    study_options(py, max_payload, max_wall_s, max_trajectories)?;
     let (f, _) = read_valid(py, &text, file.as_deref())?;
     Ok(study::trade_points(&f).len())
 }
