@@ -777,6 +777,27 @@ mod tests {
     }
 
     #[test]
+    fn trade_points_come_in_plus_minus_pairs_and_factors_follow_from_their_values() {
+        let text = include_str!("../../problems/medium-2stage-leo200.json");
+        let f = crate::core::problem::parse(text).expect("the medium demo parses");
+        let params = traded(&f);
+        let pts = trade_points(&f);
+        assert_eq!(pts.len(), 2 * params.len());
+        for (k, p) in params.iter().enumerate() {
+            let h = p.step(&f);
+            assert_eq!(pts[2 * k].1.to_bits(), h.to_bits());
+            assert_eq!(pts[2 * k + 1].1.to_bits(), (-h).to_bits());
+        }
+        // Central difference (a − b) / 2h: the dry-mass step of the core is 1 % of 18 000 kg.
+        let core_dry = TradeFactor::from_values(&f, params[0], Some(10.0), Some(65.0));
+        assert!(core_dry.ok);
+        assert!((core_dry.step - 180.0).abs() < 1e-12);
+        assert!((core_dry.factor - (10.0 - 65.0) / 360.0).abs() < 1e-15);
+        let missing = TradeFactor::from_values(&f, params[0], Some(10.0), None);
+        assert!(!missing.ok && missing.factor.is_nan());
+    }
+
+    #[test]
     fn a_closure_is_a_point_sink() {
         let count = std::sync::atomic::AtomicUsize::new(0);
         let sink = |i: usize, p: &Point| {
