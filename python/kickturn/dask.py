@@ -141,7 +141,7 @@ def sweep(
         azimuth=azimuth, inclination=inclination, altitude=altitude, payload=payload
     )
     text, file = read_problem(problem)
-    options = dict(
+    options: Dict[str, Any] = dict(
         max_payload=max_payload, max_wall_s=max_wall_s, max_trajectories=max_trajectories
     )
     # The document without its points, from the library itself: checks the problem and the
@@ -150,7 +150,10 @@ def sweep(
     report["points"] = map_batches(
         client, _sweep_batch, values, text, file, axis, batch_size=batch_size, **options
     )
-    return _frame_or_report(report, as_frame, _frames.sweep_frame)
+    result: Union["pandas.DataFrame", Dict[str, Any]] = _frame_or_report(
+        report, as_frame, _frames.sweep_frame
+    )
+    return result
 
 
 def trade(
@@ -172,7 +175,7 @@ def trade(
     ``-step`` of factor ``k``); with ``as_frame=False``, or without pandas, the document.
     """
     text, file = read_problem(problem)
-    options = dict(
+    options: Dict[str, Any] = dict(
         max_payload=max_payload, max_wall_s=max_wall_s, max_trajectories=max_trajectories
     )
     n = _kickturn.trade_size(text, file, **options)
@@ -183,7 +186,9 @@ def trade(
     report: Dict[str, Any] = json.loads(
         _kickturn.trade_report(text, file, values, max_payload=max_payload)
     )
-    result = _frame_or_report(report, as_frame, _frames.trade_frame)
-    if result is not report:
+    result: Union["pandas.DataFrame", Dict[str, Any]] = _frame_or_report(
+        report, as_frame, _frames.trade_frame
+    )
+    if not isinstance(result, dict):
         result.attrs["points"] = [point for point, _ in pairs]
     return result
