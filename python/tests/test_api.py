@@ -146,3 +146,27 @@ def test_the_input_dict_is_left_as_it_was():
     before = copy.deepcopy(d)
     kickturn.fly(d)
     assert d == before
+
+
+def test_threads_fly_at_once_with_the_same_results():
+    # The interpreter is released while flying: calls from several threads run side by side.
+    from concurrent.futures import ThreadPoolExecutor
+
+    want = kickturn.fly(MEDIUM)
+    with ThreadPoolExecutor(4) as pool:
+        got = list(pool.map(kickturn.fly, [MEDIUM] * 8))
+    assert all(g == want for g in got)
+
+
+def test_study_documents_become_frames_in_the_csv_columns():
+    pd = pytest.importorskip("pandas")
+    import kickturn.frames as frames
+
+    report = kickturn.compare([MEDIUM, SMALL], max_trajectories=3000)
+    frame = frames.compare_frame(report)
+    assert isinstance(frame, pd.DataFrame)
+    assert list(frame["problem"]) == [name for name, _ in report["problems"]]
+    assert list(frame.columns[4:]) == list(frames.POINT_COLUMNS)
+    head, _ = run_cli("compare", MEDIUM, SMALL, "--max-trajectories", "3000", "--csv", "-")
+    csv_columns = head.splitlines()[0].split(",")
+    assert csv_columns == ["swept_index", "status", *frames.POINT_COLUMNS]
