@@ -251,6 +251,99 @@ fn sweep(
     to_json(&report)
 }
 
+/// A grid of sweeps: every combination of values of several axes (`kickturn.grid`). Not a
+/// command of its own: each point is a sweep point with its axes applied in order.
+#[derive(serde::Serialize)]
+struct GridReport {
+    /// Tool and version.
+    tool: String,
+    /// SHA-256 of the problem text.
+    input_sha256: String,
+    /// The axes, in the order they are applied.
+    axes: Vec<Axis>,
+    /// Objective of every solve.
+    objective: Objective,
+    /// Each point's values of the axes (in their units), in input order.
+    rows: Vec<Vec<f64>>,
+    /// The points in input order; a point's `value` is its last axis' value.
+    points: Vec<study::Point>,
+    /// Safety caution.
+    caution: &'static str,
+}
+
+/// The grid document of `rows` (each a value of every axis, in `axes` order): every point is
+/// re-solved like a sweep point (`app::study::sweep`: no outer restart), in parallel.
+#[pyfunction]
+#[pyo3(signature = (
+    text, file, axes, rows, *, max_payload=false, max_wall_s=None, max_trajectories=50_000
+))]
+#[allow(clippy::too_many_arguments)]
+fn grid(
+    py: Python<'_>,
+    text: String,
+    file: Option<String>,
+    axes: Vec<String>,
+    rows: Vec<Vec<f64>>,
+    max_payload: bool,
+    max_wall_s: Option<f64>,
+    max_trajectories: usize,
+) -> PyResult<String> {
+    let file = file.as_deref();
+    let axes = axes
+        .iter()
+        .map(|a| axis_of(py, a))
+        .collect::<PyResult<Vec<Axis>>>()?;
+    if axes.is_empty() {
+        return Err(option_error(py, "grid: give at least one axis".into()));
+    }
+    for (i, a) in axes.iter().enumerate() {
+        if axes[..i].contains(a) {
+            return Err(option_error(py, format!("grid: {} given twice", a.label())));
+        }
+        if *a == Axis::Payload && max_payload {
+            return Err(option_error(
+                py,
+                "grid: payload and max_payload contradict each other (the payload mode solves \
+                 for the payload)"
+                    .into(),
+            ));
+        }
+    }
+    if let Some(r) = rows.iter().find(|r| r.len() != axes.len()) {
+        return Err(PyValueError::new_err(format!(
+            "grid: a row of {} values for {} axes",
+            r.len(),
+            axes.len()
+        )));
+    }
+    let opts = SolveOptions {
+        // As a sweep: no outer restart.
+        polish: false,
+        ..study_options(py, max_payload, max_wall_s, max_trajectories)?
+    };
+    let (f, sha) = read_valid(py, &text, file)?;
+    let points: Vec<(ProblemFile, f64)> = rows
+        .iter()
+        .map(|row| {
+            let g = axes
+                .iter()
+                .zip(row)
+                .fold(f.clone(), |g, (a, v)| study::apply(&g, *a, *v));
+            (g, row.last().copied().unwrap_or(f64::NAN))
+        })
+        .collect();
+    let solved = py.detach(|| study::solve_points("grid", &points, &opts, &Silent));
+    to_json(&GridReport {
+        tool: app::tool_version(),
+        input_sha256: sha,
+        axes,
+        objective: opts.objective,
+        rows,
+        points: solved,
+        caution: app::outcome::CAUTION,
+    })
+}
+
 /// `kickturn compare --json` of `(text, file)` pairs.
 #[pyfunction]
 #[pyo3(signature = (problems, *, max_payload=false, max_wall_s=None, max_trajectories=50_000))]
@@ -389,6 +482,7 @@ fn kickturn_module(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(solve, m)?)?;
     m.add_function(wrap_pyfunction!(parse_range, m)?)?;
     m.add_function(wrap_pyfunction!(sweep, m)?)?;
+    m.add_function(wrap_pyfunction!(grid, m)?)?;
     m.add_function(wrap_pyfunction!(compare, m)?)?;
     m.add_function(wrap_pyfunction!(trade, m)?)?;
     m.add_function(wrap_pyfunction!(trade_size, m)?)?;

@@ -1,4 +1,4 @@
-"""A sweep and a trade of the medium demo on a two-worker Dask LocalCluster (docs/python.md).
+"""A sweep, a trade grid and a trade of the medium demo on a two-worker Dask LocalCluster (docs/python.md).
 
 Run from the repository root after `pip install . "dask[distributed]" pandas`:
 
@@ -19,9 +19,13 @@ if __name__ == "__main__":  # worker processes import this file: start the clust
 
     with LocalCluster(n_workers=2, threads_per_worker=1) as cluster, Client(cluster) as client:
         sweep = kickturn.dask.sweep(client, PROBLEM, altitude="200:400:50", batch_size=2)
+        grid = kickturn.dask.grid(
+            client, PROBLEM, {"altitude": "200:300:50", "payload": [6000, 8000]}
+        )
         trade = kickturn.dask.trade(client, PROBLEM)
 
     pd.set_option("display.width", 120)
     print(sweep[["swept_altitude_km", "status", "margin_kg", "gravity_loss_mps", "trajectories"]])
+    print(grid[["swept_altitude_km", "swept_payload_kg", "status", "margin_kg"]])
     print(trade[["parameter", "step", "factor", "unit"]])
     print(sweep.attrs["report"]["caution"])

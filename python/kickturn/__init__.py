@@ -19,6 +19,7 @@ codes and licensed practice.
 
 from __future__ import annotations
 
+import itertools
 import json
 import os
 from typing import Any, Dict, List, Mapping, Optional, Sequence, Tuple, Union
@@ -36,6 +37,7 @@ __all__ = [
     "UnreachableError",
     "compare",
     "fly",
+    "grid",
     "read_problem",
     "solve",
     "sweep",
@@ -150,9 +152,26 @@ def sweep_axis(**ranges: Optional[Range]) -> Tuple[str, List[float]]:
             + ("" if not given else f" (got {', '.join(k for k, _ in given)})")
         )
     axis, values = given[0]
+    return axis, _values(axis, values)
+
+
+def _values(axis: str, values: Range) -> List[float]:
     if isinstance(values, str):
-        return axis, _kickturn.parse_range(axis, values)
-    return axis, [float(v) for v in values]
+        return _kickturn.parse_range(axis, values)
+    return [float(v) for v in values]
+
+
+def grid_rows(axes: Mapping[str, Range]) -> Tuple[List[str], List[List[float]]]:
+    """The axes of a grid and its rows: every combination of their values, the last axis
+    varying fastest (``itertools.product`` order)."""
+    names = list(axes)
+    unknown = [a for a in names if a not in _AXES]
+    if unknown:
+        raise OptionError(
+            f"grid: `{unknown[0]}` is no axis; azimuth, inclination, altitude or payload"
+        )
+    values = [_values(a, axes[a]) for a in names]
+    return names, [list(row) for row in itertools.product(*values)]
 
 
 def sweep(
@@ -182,6 +201,38 @@ def sweep(
             file,
             axis,
             values,
+            max_payload=max_payload,
+            max_wall_s=max_wall_s,
+            max_trajectories=max_trajectories,
+        )
+    )
+
+
+def grid(
+    problem: Problem,
+    axes: Mapping[str, Range],
+    *,
+    max_payload: bool = False,
+    max_wall_s: Optional[float] = None,
+    max_trajectories: int = 50_000,
+) -> Dict[str, Any]:
+    """Re-solves every combination of values of several sweep axes (a trade grid), e.g.
+    ``grid(p, {"altitude": "200:400:50", "payload": [6000, 8000]})``.
+
+    The axes are applied to the problem in the mapping's order, each as ``sweep`` applies it,
+    and every point is solved as a sweep point: a one-axis grid has the points of ``sweep``.
+    The document has ``axes``, ``rows`` (each point's values, the last axis varying fastest)
+    and ``points`` (a point's ``value`` is its last axis' value) beside the sweep's header
+    fields. There is no such command-line command.
+    """
+    names, rows = grid_rows(axes)
+    text, file = read_problem(problem)
+    return _loads(
+        _kickturn.grid(
+            text,
+            file,
+            names,
+            rows,
             max_payload=max_payload,
             max_wall_s=max_wall_s,
             max_trajectories=max_trajectories,

@@ -33,6 +33,16 @@ def sweep(
     max_wall_s: Optional[float] = None,
     max_trajectories: int = 50_000,
 ) -> str: ...
+def grid(
+    text: str,
+    file: Optional[str],
+    axes: Sequence[str],
+    rows: Sequence[Sequence[float]],
+    *,
+    max_payload: bool = False,
+    max_wall_s: Optional[float] = None,
+    max_trajectories: int = 50_000,
+) -> str: ...
 def compare(
     problems: Sequence[Tuple[str, Optional[str]]],
     *,

@@ -1,4 +1,4 @@
-"""Sweeps and trades on a Dask cluster (dask.distributed), through a ``distributed.Client`` you
+"""Sweeps, trade grids and trades on a Dask cluster (dask.distributed), through a ``distributed.Client`` you
 give: a ``LocalCluster`` on a laptop, dask-jobqueue on a batch cluster, or Kubernetes — only the
 line that makes the client changes (docs/python.md).
 
@@ -25,16 +25,27 @@ from __future__ import annotations
 
 import json
 import math
-from typing import TYPE_CHECKING, Any, Callable, Dict, List, Optional, Sequence, TypeVar, Union
+from typing import (
+    TYPE_CHECKING,
+    Any,
+    Callable,
+    Dict,
+    List,
+    Mapping,
+    Optional,
+    Sequence,
+    TypeVar,
+    Union,
+)
 
-from . import Problem, Range, _kickturn, read_problem, sweep_axis
+from . import Problem, Range, _kickturn, grid_rows, read_problem, sweep_axis
 from . import frames as _frames
 
 if TYPE_CHECKING:  # pragma: no cover
     import distributed
     import pandas
 
-__all__ = ["batches", "map_batches", "sweep", "trade"]
+__all__ = ["batches", "grid", "map_batches", "sweep", "trade"]
 
 T = TypeVar("T")
 
@@ -96,6 +107,16 @@ def _sweep_batch(
     return points
 
 
+def _grid_batch(
+    text: str, file: Optional[str], axes: List[str], rows: List[List[float]], **options: Any
+) -> List[Dict[str, Any]]:
+    """The points of the grid rows ``rows`` (one task)."""
+    points: List[Dict[str, Any]] = json.loads(_kickturn.grid(text, file, axes, rows, **options))[
+        "points"
+    ]
+    return points
+
+
 def _trade_batch(
     text: str, file: Optional[str], indices: List[int], **options: Any
 ) -> List[List[Any]]:
@@ -152,6 +173,40 @@ def sweep(
     )
     result: Union["pandas.DataFrame", Dict[str, Any]] = _frame_or_report(
         report, as_frame, _frames.sweep_frame
+    )
+    return result
+
+
+def grid(
+    client: "distributed.Client",
+    problem: Problem,
+    axes: Mapping[str, Range],
+    *,
+    max_payload: bool = False,
+    max_wall_s: Optional[float] = None,
+    max_trajectories: int = 50_000,
+    batch_size: Optional[int] = None,
+    as_frame: Optional[bool] = None,
+) -> Union["pandas.DataFrame", Dict[str, Any]]:
+    """``kickturn.grid`` (a trade grid: every combination of values of several sweep axes) on
+    the cluster behind ``client``; the grid's rows are the tasks' items.
+
+    Returns a DataFrame (one row per point, a ``swept_<axis>`` column per axis,
+    ``kickturn.frames.grid_frame``) whose ``attrs["report"]`` is the document ``kickturn.grid``
+    returns; with ``as_frame=False``, or without pandas, the document.
+    """
+    names, rows = grid_rows(axes)
+    text, file = read_problem(problem)
+    options: Dict[str, Any] = dict(
+        max_payload=max_payload, max_wall_s=max_wall_s, max_trajectories=max_trajectories
+    )
+    report: Dict[str, Any] = json.loads(_kickturn.grid(text, file, names, [], **options))
+    report["rows"] = rows
+    report["points"] = map_batches(
+        client, _grid_batch, rows, text, file, names, batch_size=batch_size, **options
+    )
+    result: Union["pandas.DataFrame", Dict[str, Any]] = _frame_or_report(
+        report, as_frame, _frames.grid_frame
     )
     return result
 

@@ -87,6 +87,23 @@ def sweep_frame(report: Mapping[str, Any]) -> "pandas.DataFrame":
     return frame
 
 
+def grid_frame(report: Mapping[str, Any]) -> "pandas.DataFrame":
+    """A grid document (``kickturn.grid`` or ``kickturn.dask.grid``) as a DataFrame, one row per
+    point in input order, with a ``swept_<label>`` column per axis."""
+    import pandas
+
+    labels = [AXIS_LABELS[a] for a in report["axes"]]
+    rows: List[Dict[str, Any]] = []
+    for values, point in zip(report["rows"], report["points"]):
+        row = point_row(labels[-1], point)
+        del row[f"swept_{labels[-1]}"]
+        rows.append({**{f"swept_{k}": v for k, v in zip(labels, values)}, **row})
+    columns = [*(f"swept_{k}" for k in labels), "status", "message", *POINT_COLUMNS]
+    frame = pandas.DataFrame(rows, columns=columns)
+    frame.attrs["report"] = report
+    return frame
+
+
 def compare_frame(report: Mapping[str, Any]) -> "pandas.DataFrame":
     """A comparison document as a DataFrame, one row per problem (``problem`` is its name)."""
     import pandas

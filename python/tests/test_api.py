@@ -170,3 +170,19 @@ def test_study_documents_become_frames_in_the_csv_columns():
     head, _ = run_cli("compare", MEDIUM, SMALL, "--max-trajectories", "3000", "--csv", "-")
     csv_columns = head.splitlines()[0].split(",")
     assert csv_columns == ["swept_index", "status", *frames.POINT_COLUMNS]
+
+
+def test_a_grid_row_is_the_sweep_of_the_problem_with_the_first_axis_applied():
+    grid = kickturn.grid(MEDIUM, {"altitude": [200.0, 250.0], "payload": "7000:8000:1000"})
+    assert grid["axes"] == ["altitude", "payload"]
+    assert grid["rows"] == [[200.0, 7000.0], [200.0, 8000.0], [250.0, 7000.0], [250.0, 8000.0]]
+    d = medium_dict()
+    d["target"]["perigee_alt_km"] = d["target"]["apogee_alt_km"] = 250.0
+    assert grid["points"][2:] == kickturn.sweep(d, payload=[7000.0, 8000.0])["points"]
+    # A one-axis grid is the sweep.
+    one = kickturn.grid(MEDIUM, {"altitude": [200.0, 250.0]})
+    assert one["points"] == kickturn.sweep(MEDIUM, altitude=[200.0, 250.0])["points"]
+    with pytest.raises(kickturn.OptionError, match="no axis"):
+        kickturn.grid(MEDIUM, {"mass": [1.0]})
+    with pytest.raises(kickturn.OptionError, match="contradict"):
+        kickturn.grid(MEDIUM, {"altitude": [200.0], "payload": [1.0]}, max_payload=True)

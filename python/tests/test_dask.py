@@ -76,3 +76,14 @@ def test_an_error_on_a_worker_arrives_as_the_same_exception_with_its_field(clien
     with pytest.raises(kickturn.ProblemError) as e:
         kd.map_batches(client, kd._trade_batch, [0, 1], json.dumps(d), None)
     assert e.value.field == "vehicle.stages[1].isp_vac_s"
+
+
+@pytest.mark.parametrize("batch_size", [1, 3])
+def test_a_trade_grid_on_two_workers_equals_the_single_process_grid(client, batch_size):
+    axes = {"altitude": [200.0, 250.0], "payload": [7000.0, 8000.0]}
+    want = kickturn.grid(MEDIUM, axes)
+    frame = kd.grid(client, MEDIUM, axes, batch_size=batch_size)
+    assert frame.attrs["report"] == want
+    assert list(frame["swept_altitude_km"]) == [200.0, 200.0, 250.0, 250.0]
+    assert list(frame["swept_payload_kg"]) == [7000.0, 8000.0, 7000.0, 8000.0]
+    assert list(frame["margin_kg"]) == [p["report"]["margin_kg"] for p in want["points"]]
