@@ -34,6 +34,10 @@ pub mod app;
 pub mod core;
 pub mod render;
 
+// The Python extension module (built by maturin with the `python` feature; pyproject.toml).
+#[cfg(feature = "python")]
+mod python;
+
 // The core's modules under their short names, for callers and tests.
 pub use crate::core::{
     budget, error, observe, optimize, physics, problem, random, sim, steering, vehicle,

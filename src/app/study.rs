@@ -556,7 +556,9 @@ pub fn traded(f: &ProblemFile) -> Vec<Traded> {
     v
 }
 
-fn objective_value(p: &Point, objective: Objective) -> Option<f64> {
+/// What a trade compares of a re-solved point: its payload (payload objective) or its margin
+/// (propellant objective), kg; `None` unless its flight met the target.
+pub fn objective_value(p: &Point, objective: Objective) -> Option<f64> {
     let r = p.report.as_ref()?;
     let met = r.flight.target_deviation.is_some_and(|d| d.met);
     met.then_some(match objective {
@@ -575,11 +577,18 @@ impl TradeFactor {
         minus: &Point,
         objective: Objective,
     ) -> Self {
-        let h = param.step(f);
         let (a, b) = (
             objective_value(plus, objective),
             objective_value(minus, objective),
         );
+        Self::from_values(f, param, a, b)
+    }
+
+    /// The factor of `param` from the [`objective_value`]s of its `+step` and `−step` points
+    /// (`NaN` and not `ok` unless both are known): for callers that solve the points elsewhere
+    /// and keep only these values.
+    pub fn from_values(f: &ProblemFile, param: Traded, a: Option<f64>, b: Option<f64>) -> Self {
+        let h = param.step(f);
         TradeFactor {
             param,
             name: param.name(f),
@@ -608,17 +617,23 @@ pub fn trade_streamed(
     sink: &dyn PointSink,
 ) -> Vec<TradeFactor> {
     let ps = traded(f);
-    let points: Vec<(ProblemFile, f64)> = ps
+    let pts = solve_points_streamed("trade", &trade_points(f), opts, obs, sink);
+    ps.iter()
+        .enumerate()
+        .map(|(i, p)| TradeFactor::of(f, *p, &pts[2 * i], &pts[2 * i + 1], opts.objective))
+        .collect()
+}
+
+/// The re-solved problems of a trade and their signed steps, in study order: point `2k` is
+/// `+step` and `2k + 1` is `−step` of `traded(f)[k]`. Each point is solved on its own, so a
+/// caller may solve any subset of them anywhere and get the same points.
+pub fn trade_points(f: &ProblemFile) -> Vec<(ProblemFile, f64)> {
+    traded(f)
         .iter()
         .flat_map(|p| {
             let h = p.step(f);
             [(p.apply(f, h), h), (p.apply(f, -h), -h)]
         })
-        .collect();
-    let pts = solve_points_streamed("trade", &points, opts, obs, sink);
-    ps.iter()
-        .enumerate()
-        .map(|(i, p)| TradeFactor::of(f, *p, &pts[2 * i], &pts[2 * i + 1], opts.objective))
         .collect()
 }
 
@@ -685,15 +700,26 @@ impl TradeReport {
         obs: &dyn Observer,
         sink: &dyn PointSink,
     ) -> Self {
+        let factors = trade_streamed(file, opts, obs, sink);
+        Self::from_factors(file, input_sha256, opts.objective, factors)
+    }
+
+    /// The report of `file`'s trade `factors` (in [`traded`] order), however they were solved.
+    pub fn from_factors(
+        file: &ProblemFile,
+        input_sha256: String,
+        objective: Objective,
+        factors: Vec<TradeFactor>,
+    ) -> Self {
         TradeReport {
             tool: tool_version(),
             problem: file.name.clone(),
             input_sha256,
-            objective: opts.objective,
+            objective,
             ideal_isp_factors: (0..file.vehicle.stages.len())
                 .map(|k| ideal_isp_factor(file, k))
                 .collect(),
-            factors: trade_streamed(file, opts, obs, sink),
+            factors,
             caution: CAUTION,
         }
     }
@@ -748,6 +774,27 @@ mod tests {
             assert_eq!(PointStatus::of_solve(s, false), p);
             assert_eq!(PointStatus::of_solve(s, true), p);
         }
+    }
+
+    #[test]
+    fn trade_points_come_in_plus_minus_pairs_and_factors_follow_from_their_values() {
+        let text = include_str!("../../problems/medium-2stage-leo200.json");
+        let f = crate::core::problem::parse(text).expect("the medium demo parses");
+        let params = traded(&f);
+        let pts = trade_points(&f);
+        assert_eq!(pts.len(), 2 * params.len());
+        for (k, p) in params.iter().enumerate() {
+            let h = p.step(&f);
+            assert_eq!(pts[2 * k].1.to_bits(), h.to_bits());
+            assert_eq!(pts[2 * k + 1].1.to_bits(), (-h).to_bits());
+        }
+        // Central difference (a − b) / 2h: the dry-mass step of the core is 1 % of 18 000 kg.
+        let core_dry = TradeFactor::from_values(&f, params[0], Some(10.0), Some(65.0));
+        assert!(core_dry.ok);
+        assert!((core_dry.step - 180.0).abs() < 1e-12);
+        assert!((core_dry.factor - (10.0 - 65.0) / 360.0).abs() < 1e-15);
+        let missing = TradeFactor::from_values(&f, params[0], Some(10.0), None);
+        assert!(!missing.ok && missing.factor.is_nan());
     }
 
     #[test]
