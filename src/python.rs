@@ -151,11 +151,20 @@ fn fly(py: Python<'_>, text: String, file: Option<String>) -> PyResult<String> {
     to_json(&run.map_err(|e| app_error(py, e, file))?.report)
 }
 
+/// `--refine` with `n` nodes per powered arc.
+fn kickturn_refine(n: usize) -> crate::core::optimize::refine::RefineOptions {
+    crate::core::optimize::refine::RefineOptions {
+        nodes_per_arc: n,
+        ..Default::default()
+    }
+}
+
 /// `kickturn solve --json` with its options.
 #[pyfunction]
 #[pyo3(signature = (
     text, file=None, *, max_trajectories=50_000, max_wall_s=None, free=Vec::new(),
-    fix=Vec::new(), scan=true, nested=false, explore=false, max_payload=false, perturb_seed=None
+    fix=Vec::new(), scan=true, nested=false, explore=false, max_payload=false, perturb_seed=None,
+    refine_nodes=None
 ))]
 #[allow(clippy::too_many_arguments)]
 fn solve(
@@ -171,6 +180,7 @@ fn solve(
     explore: bool,
     max_payload: bool,
     perturb_seed: Option<u64>,
+    refine_nodes: Option<usize>,
 ) -> PyResult<String> {
     let file = file.as_deref();
     let settings = SolveSettings {
@@ -191,6 +201,7 @@ fn solve(
         },
         explore,
         record_step_s: None,
+        refine: refine_nodes.map(kickturn_refine),
     };
     settings.check().map_err(|e| app_error(py, e, None))?;
     let case = load(py, &text, file)?;

@@ -114,12 +114,15 @@ def solve(
     explore: bool = False,
     max_payload: bool = False,
     perturb_seed: Optional[int] = None,
+    refine: bool = False,
+    refine_nodes: int = 20,
 ) -> Dict[str, Any]:
     """Tunes the ascent program: the ``kickturn solve --json`` document.
 
     The options are the command line's: ``max_trajectories`` (``--max-trajectories``),
     ``max_wall_s``, ``free`` and ``fix`` (variable groups), ``scan=False`` (``--no-scan``),
-    ``nested``, ``explore``, ``max_payload``, ``perturb_seed``.
+    ``nested``, ``explore``, ``max_payload``, ``perturb_seed``, ``refine`` and
+    ``refine_nodes`` (``--refine --refine-nodes N``).
     """
     text, file = read_problem(problem)
     return _loads(
@@ -135,6 +138,7 @@ def solve(
             explore=explore,
             max_payload=max_payload,
             perturb_seed=perturb_seed,
+            refine_nodes=refine_nodes if refine else None,
         )
     )
 

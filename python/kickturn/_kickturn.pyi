@@ -21,6 +21,7 @@ def solve(
     explore: bool = False,
     max_payload: bool = False,
     perturb_seed: Optional[int] = None,
+    refine_nodes: Optional[int] = None,
 ) -> str: ...
 def parse_range(option: str, range: str) -> List[float]: ...
 def sweep(

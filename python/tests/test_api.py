@@ -53,6 +53,13 @@ def test_solve_options_are_the_command_line_options():
     assert got["convergence"]["trajectories"] <= 2000
 
 
+def test_refine_equals_the_command_line_refine():
+    got = kickturn.solve(MEDIUM, refine=True, refine_nodes=10)
+    assert got == cli_json("solve", MEDIUM, "--refine", "--refine-nodes", "10")
+    assert got["refinement"]["nodes_per_arc"] == 10
+    assert got["refinement"]["gap_kg"] >= 0.0
+
+
 def test_a_sweep_equals_the_command_line_sweep_point_for_point():
     want = cli_json("sweep", MEDIUM, "--altitude", "200:240:20")
     assert kickturn.sweep(MEDIUM, altitude="200:240:20") == want
