@@ -839,3 +839,48 @@ fn an_equatorial_target_costs_no_more_than_the_same_ascent_stated_by_azimuth() {
     assert!(n_inc <= 2 * n_az, "{n_inc} trajectories against {n_az}");
     assert!((m_inc - m_az).abs() < 1.0, "{m_inc} kg against {m_az} kg");
 }
+
+#[test]
+fn a_q_alpha_limit_is_reported_and_held_by_the_refinement() {
+    // The simple program flies at zero angle of attack except around the pitch-over: its q·α
+    // peak is small and early. A free thrust direction gains propellant by flying at an angle of
+    // attack (the model's drag does not depend on it); a q·α limit must then be held along the
+    // flight, and a tighter limit can only leave a smaller gain (common practice: the limit is a
+    // constraint of the refinement, so its optimum is monotone in it).
+    let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
+        .unwrap_or_default();
+    let mut v: serde_json::Value = serde_json::from_str(&text).unwrap_or_default();
+    let refined = |v: &serde_json::Value| {
+        let case = kickturn::app::Case::from_json(&v.to_string()).unwrap_or_else(|e| panic!("{e}"));
+        let s = kickturn::app::solve::SolveSettings {
+            refine: Some(kickturn::optimize::refine::RefineOptions {
+                nodes_per_arc: 10,
+                ..Default::default()
+            }),
+            ..Default::default()
+        };
+        let run = kickturn::app::solve::solve(&case, &s, &kickturn::app::Silent)
+            .unwrap_or_else(|e| panic!("{e}"));
+        let r = run.report;
+        let gap = r.refinement.as_ref().map_or(f64::NAN, |x| x.gap_kg);
+        let kept = r.refinement.as_ref().is_some_and(|x| x.kept);
+        (gap, kept, r.flight.max_q_alpha_pa_deg)
+    };
+    let (free_gap, free_kept, free_qa) = refined(&v);
+    assert!(free_kept && free_gap > 100.0, "gap {free_gap} kg");
+    assert!(
+        free_qa > 30_000.0,
+        "unlimited refinement flies q·α {free_qa} Pa·deg"
+    );
+    v["limits"]["max_q_alpha_pa_deg"] = 30_000.0.into();
+    let (gap, kept, qa) = refined(&v);
+    assert!(kept, "the limited refinement was not kept");
+    assert!(
+        qa <= 30_000.0 * (1.0 + 1e-6),
+        "q·α {qa} Pa·deg over the 30 kPa·deg limit"
+    );
+    assert!(
+        gap >= 0.0 && gap < free_gap,
+        "gap {gap} kg against {free_gap} kg unlimited"
+    );
+}

@@ -151,6 +151,13 @@ pub struct FlightReport {
     pub max_dynamic_pressure_limit_pa: Option<f64>,
     /// Limit on axial acceleration, g0, if given.
     pub max_axial_accel_limit_g: Option<f64>,
+    /// Maximum q·α (dynamic pressure times the thrust axis's total angle of attack, while
+    /// thrusting), Pa·deg.
+    pub max_q_alpha_pa_deg: f64,
+    /// Where it occurs.
+    pub max_q_alpha: Option<Extremum>,
+    /// Limit on q·α, Pa·deg, if given.
+    pub max_q_alpha_limit_pa_deg: Option<f64>,
     /// Events in time order.
     pub events: Vec<EventRecord>,
     /// Integrator work.
@@ -247,6 +254,9 @@ impl FlightReport {
                 .limits
                 .max_axial_accel_mps2
                 .map(|a| a / crate::core::physics::earth::G0_MPS2),
+            max_q_alpha_pa_deg: f.max_q_alpha.map_or(0.0, |m| m.value),
+            max_q_alpha: f.max_q_alpha,
+            max_q_alpha_limit_pa_deg: p.limits.max_q_alpha_pa_deg,
             events: f.events.clone(),
             stats: f.stats,
             conventions: CONVENTIONS.to_vec(),

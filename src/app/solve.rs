@@ -132,8 +132,8 @@ pub struct Refinement {
     pub gap_kg: f64,
     /// The gap as ΔV of the last stage at cutoff, c·ln(m_f,refined / m_f,simple), m/s.
     pub gap_mps: f64,
-    /// The refined program was kept (it met the target and saved propellant); otherwise the
-    /// report flies the simple program.
+    /// The refined program was kept (it met the target and the path limits and saved
+    /// propellant); otherwise the report flies the simple program.
     pub kept: bool,
 }
 
@@ -477,10 +477,17 @@ fn refine_program(
     let used =
         |p: &Problem, f: &Flight| p.vehicle.propellant_loaded_kg() - f.propellant_remaining_kg;
     let (simple, refined_used) = (used(&flown, &flight), used(&refined, &rflight));
+    // Met: the target within its tolerance and every path limit within the reports' own rule
+    // (a value above its limit by more than 1e-6 is reported EXCEEDS).
+    let within = |v: f64, lim: Option<f64>| lim.is_none_or(|l| v <= l * (1.0 + 1e-6));
+    let rep = FlightReport::new(&refined, &rflight);
     let met = rflight.end == crate::core::sim::EndReason::Completed
-        && FlightReport::new(&refined, &rflight)
-            .target_deviation
-            .is_some_and(|d| d.met);
+        && rep.target_deviation.is_some_and(|d| d.met)
+        && within(
+            rep.max_dynamic_pressure_pa,
+            rep.max_dynamic_pressure_limit_pa,
+        )
+        && within(rep.max_q_alpha_pa_deg, rep.max_q_alpha_limit_pa_deg);
     let kept = met && refined_used <= simple;
     let last = flown.vehicle.stages.len() - 1;
     let c = flown.vehicle.stages[flight.final_mode.stage.min(last)]

@@ -121,8 +121,8 @@ pub fn summary(r: &SolveReport) -> String {
             if x.kept {
                 "the refined program is the one reported and written"
             } else {
-                "the refined program is not kept (it misses the target or saves nothing): the \
-                 simple program is reported"
+                "the refined program is not kept (it misses the target, exceeds a path limit or \
+                 saves nothing): the simple program is reported"
             }
         );
     }

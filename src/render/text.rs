@@ -182,6 +182,24 @@ fn extremes(r: &FlightReport, s: &mut String) {
         "max axial acceleration {:.3} g0{lim}",
         r.max_axial_accel_g
     );
+    if let Some(m) = &r.max_q_alpha {
+        let lim = r.max_q_alpha_limit_pa_deg.map_or(String::new(), |l| {
+            let word = if m.value > l * (1.0 + 1e-6) {
+                "EXCEEDS"
+            } else {
+                "within"
+            };
+            format!(" ({word} limit {:.1} kPa·deg)", l / 1e3)
+        });
+        let _ = writeln!(
+            s,
+            "max q·α {:.2} kPa·deg at T+{:.2} s (q {:.2} kPa, α {:.2}°){lim}",
+            m.value / 1e3,
+            m.at.t_s,
+            m.at.dynamic_pressure_pa / 1e3,
+            m.at.alpha_deg
+        );
+    }
 }
 
 fn events(r: &FlightReport, s: &mut String) {

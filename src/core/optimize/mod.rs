@@ -257,6 +257,7 @@ impl Ctx<'_> {
                 shortfall: 1.0,
                 max_q_pa: f64::NAN,
                 max_q_by_bucket_pa: None,
+                max_q_alpha_pa_deg: f64::NAN,
                 payload_kg: self.spec.base.vehicle.payload_kg,
                 payload_mode: self.max_payload,
             };

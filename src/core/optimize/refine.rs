@@ -8,8 +8,9 @@
 //! nodes spread evenly over the arc as the shooting optimum flew it, linear between nodes
 //! ([`AttitudeTable`]). The node values are the variables of the same constrained program as the
 //! shooting solve ([`super::sqp`]): least propellant, the terminal conditions as equalities, the
-//! last stage not running dry, and a max-Q limit as `(max-Q − limit)/1 kPa ≤ 0`. Max-Q is the
-//! simulator's continuous maximum (refined between steps), so the limit holds along the whole
+//! last stage not running dry, a max-Q limit as `(max-Q − limit)/1 kPa ≤ 0` and a q·α limit
+//! (`limits.max_q_alpha_pa_deg`) as `(max q·α − limit)/1 kPa·deg ≤ 0`. Both maxima are the
+//! simulator's continuous ones (refined between steps), so the limits hold along the whole
 //! flight, not only at the nodes. Everything else stays as the shooting solve left it: the
 //! vertical rise (held vertical on the first arc), coasts, the throttle bucket, the launch
 //! azimuth, the cutoff on the target energy. The start is the shooting optimum itself, sampled
@@ -83,6 +84,8 @@ struct Refine<'a> {
     arcs: Vec<ArcNodes>,
     yaw: bool,
     q_limit: Option<f64>,
+    /// q·α limit, Pa·deg.
+    q_alpha_limit: Option<f64>,
     unit_kg: f64,
     lo: Vec<f64>,
     hi: Vec<f64>,
@@ -146,6 +149,10 @@ impl Refine<'_> {
         }
         if let Some(lim) = self.q_limit {
             ineq.push((e.max_q_pa - lim) / Q_SCALE_PA);
+        }
+        // q·α per 1 kPa·deg, on the simulator's continuous maximum.
+        if let Some(lim) = self.q_alpha_limit {
+            ineq.push((e.max_q_alpha_pa_deg - lim) / 1e3);
         }
         Values {
             f: e.propellant_used_kg / self.unit_kg,
@@ -297,6 +304,7 @@ pub fn refine(shot: &Problem, o: &RefineOptions) -> Result<Refined, SolveError> 
         arcs,
         yaw,
         q_limit: shot.limits.max_dynamic_pressure_pa,
+        q_alpha_limit: shot.limits.max_q_alpha_pa_deg,
         unit_kg: OBJECTIVE_UNIT * shot.vehicle.liftoff_mass_kg(),
         lo,
         hi,

@@ -48,6 +48,8 @@ pub struct Eval {
     pub shortfall: f64,
     /// Maximum dynamic pressure, Pa.
     pub max_q_pa: f64,
+    /// Maximum q·α, Pa·deg.
+    pub max_q_alpha_pa_deg: f64,
     /// With a throttle bucket: the maximum dynamic pressure before, inside and after it, Pa
     /// (`None` without a bucket).
     pub max_q_by_bucket_pa: Option<[f64; 3]>,
@@ -173,6 +175,7 @@ pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>, energy_equality: 
         shortfall,
         max_q_pa,
         max_q_by_bucket_pa: p.program.bucket.map(|_| f.max_q_by_bucket_pa),
+        max_q_alpha_pa_deg: f.max_q_alpha.map_or(0.0, |m| m.value),
         payload_kg: p.vehicle.payload_kg,
         payload_mode: energy_equality,
     }

@@ -405,6 +405,10 @@ pub struct LimitsFile {
     /// Lowest perigee altitude that counts as orbit, km (default 100).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub min_orbit_perigee_alt_km: Option<f64>,
+    /// Largest q·α (dynamic pressure times total angle of attack), Pa·deg: reported against by
+    /// `fly` and `solve`, held by `solve --refine`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_q_alpha_pa_deg: Option<f64>,
 }
 
 /// Model and integrator settings. Defaults: WGS-84 with J2, rotating, US 1976 atmosphere.

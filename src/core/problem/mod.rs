@@ -102,6 +102,8 @@ pub struct Limits {
     pub max_dynamic_pressure_pa: Option<f64>,
     /// Lowest perigee altitude that counts as orbit, m.
     pub min_orbit_perigee_alt_m: f64,
+    /// Largest q·α, Pa·deg (reported against; held by the refinement).
+    pub max_q_alpha_pa_deg: Option<f64>,
 }
 
 /// Propellant reserves of the last stage.

@@ -626,10 +626,27 @@ fn limits(l: &LimitsFile) -> R<Limits> {
         1e5,
         true,
     )?;
+    // q·α limits of launch vehicles are tens to hundreds of kPa·deg (common practice); under
+    // 100 Pa·deg the value cannot be meant (a kPa·deg figure is the likely slip).
+    let q_alpha = l
+        .max_q_alpha_pa_deg
+        .map(|v| positive("limits.max_q_alpha_pa_deg", v))
+        .transpose()?;
+    if let Some(v) = q_alpha.filter(|v| *v < 100.0) {
+        return bad(
+            "limits.max_q_alpha_pa_deg",
+            format!(
+                "{v} Pa·deg is far below any vehicle's q·α limit (tens to hundreds of kPa·deg); \
+                 is it in kPa·deg? The field is in Pa·deg ({v} kPa·deg = {} Pa·deg)",
+                v * 1e3
+            ),
+        );
+    }
     Ok(Limits {
         max_axial_accel_mps2: acc.map(|g| g * G0_MPS2),
         max_dynamic_pressure_pa: q,
         min_orbit_perigee_alt_m: rp * 1e3,
+        max_q_alpha_pa_deg: q_alpha,
     })
 }
 

@@ -202,6 +202,9 @@ pub struct Flight {
     pub max_q_by_bucket_pa: [f64; 3],
     /// Maximum sensed axial acceleration, in g0.
     pub max_axial_accel: Option<Extremum>,
+    /// Maximum q·α, Pa·deg (dynamic pressure times the total angle of attack of the thrust
+    /// axis, while thrusting; `None` when it stays 0).
+    pub max_q_alpha: Option<Extremum>,
     /// Propellant left in the current and later stages, kg.
     pub propellant_remaining_kg: f64,
     /// Time history (empty unless recorded).
@@ -267,9 +270,9 @@ struct Watch {
     g_prev: Vec<f64>,
     /// State events whose switching function crossed from negative to ≥ 0.
     fired: Vec<bool>,
-    /// (t s, dynamic pressure Pa, sensed axial acceleration g0) at the segment start and at
-    /// each accepted step's end.
-    samples: Vec<(f64, f64, f64)>,
+    /// (t s, dynamic pressure Pa, sensed axial acceleration g0, q·α Pa·deg) at the segment
+    /// start and at each accepted step's end.
+    samples: Vec<(f64, f64, f64, f64)>,
     /// Local conditions and forces of the latest stage-7 right-hand-side evaluation, at
     /// (`last_t_s`, `last_y`). Dormand–Prince evaluates its last stage at the step's end state
     /// ("first same as last"), so after an accepted step this is the end of that step, and the
@@ -283,9 +286,19 @@ struct Watch {
     prev_rhs_t: f64,
 }
 
-/// Dynamic pressure (Pa) and sensed axial acceleration (g0) of forces `f` at mass `m_kg`.
-fn q_and_accel_of(f: &Forces, m_kg: f64) -> (f64, f64) {
-    (f.q_pa, axial_accel_mps2(f, m_kg) / G0_MPS2)
+/// Dynamic pressure (Pa), sensed axial acceleration (g0) and q·α (Pa·deg: dynamic pressure
+/// times the total angle of attack, the angle between the thrust axis and the Earth-relative
+/// velocity; 0 off thrust, where the model has no attitude) of forces `f` at mass `m_kg` in local
+/// conditions `loc`.
+fn q_and_accel_of(f: &Forces, m_kg: f64, loc: &Local) -> (f64, f64, f64) {
+    let v = loc.v_rel_mps.norm();
+    let q_alpha = if f.thrust_vac_n > 0.0 && v > 0.0 && f.q_pa > 0.0 {
+        let c = (f.dir.dot(&loc.v_rel_mps) / (f.dir.norm() * v)).clamp(-1.0, 1.0);
+        f.q_pa * c.acos().to_degrees()
+    } else {
+        0.0
+    };
+    (f.q_pa, axial_accel_mps2(f, m_kg) / G0_MPS2, q_alpha)
 }
 
 impl System<f64, State> for Sys<'_> {
@@ -317,8 +330,8 @@ impl System<f64, State> for Sys<'_> {
                 (loc, forces(self.p, &self.mode, self.law, t, y[ix::M], &loc))
             }
         };
-        let (q, a) = q_and_accel_of(&f, y[ix::M]);
-        w.samples.push((t, q, a));
+        let (q, a, qa) = q_and_accel_of(&f, y[ix::M], &loc);
+        w.samples.push((t, q, a, qa));
         let mut any = false;
         for (i, ev) in self.evs.iter().enumerate() {
             let g = events::value_at(self.p, &self.mode, self.law, ev, t, y, &loc);
@@ -404,6 +417,7 @@ impl<'a> Flyer<'a> {
             max_q: None,
             max_q_by_bucket_pa: [0.0; 3],
             max_axial_accel: None,
+            max_q_alpha: None,
             propellant_remaining_kg: 0.0,
             history: Vec::new(),
             stats: SimStats::default(),
@@ -740,8 +754,8 @@ impl<'a> Flyer<'a> {
         w.fired.resize(evs.len(), false);
         w.samples.clear();
         let f0 = forces(&self.m, &self.mode, law, self.t, self.y[ix::M], loc0);
-        let (q0, a0) = q_and_accel_of(&f0, self.y[ix::M]);
-        w.samples.push((self.t, q0, a0));
+        let (q0, a0, qa0) = q_and_accel_of(&f0, self.y[ix::M], loc0);
+        w.samples.push((self.t, q0, a0, qa0));
         w.last = None;
         w.prev_rhs_t = f64::NAN;
         let watch = RefCell::new(w);
@@ -816,8 +830,8 @@ impl<'a> Flyer<'a> {
         let w = &mut self.watch;
         let kept = w.samples.partition_point(|s| s.0 < t_stop);
         w.samples.truncate(kept);
-        let (q_stop, a_stop) = q_and_accel(p, &mode, law, t_stop, y_stop);
-        w.samples.push((t_stop, q_stop, a_stop));
+        let (q_stop, a_stop, qa_stop) = q_and_accel(p, &mode, law, t_stop, y_stop);
+        w.samples.push((t_stop, q_stop, a_stop, qa_stop));
         let qa = |t: f64| com.evaluate(t).map(|y| q_and_accel(p, &mode, law, t, &y));
         // The segment lies in one part of the bucket's timeline (its start and end stop
         // segments); without a bucket every segment is in part 0 and the part's maximum is the
@@ -859,6 +873,20 @@ impl<'a> Flyer<'a> {
             );
             if let Some((v, t)) = a.filter(|(v, _)| *v > best_a) {
                 self.out.max_axial_accel = com.evaluate(t).map(|y| Extremum {
+                    value: v,
+                    at: snapshot(p, &mode, law, t, &y),
+                });
+            }
+        }
+        let best_qa = self.out.max_q_alpha.map_or(0.0, |m| m.value);
+        if w.samples.iter().any(|s| s.3 > best_qa) {
+            let m = refine_max(
+                &w.samples,
+                |s| s.3,
+                |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.2),
+            );
+            if let Some((v, t)) = m.filter(|(v, _)| *v > best_qa) {
+                self.out.max_q_alpha = com.evaluate(t).map(|y| Extremum {
                     value: v,
                     at: snapshot(p, &mode, law, t, &y),
                 });
@@ -1111,11 +1139,17 @@ impl<'a> Flyer<'a> {
 }
 
 /// Dynamic pressure (Pa) and sensed axial acceleration (g0) at (t, y).
-fn q_and_accel(p: &FlightModel, mode: &Mode, law: &dyn ActiveLaw, t: f64, y: &State) -> (f64, f64) {
+fn q_and_accel(
+    p: &FlightModel,
+    mode: &Mode,
+    law: &dyn ActiveLaw,
+    t: f64,
+    y: &State,
+) -> (f64, f64, f64) {
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);
     let loc = p.environment.local(t, &r, &v);
-    q_and_accel_of(&forces(p, mode, law, t, y[ix::M], &loc), y[ix::M])
+    q_and_accel_of(&forces(p, mode, law, t, y[ix::M], &loc), y[ix::M], &loc)
 }
 
 /// A maximum is refined until its bracket is this narrow, s (as the golden-section search that
@@ -1128,7 +1162,7 @@ const EXTREMUM_FLAT_REL: f64 = 1e-14;
 /// At most this many evaluations refine one maximum (the bracket halves at least every few).
 const EXTREMUM_MAX_EVALS: usize = 100;
 
-/// Largest of the sampled values (`value(sample)` over `samples`, each `(t, q, accel)`, in time
+/// Largest of the sampled values (`value(sample)` over `samples`, each `(t, q, accel, qα)`, in time
 /// order), refined on `f` (the dense output) between the neighbours of the best sample by
 /// Brent's method: parabolic interpolation through the three best points, with a
 /// golden-section step whenever the parabola's step is not acceptable (R. P. Brent,
@@ -1137,8 +1171,8 @@ const EXTREMUM_MAX_EVALS: usize = 100;
 /// stall on a cusp: max-Q can sit on the tropopause (11 km′), where dT/dh, hence dq/dt, jumps.
 /// Returns (value, time).
 fn refine_max(
-    samples: &[(f64, f64, f64)],
-    value: impl Fn(&(f64, f64, f64)) -> f64,
+    samples: &[(f64, f64, f64, f64)],
+    value: impl Fn(&(f64, f64, f64, f64)) -> f64,
     f: impl Fn(f64) -> f64,
 ) -> Option<(f64, f64)> {
     let k = (0..samples.len())
@@ -1257,8 +1291,8 @@ mod tests {
     use super::*;
 
     /// Samples `(t, f(t), 0)` at the given times.
-    fn sampled(ts: &[f64], f: impl Fn(f64) -> f64) -> Vec<(f64, f64, f64)> {
-        ts.iter().map(|t| (*t, f(*t), 0.0)).collect()
+    fn sampled(ts: &[f64], f: impl Fn(f64) -> f64) -> Vec<(f64, f64, f64, f64)> {
+        ts.iter().map(|t| (*t, f(*t), 0.0, 0.0)).collect()
     }
 
     #[test]
