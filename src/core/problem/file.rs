@@ -328,6 +328,21 @@ pub enum SteeringFile {
     LinearTangentContinued,
     /// Pitch against time since liftoff, in the launch-azimuth plane.
     PitchTable(Vec<[f64; 2]>),
+    /// Closed-loop guidance to the target orbit (powered explicit guidance, re-solved every
+    /// guidance cycle); the arc's cutoff must be `"target_orbit"`.
+    Guidance(GuidanceFile),
+}
+
+/// Settings of closed-loop guidance (all optional).
+#[derive(Debug, Clone, Copy, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GuidanceFile {
+    /// Guidance cycle, s (default 1).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cycle_s: Option<f64>,
+    /// Time to go below which the steering is held, s (default 4, at least two cycles).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub hold_s: Option<f64>,
 }
 
 /// Linear tangent law tan θ = tan θ0 − c·τ, τ time since the arc's start, θ above the horizontal

@@ -422,10 +422,26 @@ fn cutoff(path: &str, c: Option<CutoffFile>, has_target: bool) -> R<Cutoff> {
 fn arc(i: usize, a: &ArcFile, has_target: bool) -> R<Arc> {
     let p = format!("ascent.arcs[{i}]");
     Ok(match a {
-        ArcFile::Burn(b) => Arc::Burn {
-            steering: Steering::from_file(&format!("{p}.burn.steering"), &b.steering)?,
-            cutoff: cutoff(&format!("{p}.burn.cutoff"), b.cutoff, has_target)?,
-        },
+        ArcFile::Burn(b) => {
+            let steering = Steering::from_file(&format!("{p}.burn.steering"), &b.steering)?;
+            let cutoff = cutoff(&format!("{p}.burn.cutoff"), b.cutoff, has_target)?;
+            if matches!(steering, Steering::Guidance(_)) {
+                // Guidance aims at the target orbit and ends on its energy.
+                if !has_target {
+                    return bad(
+                        &format!("{p}.burn.steering.guidance"),
+                        "closed-loop guidance needs a `target` section to aim at",
+                    );
+                }
+                if cutoff != Cutoff::TargetOrbit {
+                    return bad(
+                        &format!("{p}.burn.cutoff"),
+                        "a guided burn must be cut off by \"target_orbit\" (the guidance aims at the target's energy)",
+                    );
+                }
+            }
+            Arc::Burn { steering, cutoff }
+        }
         ArcFile::Coast(CoastFile::DurationS(t)) => Arc::Coast(CoastEnd::Duration(positive(
             &format!("{p}.coast.duration_s"),
             *t,
