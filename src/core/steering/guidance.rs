@@ -13,7 +13,8 @@
 //! 2. thrust integrals `L = ∫a`, `J = ∫a t`, `S = T L − J`, `Q = T J − ∫a t²` over `[0, T]`,
 //!    `t_λ = J/L`;
 //! 3. position to be gained `r_go = r_d − (r + v T + r_grav) − r_bias`, its downrange component
-//!    replaced so that `λ·r_go = S` (downrange position is free), then
+//!    replaced so that λ̇ has no downrange component (downrange position is free: the optimal
+//!    primer's downrange component is constant, which makes the law linear tangent), then
 //!    `λ̇ = (r_go − S λ)/(Q − S t_λ)`;
 //! 4. the predictor integrates the vacuum flight under this steering (RK4, the simulator's gravity
 //!    model, the stage's thrust, flow and acceleration limit) to the predicted cutoff, which gives
@@ -81,14 +82,14 @@ impl Guidance {
     /// Validates the file form at JSON path `path`.
     pub fn from_file(path: &str, g: &GuidanceFile) -> Result<Self, ProblemError> {
         let cycle_s = range(
-            &format!("{path}.cycle_s"),
+            &format!("{path}.guidance.cycle_s"),
             g.cycle_s.unwrap_or(DEFAULT_CYCLE_S),
             0.01,
             60.0,
             true,
         )?;
         let hold_s = range(
-            &format!("{path}.hold_s"),
+            &format!("{path}.guidance.hold_s"),
             g.hold_s.unwrap_or(DEFAULT_HOLD_S.max(2.0 * cycle_s)),
             0.0,
             600.0,
@@ -415,15 +416,14 @@ impl Guided {
         } else {
             0.0
         };
-        let mut r_go =
-            self.r_d - (now.r_m + now.v_mps * t + self.r_grav * scale) - self.r_bias;
-        // Downrange is free: replace r_go's downrange component so that λ·r_go = S.
+        let mut r_go = self.r_d - (now.r_m + now.v_mps * t + self.r_grav * scale) - self.r_bias;
+        // Downrange position is free, so its costate vanishes and the downrange component of the
+        // primer λ + λ̇τ stays constant (Bryson & Ho §2.4: λ̇·î_z = 0, the linear tangent law).
+        // r_go = λ S + λ̇ (Q − S t_λ) then fixes r_go's downrange component at S λ·î_z. (Jaggers'
+        // PEG asks λ̇ ⊥ λ instead, λ·r_go = S: a bilinear tangent that costs ~0.5 % of burn time
+        // in the flat-Earth check.)
         let iz = self.normal.cross(&self.geometry.up(&self.r_d));
-        let lz = lambda.dot(&iz);
-        if lz.abs() > 1e-3 {
-            let r_xy = r_go - iz * r_go.dot(&iz);
-            r_go = r_xy + iz * ((s_int - lambda.dot(&r_xy)) / lz);
-        }
+        r_go += iz * (s_int * lambda.dot(&iz) - r_go.dot(&iz));
         let den = q_int - s_int * t_lambda;
         let lambda_dot = if den.abs() > 1e-9 {
             (r_go - lambda * s_int) / den
@@ -475,9 +475,7 @@ impl Guided {
             let k3 = f(tau + 0.5 * h, &y3);
             let y4: S = std::array::from_fn(|i| y[i] + k3[i] * h);
             let k4 = f(tau + h, &y4);
-            y = std::array::from_fn(|i| {
-                y[i] + (k1[i] + (k2[i] + k3[i]) * 2.0 + k4[i]) * (h / 6.0)
-            });
+            y = std::array::from_fn(|i| y[i] + (k1[i] + (k2[i] + k3[i]) * 2.0 + k4[i]) * (h / 6.0));
         }
         Prediction {
             r: y[0],

@@ -31,8 +31,8 @@ use nalgebra::Vector3;
 
 use crate::core::error::ProblemError;
 use crate::core::physics::environment::{Environment, Local};
-use crate::core::problem::Target;
 use crate::core::problem::file::SteeringFile;
+use crate::core::problem::Target;
 
 pub use guidance::Guidance;
 pub use linear_tangent::LinearTangent;
