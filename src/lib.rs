@@ -36,5 +36,5 @@ pub mod render;
 
 // The core's modules under their short names, for callers and tests.
 pub use crate::core::{
-    budget, error, observe, optimize, physics, problem, random, sim, steering, vehicle,
+    budget, dispersion, error, observe, optimize, physics, problem, random, sim, steering, vehicle,
 };

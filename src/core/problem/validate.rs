@@ -69,7 +69,7 @@ pub fn validate(f: &ProblemFile) -> R<Problem> {
     }
     check_liftoff_thrust(&vehicle, &site, &environment)?;
     let (azimuth_rad, azimuth_source) = azimuth(&f.launch, &site, target.as_ref())?;
-    Ok(Problem {
+    let p = Problem {
         name: f.name.clone(),
         site,
         azimuth_rad,
@@ -83,7 +83,13 @@ pub fn validate(f: &ProblemFile) -> R<Problem> {
         integrator,
         reserves: reserves(f.reserves.as_ref())?,
         input_sha256: String::new(),
-    })
+    };
+    // The dispersions section is checked here, so that every command names a wrong key in it;
+    // `kickturn dispersions` builds the model again from the file.
+    if f.dispersions.is_some() {
+        crate::core::dispersion::Model::from_file(f.dispersions.as_ref(), &p)?;
+    }
+    Ok(p)
 }
 
 fn site(s: &SiteFile) -> R<Site> {

@@ -67,6 +67,10 @@ pub struct Guidance {
     pub cycle_s: f64,
     /// Time to go below which the steering is held, s.
     pub hold_s: f64,
+    /// Open loop: solve once, from this state (the nominal flight's at the arc's start), and
+    /// fly that steering unchanged (in inertial axes, against time), without guidance cycles.
+    /// Not in the file: `kickturn dispersions --open-loop` sets it.
+    pub frozen_from: Option<GuidanceInput>,
 }
 
 impl Default for Guidance {
@@ -74,6 +78,7 @@ impl Default for Guidance {
         Guidance {
             cycle_s: DEFAULT_CYCLE_S,
             hold_s: DEFAULT_HOLD_S,
+            frozen_from: None,
         }
     }
 }
@@ -95,7 +100,11 @@ impl Guidance {
             600.0,
             true,
         )?;
-        Ok(Guidance { cycle_s, hold_s })
+        Ok(Guidance {
+            cycle_s,
+            hold_s,
+            frozen_from: None,
+        })
     }
 }
 
@@ -334,8 +343,9 @@ impl Guided {
                 g_mps2: gravity_mps2,
             },
         };
-        let r = s.state.r_m;
-        let v = s.state.v_mps;
+        let state = settings.frozen_from.unwrap_or(s.state);
+        let r = state.r_m;
+        let v = state.v_mps;
         let up = geometry.up(&r);
         // The motion's plane: the velocity's, or the launch azimuth's when (nearly) at rest.
         let (sa, ca) = s.azimuth_rad.sin_cos();
@@ -367,14 +377,14 @@ impl Guided {
             miss_mps: f64::INFINITY,
         };
         if g.aim.is_some() {
-            g.initialize(&s.state);
+            g.initialize(&state);
             for _ in 0..START_ITERATIONS {
-                g.correct(&s.state);
+                g.correct(&state);
                 if g.miss_mps < CONVERGED_MPS {
                     break;
                 }
             }
-            g.last = Some((s.state.t_s, s.state.r_m, s.state.v_mps));
+            g.last = Some((state.t_s, state.r_m, state.v_mps));
         }
         g
     }
@@ -559,7 +569,10 @@ impl ActiveLaw for Guided {
     }
 
     fn guidance_period_s(&self) -> Option<f64> {
-        Some(self.settings.cycle_s)
+        match self.settings.frozen_from {
+            Some(_) => None,
+            None => Some(self.settings.cycle_s),
+        }
     }
 
     fn update(&mut self, now: &GuidanceInput) {

@@ -235,7 +235,7 @@ pub struct ArcStart<'a> {
 }
 
 /// The state a closed-loop law sees at a guidance-cycle event.
-#[derive(Debug, Clone, Copy)]
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub struct GuidanceInput {
     /// Time, s.
     pub t_s: f64,
