@@ -5,7 +5,7 @@
 //! Sample `k` of seed `S` is the same flight on any thread count and in any order (its draws come
 //! from `random::stream`), and the report is built from the samples in index order, so the same
 //! seed gives a byte-identical report. `--open-loop` flies the same samples with every guided arc
-//! frozen to the steering the guidance computed at that arc's start on the nominal flight.
+//! replaying, open loop, the commands the guidance gave on the nominal flight.
 
 use std::sync::{Arc as Shared, Mutex};
 
@@ -16,11 +16,13 @@ use super::outcome::{FlightReport, Status, CAUTION};
 use super::{tool_version, Case, Error};
 use crate::core::dispersion::{self, Model};
 use crate::core::observe::Observer;
+use crate::core::physics::environment::Local;
 use crate::core::problem::Problem;
 use crate::core::sim::{self, Flight};
 use crate::core::steering::{
-    ActiveLaw, Arc, ArcStart, Guidance, GuidanceInput, SharedLaw, Steering, SteeringLaw,
+    ActiveLaw, Arc, ArcStart, Guidance, GuidanceInput, Plan, SharedLaw, Steering, SteeringLaw,
 };
+use nalgebra::Vector3;
 
 /// Largest sample count.
 pub const MAX_SAMPLES: usize = 1_000_000;
@@ -34,7 +36,7 @@ pub struct DispersionOptions {
     pub samples: usize,
     /// Seed of the study.
     pub seed: u64,
-    /// Fly every guided arc open loop (the nominal guided steering, frozen).
+    /// Fly every guided arc open loop (replaying the nominal flight's guidance commands).
     pub open_loop: bool,
     /// Probability that the reserve covers the need (`None`: the file's, else 0.997).
     pub probability: Option<f64>,
@@ -218,7 +220,8 @@ pub struct DispersionReport {
     pub propellant_percentiles_kg: Vec<(f64, f64)>,
     /// The flight performance reserve.
     pub reserve: Reserve,
-    /// Contributors, largest |rank correlation with the propellant| first.
+    /// Contributors, largest |rank correlation with the propellant| first (with the perigee error
+    /// when fewer than two samples meet the target).
     pub contributors: Vec<Contributor>,
     /// Samples that missed the target, by index.
     pub failures: Vec<Failure>,
@@ -247,12 +250,27 @@ pub struct SampleRun {
     pub flight: Flight,
 }
 
-/// Records the state every guided arc starts from (the nominal flight's).
+/// Records the plans a guided arc flies (the nominal flight's), with their start times.
 #[derive(Debug)]
 struct Capture {
     inner: Guidance,
     arc: usize,
-    seen: Shared<Mutex<Vec<(usize, GuidanceInput)>>>,
+    seen: Shared<Mutex<Vec<(usize, f64, Plan)>>>,
+}
+
+#[derive(Debug)]
+struct Recorder {
+    inner: Box<dyn ActiveLaw>,
+    arc: usize,
+    seen: Shared<Mutex<Vec<(usize, f64, Plan)>>>,
+}
+
+impl Recorder {
+    fn record(&self, t_s: f64) {
+        if let (Some(p), Ok(mut v)) = (self.inner.plan(), self.seen.lock()) {
+            v.push((self.arc, t_s, p));
+        }
+    }
 }
 
 impl SteeringLaw for Capture {
@@ -260,10 +278,26 @@ impl SteeringLaw for Capture {
         "guidance"
     }
     fn start(&self, s: &ArcStart) -> Box<dyn ActiveLaw> {
-        if let Ok(mut v) = self.seen.lock() {
-            v.push((self.arc, s.state));
-        }
-        self.inner.start(s)
+        let r = Recorder {
+            inner: self.inner.start(s),
+            arc: self.arc,
+            seen: self.seen.clone(),
+        };
+        r.record(s.t_s);
+        Box::new(r)
+    }
+}
+
+impl ActiveLaw for Recorder {
+    fn direction(&self, t_s: f64, loc: &Local) -> Vector3<f64> {
+        self.inner.direction(t_s, loc)
+    }
+    fn guidance_period_s(&self) -> Option<f64> {
+        self.inner.guidance_period_s()
+    }
+    fn update(&mut self, now: &GuidanceInput) {
+        self.inner.update(now);
+        self.record(now.t_s);
     }
 }
 
@@ -282,7 +316,8 @@ fn guided_arcs(p: &Problem) -> Vec<usize> {
         .collect()
 }
 
-/// The problem with every guided arc frozen at the nominal flight's start of that arc.
+/// The problem with every guided arc replaying, open loop, the plans the guidance flew on the
+/// nominal flight.
 fn frozen(p: &Problem) -> Problem {
     let seen = Shared::new(Mutex::new(Vec::new()));
     let mut q = p.clone();
@@ -302,15 +337,21 @@ fn frozen(p: &Problem) -> Problem {
         }
     }
     sim::fly(&q, &sim::FlyOptions::default());
-    let starts = seen.lock().map(|v| v.clone()).unwrap_or_default();
+    let plans = seen.lock().map(|v| v.clone()).unwrap_or_default();
     let mut out = p.clone();
-    for (i, state) in starts {
+    for i in guided_arcs(p) {
         if let Some(Arc::Burn {
             steering: Steering::Guidance(g),
             ..
         }) = out.program.arcs.get_mut(i)
         {
-            g.frozen_from = Some(state);
+            g.replay = Some(
+                plans
+                    .iter()
+                    .filter(|(a, _, _)| *a == i)
+                    .map(|(_, t, pl)| (*t, *pl))
+                    .collect(),
+            );
         }
     }
     out
@@ -425,7 +466,11 @@ pub fn fly_one(
 /// # Errors
 /// [`Error::Option`] for a sample count or probability out of range; [`Error::Problem`] for a
 /// problem without a target or with a bad `dispersions` section; [`Error::Unreachable`] as `fly`.
-pub fn run(case: &Case, o: &DispersionOptions, obs: &dyn Observer) -> Result<DispersionReport, Error> {
+pub fn run(
+    case: &Case,
+    o: &DispersionOptions,
+    obs: &dyn Observer,
+) -> Result<DispersionReport, Error> {
     let pr = prepare(case, o)?;
     obs.started("dispersions", o.samples);
     let runs: Vec<Sample> = (0..o.samples)
@@ -453,7 +498,10 @@ fn summarize(
     let p = &pr.base;
     let model = &pr.model;
     let on_target: Vec<&Sample> = runs.iter().filter(|s| s.target_met).collect();
-    let prop: Vec<f64> = on_target.iter().map(|s| s.propellant_remaining_kg).collect();
+    let prop: Vec<f64> = on_target
+        .iter()
+        .map(|s| s.propellant_remaining_kg)
+        .collect();
     let mut sorted = prop.clone();
     sorted.sort_by(f64::total_cmp);
     let collect = |f: &dyn Fn(&Sample) -> Option<f64>| -> Vec<f64> {
@@ -513,12 +561,17 @@ fn summarize(
             }
         })
         .collect();
-    contributors.sort_by(|a, b| {
-        b.rank_correlation_propellant
-            .abs()
-            .total_cmp(&a.rank_correlation_propellant.abs())
-            .then_with(|| a.name.cmp(&b.name))
-    });
+    // Largest first: against the propellant remaining when samples reach the target, else
+    // (open loop) against the perigee error.
+    let by_prop = on_target.len() >= 2;
+    let key = |c: &Contributor| {
+        if by_prop {
+            c.rank_correlation_propellant.abs()
+        } else {
+            c.rank_correlation_perigee.abs()
+        }
+    };
+    contributors.sort_by(|a, b| key(b).total_cmp(&key(a)).then_with(|| a.name.cmp(&b.name)));
     let failures = runs
         .iter()
         .filter(|s| !s.target_met)

@@ -11,7 +11,9 @@ use kickturn::app::Case;
 use kickturn::problem::file::DispersionsFile;
 use kickturn::render;
 
-use super::io::{check_outputs, emit_report, load_case, read_text, write_atomic, OutputKind, Progress};
+use super::io::{
+    check_outputs, emit_report, load_case, read_text, write_atomic, OutputKind, Progress,
+};
 use super::{app_error, exit_code, EXIT_BAD_INPUT};
 
 /// Arguments of `dispersions`.
@@ -133,10 +135,18 @@ pub fn run(a: &DispersionsArgs) -> anyhow::Result<u8> {
         Err(e) => return flag(e),
     };
     if let Some(path) = &a.csv {
-        write_atomic(path, &a.problem, render::dispersions::csv(&report).as_bytes())?;
+        write_atomic(
+            path,
+            &a.problem,
+            render::dispersions::csv(&report).as_bytes(),
+        )?;
     }
     if let Some(dir) = &a.plot {
-        super::io::write_figures(dir, &a.problem, &render::figures::dispersion_figures(&report)?)?;
+        super::io::write_figures(
+            dir,
+            &a.problem,
+            &render::figures::dispersion_figures(&report)?,
+        )?;
     }
     if a.json {
         emit_report(&format!("{}\n", serde_json::to_string_pretty(&report)?))?;

@@ -248,7 +248,10 @@ impl Model {
                 Kind::Propellant,
                 get(Kind::Propellant, d.propellant_percent.as_ref())?,
             ),
-            (Kind::DryMass, get(Kind::DryMass, d.dry_mass_percent.as_ref())?),
+            (
+                Kind::DryMass,
+                get(Kind::DryMass, d.dry_mass_percent.as_ref())?,
+            ),
         ];
         let cd = get(Kind::CdScale, d.cd_scale_percent.as_ref())?;
         let rho = get(Kind::DensityScale, d.density_scale_percent.as_ref())?;
@@ -561,9 +564,7 @@ mod tests {
     #[test]
     fn normal_draws_have_the_asked_spread() {
         let s = Spread::Normal { sigma: 2.0 };
-        let x: Vec<f64> = (0..20_000)
-            .map(|i| s.draw(&mut stream(11, i)))
-            .collect();
+        let x: Vec<f64> = (0..20_000).map(|i| s.draw(&mut stream(11, i))).collect();
         let (m, sd) = mean_sigma(&x);
         // Standard errors: σ/√n = 0.014 on the mean, σ/√(2n) = 0.01 on σ.
         assert!(m.abs() < 0.06 && (sd - 2.0).abs() < 0.05, "{m} {sd}");

@@ -27,18 +27,17 @@ pub fn text(r: &DispersionReport) -> String {
     let mode = match (r.guided_arcs, r.open_loop) {
         (0, _) => "open loop (the program has no guided arc)".to_string(),
         (n, false) => format!("closed loop ({n} guided arc(s), re-solved every cycle)"),
-        (n, true) => format!(
-            "open loop: the {n} guided arc(s) frozen to the nominal flight's steering"
-        ),
+        (n, true) => {
+            format!("open loop: the {n} guided arc(s) frozen to the nominal flight's steering")
+        }
     };
     let _ = writeln!(s, "{} | dispersions of {}", r.tool, r.problem);
+    let _ = writeln!(s, "{} samples, seed {}; {mode}", r.samples, r.seed);
+    let _ = writeln!(s);
     let _ = writeln!(
         s,
-        "{} samples, seed {}; {mode}",
-        r.samples, r.seed
+        "Dispersed quantities (zero-mean; * = invented placeholder, not vehicle data)"
     );
-    let _ = writeln!(s);
-    let _ = writeln!(s, "Dispersed quantities (zero-mean; * = invented placeholder, not vehicle data)");
     for v in &r.variables {
         let mark = if v.placeholder { "*" } else { " " };
         let _ = writeln!(s, "  {mark} {:<34} {}", v.name, v.spread);
@@ -97,7 +96,11 @@ pub fn text(r: &DispersionReport) -> String {
                 res.remaining_at_probability_kg.unwrap_or(f64::NAN),
                 res.nominal_remaining_kg
             );
-            let _ = writeln!(s, "  reserve {kg:.1} kg{} (normal fit)", mps(res.reserve_mps));
+            let _ = writeln!(
+                s,
+                "  reserve {kg:.1} kg{} (normal fit)",
+                mps(res.reserve_mps)
+            );
         }
         _ => {
             let _ = writeln!(
@@ -138,7 +141,11 @@ pub fn text(r: &DispersionReport) -> String {
             );
         }
         if r.failures.len() > 20 {
-            let _ = writeln!(s, "  … {} more (all in --json and --csv)", r.failures.len() - 20);
+            let _ = writeln!(
+                s,
+                "  … {} more (all in --json and --csv)",
+                r.failures.len() - 20
+            );
         }
     }
     let _ = writeln!(s);

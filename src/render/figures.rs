@@ -386,7 +386,10 @@ fn draw_sweep(name: &str, axis: Axis, pts: &[Point]) -> Result<Vec<FigureFile>, 
 pub fn dispersion_figures(
     r: &crate::app::dispersions::DispersionReport,
 ) -> Result<Vec<FigureFile>, PlotError> {
-    let title = format!("{}: {} dispersed flights, seed {}", r.problem, r.samples, r.seed);
+    let title = format!(
+        "{}: {} dispersed flights, seed {}",
+        r.problem, r.samples, r.seed
+    );
     // Histogram as a step curve: 30 bins over the samples on target.
     let prop: Vec<f64> = r
         .runs
@@ -396,7 +399,9 @@ pub fn dispersion_figures(
         .collect();
     let (lo, hi) = prop
         .iter()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| (a.min(*v), b.max(*v)));
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+            (a.min(*v), b.max(*v))
+        });
     let bins = 30usize;
     let (mut x, mut y) = (Vec::new(), Vec::new());
     if lo.is_finite() && hi.is_finite() {
@@ -438,11 +443,20 @@ pub fn dispersion_figures(
         &as_markers(&marks),
     )?;
     // Perigee and apogee errors against the sample index.
-    let orbit: Vec<&crate::app::dispersions::Sample> =
-        r.runs.iter().filter(|s| s.perigee_error_km.is_some()).collect();
+    let orbit: Vec<&crate::app::dispersions::Sample> = r
+        .runs
+        .iter()
+        .filter(|s| s.perigee_error_km.is_some())
+        .collect();
     let idx: Vec<f64> = orbit.iter().map(|s| s.index as f64).collect();
-    let per: Vec<f64> = orbit.iter().map(|s| s.perigee_error_km.unwrap_or(f64::NAN)).collect();
-    let apo: Vec<f64> = orbit.iter().map(|s| s.apogee_error_km.unwrap_or(f64::NAN)).collect();
+    let per: Vec<f64> = orbit
+        .iter()
+        .map(|s| s.perigee_error_km.unwrap_or(f64::NAN))
+        .collect();
+    let apo: Vec<f64> = orbit
+        .iter()
+        .map(|s| s.apogee_error_km.unwrap_or(f64::NAN))
+        .collect();
     out.extend(super::plots::scatter(
         "dispersions-orbit-errors",
         &format!("orbit errors, reached − target — {title}"),

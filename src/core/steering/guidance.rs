@@ -39,7 +39,7 @@
 
 use nalgebra::Vector3;
 
-use super::{unit_or, ActiveLaw, ArcStart, GuidanceInput, SteeringLaw};
+use super::{unit_or, ActiveLaw, ArcStart, GuidanceInput, Plan, SteeringLaw};
 use crate::core::error::in_range as range;
 use crate::core::error::ProblemError;
 use crate::core::physics::earth::{self, WGS84_A_M, WGS84_GM_M3_S2};
@@ -61,16 +61,16 @@ const CONVERGED_MPS: f64 = 1e-3;
 const PREDICT_STEP_S: f64 = 4.0;
 
 /// Settings of the guided law.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct Guidance {
     /// Guidance cycle, s.
     pub cycle_s: f64,
     /// Time to go below which the steering is held, s.
     pub hold_s: f64,
-    /// Open loop: solve once, from this state (the nominal flight's at the arc's start), and
-    /// fly that steering unchanged (in inertial axes, against time), without guidance cycles.
-    /// Not in the file: `kickturn dispersions --open-loop` sets it.
-    pub frozen_from: Option<GuidanceInput>,
+    /// Open loop: replay these plans (each from its time on, s) instead of guiding: the
+    /// commands of a recorded flight, in inertial axes against time, without guidance cycles.
+    /// Not in the file: `kickturn dispersions --open-loop` sets it from the nominal flight.
+    pub replay: Option<Vec<(f64, Plan)>>,
 }
 
 impl Default for Guidance {
@@ -78,7 +78,7 @@ impl Default for Guidance {
         Guidance {
             cycle_s: DEFAULT_CYCLE_S,
             hold_s: DEFAULT_HOLD_S,
-            frozen_from: None,
+            replay: None,
         }
     }
 }
@@ -103,7 +103,7 @@ impl Guidance {
         Ok(Guidance {
             cycle_s,
             hold_s,
-            frozen_from: None,
+            replay: None,
         })
     }
 }
@@ -114,7 +114,7 @@ impl SteeringLaw for Guidance {
     }
 
     fn start(&self, s: &ArcStart) -> Box<dyn ActiveLaw> {
-        Box::new(Guided::start(*self, s))
+        Box::new(Guided::start(self.clone(), s))
     }
 }
 
@@ -343,7 +343,7 @@ impl Guided {
                 g_mps2: gravity_mps2,
             },
         };
-        let state = settings.frozen_from.unwrap_or(s.state);
+        let state = s.state;
         let r = state.r_m;
         let v = state.v_mps;
         let up = geometry.up(&r);
@@ -376,6 +376,10 @@ impl Guided {
             last: None,
             miss_mps: f64::INFINITY,
         };
+        if let Some(first) = g.settings.replay.as_ref().and_then(|r| r.first()).copied() {
+            g.set_plan(&first.1);
+            return g;
+        }
         if g.aim.is_some() {
             g.initialize(&state);
             for _ in 0..START_ITERATIONS {
@@ -494,6 +498,12 @@ impl Guided {
         }
     }
 
+    fn set_plan(&mut self, p: &Plan) {
+        self.lambda = p.lambda;
+        self.lambda_dot = p.lambda_dot;
+        self.t_ref_s = p.t_ref_s;
+    }
+
     /// Time to go of the latest solution, s.
     pub fn time_to_go_s(&self) -> f64 {
         self.t_go_s
@@ -560,19 +570,44 @@ fn desired(aim: &Aim, r_pred: f64) -> (f64, f64, f64) {
     }
 }
 
+impl Guided {
+    fn plan_now(&self) -> Plan {
+        Plan {
+            lambda: self.lambda,
+            lambda_dot: self.lambda_dot,
+            t_ref_s: self.t_ref_s,
+        }
+    }
+}
+
 impl ActiveLaw for Guided {
     fn direction(&self, t_s: f64, _loc: &Local) -> Vector3<f64> {
-        unit_or(
-            &(self.lambda + self.lambda_dot * (t_s - self.t_ref_s)),
-            &self.lambda,
-        )
+        let p = match &self.settings.replay {
+            Some(r) if !r.is_empty() => {
+                // The plan in force at t: the last one that starts at or before t.
+                let k = r.partition_point(|(t0, _)| *t0 <= t_s).saturating_sub(1);
+                r[k].1
+            }
+            _ => self.plan_now(),
+        };
+        unit_or(&(p.lambda + p.lambda_dot * (t_s - p.t_ref_s)), &p.lambda)
     }
 
     fn guidance_period_s(&self) -> Option<f64> {
-        match self.settings.frozen_from {
+        match self.settings.replay {
             Some(_) => None,
             None => Some(self.settings.cycle_s),
         }
+    }
+
+    fn plan(&self) -> Option<Plan> {
+        Some(self.plan_now())
+    }
+
+    fn next_node_s(&self, t_s: f64) -> Option<f64> {
+        // A replayed plan changes at each recorded update: stop the integrator there.
+        let r = self.settings.replay.as_ref()?;
+        r.iter().map(|(t0, _)| *t0).find(|t0| *t0 > t_s)
     }
 
     fn update(&mut self, now: &GuidanceInput) {

@@ -255,6 +255,18 @@ pub struct GuidanceInput {
     pub max_axial_accel_mps2: Option<f64>,
 }
 
+/// A vector-form steering plan `û ∝ λ + λ̇ (t − t_ref)`: what a closed-loop law flies until its
+/// next update (inertial axes).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Plan {
+    /// λ, unit.
+    pub lambda: Vector3<f64>,
+    /// λ̇, 1/s.
+    pub lambda_dot: Vector3<f64>,
+    /// Reference time t_ref, s.
+    pub t_ref_s: f64,
+}
+
 /// A steering law's settings: what the problem file (or a program) states for a burn arc.
 pub trait SteeringLaw: std::fmt::Debug + Send + Sync {
     /// The law's key in the problem file (`linear_tangent`, …).
@@ -316,6 +328,11 @@ pub trait ActiveLaw: std::fmt::Debug + Send + Sync {
     }
     /// A copy a later arc may continue (`None`: not continuable).
     fn continuable(&self) -> Option<Box<dyn ActiveLaw>> {
+        None
+    }
+    /// The plan a closed-loop law flies now (`None`: not a plan-based law); a recorder can
+    /// replay the plans of one flight open loop.
+    fn plan(&self) -> Option<Plan> {
         None
     }
 }
