@@ -386,10 +386,7 @@ fn draw_sweep(name: &str, axis: Axis, pts: &[Point]) -> Result<Vec<FigureFile>, 
 pub fn dispersion_figures(
     r: &crate::app::dispersions::DispersionReport,
 ) -> Result<Vec<FigureFile>, PlotError> {
-    let title = format!(
-        "{}: {} dispersed flights, seed {}",
-        r.problem, r.samples, r.seed
-    );
+    let title = format!("{} samples, seed {}", r.samples, r.seed);
     // Histogram as a step curve: 30 bins over the samples on target.
     let prop: Vec<f64> = r
         .runs
@@ -422,16 +419,17 @@ pub fn dispersion_figures(
         marks.push((
             b,
             format!(
-                "reserve bound (p {}, c {}): {:.0} kg reserve",
-                r.reserve.probability,
-                r.reserve.confidence,
+                "reserve bound: {:.0} kg",
                 r.reserve.reserve_kg.unwrap_or(f64::NAN)
             ),
         ));
     }
     let mut out = line_chart(
         "dispersions-propellant",
-        &format!("propellant remaining at insertion — {title}"),
+        &format!(
+            "propellant remaining at insertion ({title}; p {}, c {})",
+            r.reserve.probability, r.reserve.confidence
+        ),
         "propellant remaining, kg",
         "samples per bin",
         &x,
@@ -448,7 +446,6 @@ pub fn dispersion_figures(
         .iter()
         .filter(|s| s.perigee_error_km.is_some())
         .collect();
-    let idx: Vec<f64> = orbit.iter().map(|s| s.index as f64).collect();
     let per: Vec<f64> = orbit
         .iter()
         .map(|s| s.perigee_error_km.unwrap_or(f64::NAN))
@@ -459,25 +456,37 @@ pub fn dispersion_figures(
         .collect();
     out.extend(super::plots::scatter(
         "dispersions-orbit-errors",
-        &format!("orbit errors, reached − target — {title}"),
+        &format!("orbit errors, reached − target ({title})"),
         "perigee error, km",
         "apogee error, km",
         &per,
         &apo,
     )?);
-    let _ = idx;
-    let names: Vec<&str> = r.contributors.iter().map(|c| c.name.as_str()).collect();
-    let rho: Vec<f64> = r
-        .contributors
-        .iter()
-        .map(|c| c.rank_correlation_propellant)
-        .collect();
+    let top = &r.contributors[..r.contributors.len().min(8)];
+    let names: Vec<String> = top.iter().map(|c| readable(&c.name)).collect();
+    let names: Vec<&str> = names.iter().map(String::as_str).collect();
+    let rho: Vec<f64> = top.iter().map(|c| c.rank_correlation_propellant).collect();
     out.extend(super::plots::bars(
         "dispersions-contributors",
-        &format!("contributors to the propellant remaining — {title}"),
+        &format!("contributors to the propellant remaining ({title})"),
         "Spearman rank correlation",
         &names,
         &rho,
     )?);
     Ok(out)
+}
+
+/// `stages[1].thrust_percent` as `stage 2 thrust %` (words that wrap under a bar).
+fn readable(name: &str) -> String {
+    let mut s = name.to_string();
+    if let Some(rest) = s.strip_prefix("stages[") {
+        if let Some((k, tail)) = rest.split_once("].") {
+            let k: usize = k.parse().unwrap_or(0);
+            s = format!("stage {} {tail}", k + 1);
+        }
+    }
+    s.replace("boosters.", "boosters ")
+        .replace("_percent", " %")
+        .replace("isp_s", "Isp s")
+        .replace('_', " ")
 }
