@@ -382,7 +382,7 @@ pub enum SteeringFile {
 }
 
 /// Settings of closed-loop guidance (all optional).
-#[derive(Debug, Clone, Copy, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct GuidanceFile {
     /// Guidance cycle, s (default 1).
@@ -391,6 +391,10 @@ pub struct GuidanceFile {
     /// Time to go below which the steering is held, s (default 4, at least two cycles).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub hold_s: Option<f64>,
+    /// The orbit this burn aims at, in the form of `target` (default: the problem's `target`);
+    /// for an intermediate burn, such as a transfer burn cut off on its apogee.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub aim: Option<TargetFile>,
 }
 
 /// Linear tangent law tan θ = tan θ0 − c·τ, τ time since the arc's start, θ above the horizontal

@@ -429,20 +429,43 @@ fn arc(i: usize, a: &ArcFile, has_target: bool) -> R<Arc> {
     let p = format!("ascent.arcs[{i}]");
     Ok(match a {
         ArcFile::Burn(b) => {
-            let steering = Steering::from_file(&format!("{p}.burn.steering"), &b.steering)?;
+            let mut steering = Steering::from_file(&format!("{p}.burn.steering"), &b.steering)?;
             let cutoff = cutoff(&format!("{p}.burn.cutoff"), b.cutoff, has_target)?;
-            if matches!(steering, Steering::Guidance(_)) {
-                // Guidance aims at the target orbit and ends on its energy.
-                if !has_target {
+            if let (Steering::Guidance(g), SteeringFile::Guidance(gf)) =
+                (&mut steering, &b.steering)
+            {
+                let aim_path = format!("{p}.burn.steering.guidance.aim");
+                g.aim = gf
+                    .aim
+                    .as_ref()
+                    .map(|a| {
+                        // The aim has the target's form: name its own fields in errors.
+                        target(a).map_err(|e| match e {
+                            ProblemError::Invalid { field, reason } => ProblemError::Invalid {
+                                field: field.replacen("target", &aim_path, 1),
+                                reason,
+                            },
+                            e => e,
+                        })
+                    })
+                    .transpose()?;
+                // Guidance aims at the target orbit (or its own aim) and ends on its energy
+                // (an intermediate aim: on its apogee or perigee).
+                if !has_target && g.aim.is_none() {
                     return bad(
                         &format!("{p}.burn.steering.guidance"),
-                        "closed-loop guidance needs a `target` section to aim at",
+                        "closed-loop guidance needs a `target` section (or an `aim`) to aim at",
                     );
                 }
-                if cutoff != Cutoff::TargetOrbit {
+                let ok = match cutoff {
+                    Cutoff::TargetOrbit => has_target,
+                    Cutoff::ApogeeAlt(_) | Cutoff::PerigeeAlt(_) => g.aim.is_some(),
+                    _ => false,
+                };
+                if !ok {
                     return bad(
                         &format!("{p}.burn.cutoff"),
-                        "a guided burn must be cut off by \"target_orbit\" (the guidance aims at the target's energy)",
+                        "a guided burn must be cut off by \"target_orbit\" (the guidance aims at the target's energy), or with an `aim` by the aim's apogee_alt_km or perigee_alt_km",
                     );
                 }
             }

@@ -71,6 +71,9 @@ pub struct Guidance {
     /// commands of a recorded flight, in inertial axes against time, without guidance cycles.
     /// Not in the file: `kickturn dispersions --open-loop` sets it from the nominal flight.
     pub replay: Option<Vec<(f64, Plan)>>,
+    /// The orbit this burn aims at instead of the problem's target (an intermediate burn).
+    /// Validation sets it from the file's `aim`.
+    pub aim: Option<Target>,
 }
 
 impl Default for Guidance {
@@ -79,6 +82,7 @@ impl Default for Guidance {
             cycle_s: DEFAULT_CYCLE_S,
             hold_s: DEFAULT_HOLD_S,
             replay: None,
+            aim: None,
         }
     }
 }
@@ -104,6 +108,7 @@ impl Guidance {
             cycle_s,
             hold_s,
             replay: None,
+            aim: None,
         })
     }
 }
@@ -353,11 +358,15 @@ impl Guided {
         let v_hor = v - up * v.dot(&up);
         let dir = if v_hor.norm() > 1.0 { v_hor } else { hor };
         let h = unit_or(&up.cross(&dir), &Vector3::z());
-        let normal = match (geometry, s.target.and_then(|t| t.inclination_rad)) {
+        let target = settings.aim.as_ref().or(s.target);
+        let inclination = target
+            .and_then(|t| t.inclination_rad)
+            .or(s.target.and_then(|t| t.inclination_rad));
+        let normal = match (geometry, inclination) {
             (Geometry::Round { .. }, Some(i)) => plane_normal(&r, &h, i),
             _ => h,
         };
-        let aim = s.target.map(|t| aim_of(t, &geometry));
+        let aim = target.map(|t| aim_of(t, &geometry));
         let mut g = Guided {
             settings,
             geometry,
