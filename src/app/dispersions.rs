@@ -504,9 +504,8 @@ fn summarize(
         .collect();
     let mut sorted = prop.clone();
     sorted.sort_by(f64::total_cmp);
-    let collect = |f: &dyn Fn(&Sample) -> Option<f64>| -> Vec<f64> {
-        runs.iter().filter_map(f).collect()
-    };
+    let collect =
+        |f: &dyn Fn(&Sample) -> Option<f64>| -> Vec<f64> { runs.iter().filter_map(f).collect() };
     let perigee = collect(&|s| s.perigee_error_km);
     let apogee = collect(&|s| s.apogee_error_km);
     let incl = collect(&|s| s.inclination_error_deg);

@@ -1,6 +1,6 @@
 //! Closed-loop upper-stage guidance: powered explicit guidance in the form of Jaggers
 //! ("An explicit solution to the exoatmospheric powered flight guidance and trajectory
-//! optimization problem for rocket propelled vehicles", AIAA paper 77-1051, 1977, from memory;
+//! optimization problem for rocket propelled vehicles", AIAA paper, 1977, from memory;
 //! the same scheme as the Space Shuttle's PEG), with its gravity and thrust predictor replaced by
 //! a numerical one.
 //!
