@@ -196,3 +196,55 @@ fn a_bad_dispersion_is_named_by_its_field() {
     assert!(String::from_utf8_lossy(&out.stderr).contains("--samples"));
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn csv_figures_and_html_report() {
+    let dir = std::env::temp_dir().join(format!("kickturn-disp-out-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    let _ = std::fs::create_dir_all(&dir);
+    let (csv, plot, html) = (dir.join("s.csv"), dir.join("fig"), dir.join("r.html"));
+    let out = kickturn(&[
+        "dispersions",
+        GUIDED[2],
+        "--samples",
+        "16",
+        "--csv",
+        &csv.to_string_lossy(),
+        "--plot",
+        &plot.to_string_lossy(),
+        "--report",
+        &html.to_string_lossy(),
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = std::fs::read_to_string(&csv).unwrap_or_default();
+    // A header and one row per sample.
+    assert_eq!(text.lines().count(), 17);
+    assert!(text.starts_with("index,sample_seed,stages[0].thrust_percent"));
+    for f in [
+        "dispersions-propellant",
+        "dispersions-orbit-errors",
+        "dispersions-contributors",
+    ] {
+        for ext in ["png", "svg"] {
+            assert!(plot.join(format!("{f}.{ext}")).is_file(), "{f}.{ext}");
+        }
+    }
+    let page = std::fs::read_to_string(&html).unwrap_or_default();
+    assert!(page.contains("Preliminary design only") && page.contains("<svg"));
+    // --sample prints one flight: the study's outputs are refused.
+    let out = kickturn(&[
+        "dispersions",
+        GUIDED[2],
+        "--sample",
+        "1",
+        "--csv",
+        &csv.to_string_lossy(),
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let _ = std::fs::remove_dir_all(&dir);
+}

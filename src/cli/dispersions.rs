@@ -14,7 +14,7 @@ use kickturn::render;
 use super::io::{
     check_outputs, emit_report, load_case, read_text, write_atomic, OutputKind, Progress,
 };
-use super::{app_error, exit_code, EXIT_BAD_INPUT};
+use super::{app_error, exit_code};
 
 /// Arguments of `dispersions`.
 #[derive(Debug, clap::Args)]
@@ -53,6 +53,9 @@ pub struct DispersionsArgs {
     /// Write the figures (PNG and SVG) into this folder.
     #[arg(long, value_name = "DIR")]
     pub plot: Option<PathBuf>,
+    /// Write a self-contained HTML report (text and figures) to this file.
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
 }
 
 fn load(a: &DispersionsArgs) -> anyhow::Result<Case> {
@@ -79,6 +82,9 @@ pub fn run(a: &DispersionsArgs) -> anyhow::Result<u8> {
     if let Some(p) = &a.plot {
         outputs.push(("--plot", p.as_path(), OutputKind::Folder));
     }
+    if let Some(p) = &a.report {
+        outputs.push(("--report", p.as_path(), OutputKind::File));
+    }
     let mut inputs = vec![a.problem.as_path()];
     if let Some(d) = &a.dispersions {
         inputs.push(d.as_path());
@@ -100,9 +106,8 @@ pub fn run(a: &DispersionsArgs) -> anyhow::Result<u8> {
         app_error(&a.problem, e, a.json)
     };
     if let Some(k) = a.sample {
-        if a.csv.is_some() || a.plot.is_some() {
-            eprintln!("error: --sample prints one flight; --csv and --plot belong to the study");
-            return Ok(EXIT_BAD_INPUT);
+        if a.csv.is_some() || a.plot.is_some() || a.report.is_some() {
+            bail!("--sample prints one flight; --csv, --plot and --report belong to the study");
         }
         let run = match dispersions::fly_one(&case, &o, k, None) {
             Ok(r) => r,
@@ -147,6 +152,10 @@ pub fn run(a: &DispersionsArgs) -> anyhow::Result<u8> {
             &a.problem,
             &render::figures::dispersion_figures(&report)?,
         )?;
+    }
+    if let Some(path) = &a.report {
+        let page = render::html::dispersions_page(&report)?;
+        write_atomic(path, &a.problem, page.as_bytes())?;
     }
     if a.json {
         emit_report(&format!("{}\n", serde_json::to_string_pretty(&report)?))?;
