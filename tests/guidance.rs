@@ -236,3 +236,41 @@ fn guidance_converges_from_thrust_and_isp_errors() {
         }
     }
 }
+
+#[test]
+fn solve_tunes_the_rest_of_the_program_and_hands_the_last_burn_to_guidance() {
+    use kickturn::app::solve::{solve, SolveSettings};
+    use kickturn::app::{Case, Silent};
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let case = |rel: &str| {
+        Case::from_json(&std::fs::read_to_string(root.join(rel)).unwrap_or_default())
+            .unwrap_or_else(|e| panic!("{rel}: {e}"))
+    };
+    let open = solve(
+        &case("problems/medium-2stage-leo200.json"),
+        &SolveSettings::default(),
+        &Silent,
+    )
+    .unwrap_or_else(|e| panic!("{e}"));
+    let guided = solve(
+        &case("problems/guided/medium-2stage-leo200-guided.json"),
+        &SolveSettings::default(),
+        &Silent,
+    )
+    .unwrap_or_else(|e| panic!("{e}"));
+    assert!(guided.succeeded(), "{:?}", guided.report.convergence);
+    // The written program keeps the guided burn; no stand-in parameter is reported.
+    let text = serde_json::to_string(&guided.tuned_file.ascent).unwrap_or_default();
+    assert!(text.contains("\"guidance\""), "{text}");
+    assert!(guided
+        .report
+        .tuned
+        .iter()
+        .all(|t| !t.field.contains("arcs[2].burn")));
+    // Issue 13: within 0.2 % of the propellant of the open-loop optimum.
+    let (u, uo) = (
+        guided.report.propellant_used_kg,
+        open.report.propellant_used_kg,
+    );
+    assert!(((u - uo) / uo).abs() < 2e-3, "used {u} kg vs {uo} kg");
+}
