@@ -474,12 +474,14 @@ fn set_final_cutoff(f: &mut ProblemFile) {
     }
 }
 
+/// A case with a stand-in law for its guided last burn, and (arc index, the guided steering to
+/// put back).
+type Standin = (Case, (usize, crate::core::problem::file::SteeringFile));
+
 /// When the last burn of `case` is guided: the case with that burn flown by a linear tangent
 /// stand-in (the optimizer tunes it, its automatic start included), and (arc index, the guided
 /// steering to put back).
-fn guided_standin(
-    case: &Case,
-) -> Result<Option<(Case, (usize, crate::core::problem::file::SteeringFile))>, Error> {
+fn guided_standin(case: &Case) -> Result<Option<Standin>, Error> {
     use crate::core::problem::file::{LinearTangentFile, SteeringFile};
     let Some((i, ArcFile::Burn(b))) = case
         .file
