@@ -274,3 +274,22 @@ fn solve_tunes_the_rest_of_the_program_and_hands_the_last_burn_to_guidance() {
     );
     assert!(((u - uo) / uo).abs() < 2e-3, "used {u} kg vs {uo} kg");
 }
+
+#[test]
+fn guidance_without_enough_propellant_flies_to_depletion_without_panicking() {
+    // Half the upper stage's propellant: the target energy is out of reach; the guidance keeps a
+    // finite plan and the stage burns out (the flight ends, short of the target).
+    let mut v = guided("medium-2stage-leo200.json");
+    let prop = v["vehicle"]["stages"][1]["propellant_kg"]
+        .as_f64()
+        .unwrap_or(0.0);
+    v["vehicle"]["stages"][1]["propellant_kg"] = json!(0.5 * prop);
+    let (f, r) = report(&problem(&v));
+    assert!(f.y1.iter().all(|x| x.is_finite()));
+    assert!(!r.target_deviation.is_some_and(|d| d.met));
+    assert!(
+        f.propellant_remaining_kg < 1.0,
+        "{}",
+        f.propellant_remaining_kg
+    );
+}

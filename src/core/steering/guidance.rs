@@ -6,7 +6,7 @@
 //!
 //! The steering is the vacuum-optimal vector form `û ∝ λ + λ̇ (t − t_λ)` (linear tangent in vector
 //! form; Bryson & Ho, *Applied Optimal Control*, 1975, §2.4, from memory), λ unit along the
-//! velocity to be gained `v_go`, λ̇ ⊥ λ. Every guidance cycle (default 1 s) the law re-solves
+//! velocity to be gained `v_go`. Every guidance cycle (default 1 s) the law re-solves
 //! λ, λ̇ and the time to go `T` from the current state:
 //!
 //! 1. `L = |v_go|` gives `T` by the rocket equation (with the acceleration limit, if any);
@@ -425,6 +425,23 @@ impl Guided {
 
     /// One corrector step from the state `now`: new steering, prediction, velocity miss.
     fn correct(&mut self, now: &GuidanceInput) {
+        let before = self.clone();
+        self.correct_once(now);
+        // A step that leaves numbers behind (a diverging corrector, a spent stage) is undone:
+        // the law keeps flying its last finite plan.
+        let finite = |v: &Vector3<f64>| v.iter().all(|x| x.is_finite());
+        if !(finite(&self.v_go)
+            && finite(&self.lambda)
+            && finite(&self.lambda_dot)
+            && self.t_ref_s.is_finite()
+            && self.miss_mps.is_finite())
+        {
+            *self = before;
+            self.miss_mps = 0.0;
+        }
+    }
+
+    fn correct_once(&mut self, now: &GuidanceInput) {
         let Some(aim) = self.aim else { return };
         let stage = Stage::of(now);
         let l_go = self.v_go.norm().max(1e-6);
