@@ -50,9 +50,26 @@ fn two_hundred_samples_of_each_guided_demo() {
         // when samples fail.
         assert_eq!(r["reserve"]["min_samples"], 767);
         if demo.contains("small") {
-            // Its kick stage's transfer burn flies open loop (docs/method.md §14): most samples
-            // miss, and the report says so.
+            // Its circularization burn cannot move the apogee radius left by the transfer burn
+            // (docs/method.md §14): some samples miss ±0.1 km, fewer miss ±1 km.
             assert!(failures > 0);
+            let loose = json_of(&kickturn(&[
+                "dispersions",
+                demo,
+                "--samples",
+                "200",
+                "--seed",
+                "7",
+                "--json",
+                "--apsis-tol-km",
+                "1",
+                "--inclination-tol-deg",
+                "0.01",
+            ]));
+            assert_eq!(loose["apsis_tol_km"], 1.0);
+            let met_loose = loose["target_met"].as_u64().unwrap_or(0);
+            assert!(met_loose > met, "{met_loose} vs {met}");
+            assert_eq!(loose["runs"][3]["draws"], r["runs"][3]["draws"]);
         } else {
             // The guided upper stage absorbs the dispersions: every sample on target, the
             // reserve a positive mass below the nominal remaining.

@@ -12,7 +12,7 @@ use std::sync::{Arc as Shared, Mutex};
 use rayon::prelude::*;
 use serde::Serialize;
 
-use super::outcome::{FlightReport, Status, CAUTION};
+use super::outcome::{FlightReport, Status, APSIS_TOL_KM, CAUTION, INCLINATION_TOL_DEG};
 use super::{tool_version, Case, Error};
 use crate::core::dispersion::{self, Model};
 use crate::core::observe::Observer;
@@ -42,6 +42,11 @@ pub struct DispersionOptions {
     pub probability: Option<f64>,
     /// Confidence (`None`: the file's, else 0.90).
     pub confidence: Option<f64>,
+    /// A sample meets the target when its apsides are within this, km (default: the insertion
+    /// tolerance of every command, 0.1 km).
+    pub apsis_tol_km: f64,
+    /// … and its inclination within this, deg (default 0.001°).
+    pub inclination_tol_deg: f64,
 }
 
 impl Default for DispersionOptions {
@@ -52,6 +57,8 @@ impl Default for DispersionOptions {
             open_loop: false,
             probability: None,
             confidence: None,
+            apsis_tol_km: APSIS_TOL_KM,
+            inclination_tol_deg: INCLINATION_TOL_DEG,
         }
     }
 }
@@ -80,7 +87,7 @@ pub struct Sample {
     pub draws: Vec<f64>,
     /// How the flight ended.
     pub status: Status,
-    /// The target is met within the insertion tolerance (±0.1 km apsides, ±0.001°).
+    /// In orbit and within the study's tolerance of the target (apsides, inclination).
     pub target_met: bool,
     /// Perigee altitude error, km (orbit reached).
     pub perigee_error_km: Option<f64>,
@@ -204,6 +211,10 @@ pub struct DispersionReport {
     pub variables: Vec<VariableInfo>,
     /// The nominal (undispersed) flight met the target.
     pub nominal_target_met: bool,
+    /// Apsis tolerance of "target met", km.
+    pub apsis_tol_km: f64,
+    /// Inclination tolerance of "target met", deg.
+    pub inclination_tol_deg: f64,
     /// Samples that met the target.
     pub target_met: usize,
     /// Fraction of samples that met the target.
@@ -371,6 +382,17 @@ fn prepare(case: &Case, o: &DispersionOptions) -> Result<Prepared, Error> {
             reason: format!("must lie in [1, {MAX_SAMPLES}], got {}", o.samples),
         });
     }
+    for (name, v) in [
+        ("apsis_tol_km", o.apsis_tol_km),
+        ("inclination_tol_deg", o.inclination_tol_deg),
+    ] {
+        if !(v > 0.0 && v <= 1e4) {
+            return Err(Error::Option {
+                option: name,
+                reason: format!("must lie in (0, 10000], got {}", super::show(v)),
+            });
+        }
+    }
     let p = case.reachable()?;
     if p.target.is_none() {
         return Err(Error::Problem(crate::core::error::ProblemError::invalid(
@@ -409,7 +431,13 @@ fn prepare(case: &Case, o: &DispersionOptions) -> Result<Prepared, Error> {
     })
 }
 
-fn fly_sample(pr: &Prepared, seed: u64, index: usize, record: Option<f64>) -> SampleRun {
+fn fly_sample(
+    pr: &Prepared,
+    seed: u64,
+    index: usize,
+    record: Option<f64>,
+    tol: (f64, f64),
+) -> SampleRun {
     let draws = pr.model.draw(seed, index as u64);
     let p = pr.model.apply(&pr.base, &draws);
     let flight = sim::fly(
@@ -427,7 +455,12 @@ fn fly_sample(pr: &Prepared, seed: u64, index: usize, record: Option<f64>) -> Sa
         sample_seed: dispersion::sample_seed(seed, index as u64),
         draws,
         status: report.status,
-        target_met: d.is_some_and(|d| d.met) && in_orbit,
+        target_met: in_orbit
+            && d.is_some_and(|d| {
+                d.perigee_km.abs() <= tol.0
+                    && d.apogee_km.is_some_and(|a| a.abs() <= tol.0)
+                    && d.inclination_deg.is_none_or(|i| i.abs() <= tol.1)
+            }),
         perigee_error_km: d.filter(|_| in_orbit).map(|d| d.perigee_km),
         apogee_error_km: d.filter(|_| in_orbit).and_then(|d| d.apogee_km),
         inclination_error_deg: d.filter(|_| in_orbit).and_then(|d| d.inclination_deg),
@@ -458,7 +491,13 @@ pub fn fly_one(
             ..*o
         },
     )?;
-    Ok(fly_sample(&pr, o.seed, index, record_step_s))
+    Ok(fly_sample(
+        &pr,
+        o.seed,
+        index,
+        record_step_s,
+        (o.apsis_tol_km, o.inclination_tol_deg),
+    ))
 }
 
 /// Flies the study: `o.samples` dispersed flights in parallel, one [`Observer::advanced`] each.
@@ -476,7 +515,14 @@ pub fn run(
     let runs: Vec<Sample> = (0..o.samples)
         .into_par_iter()
         .map(|k| {
-            let s = fly_sample(&pr, o.seed, k, None).sample;
+            let s = fly_sample(
+                &pr,
+                o.seed,
+                k,
+                None,
+                (o.apsis_tol_km, o.inclination_tol_deg),
+            )
+            .sample;
             obs.advanced();
             s
         })
@@ -611,6 +657,8 @@ fn summarize(
             .collect(),
         nominal_target_met: nominal.target_deviation.is_some_and(|d| d.met)
             && nominal.reached_orbit(),
+        apsis_tol_km: o.apsis_tol_km,
+        inclination_tol_deg: o.inclination_tol_deg,
         target_met: on_target.len(),
         target_met_fraction: on_target.len() as f64 / n.max(1) as f64,
         perigee_error_km: Stats::of(&perigee),

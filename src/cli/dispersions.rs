@@ -37,6 +37,12 @@ pub struct DispersionsArgs {
     /// Confidence of the reserve (default: the file's, else 0.90).
     #[arg(long, value_name = "C")]
     pub confidence: Option<f64>,
+    /// A sample meets the target when its apsides are within this, km.
+    #[arg(long, default_value_t = kickturn::app::outcome::APSIS_TOL_KM, value_name = "KM")]
+    pub apsis_tol_km: f64,
+    /// … and its inclination within this, deg.
+    #[arg(long, default_value_t = kickturn::app::outcome::INCLINATION_TOL_DEG, value_name = "DEG")]
+    pub inclination_tol_deg: f64,
     /// Read the `dispersions` section from this JSON file instead of the problem file (the file
     /// holds the section's object itself).
     #[arg(long, value_name = "FILE")]
@@ -98,6 +104,8 @@ pub fn run(a: &DispersionsArgs) -> anyhow::Result<u8> {
         open_loop: a.open_loop,
         probability: a.probability,
         confidence: a.confidence,
+        apsis_tol_km: a.apsis_tol_km,
+        inclination_tol_deg: a.inclination_tol_deg,
     };
     let flag = |e: kickturn::app::Error| -> anyhow::Result<u8> {
         if let kickturn::app::Error::Option { option, reason } = &e {

@@ -45,7 +45,9 @@ pub fn text(r: &DispersionReport) -> String {
     let _ = writeln!(s);
     let _ = writeln!(
         s,
-        "Target met (±0.1 km apsides, ±0.001° inclination): {} of {} = {:.2} %{}",
+        "Target met (±{} km apsides, ±{}° inclination): {} of {} = {:.2} %{}",
+        r.apsis_tol_km,
+        r.inclination_tol_deg,
         r.target_met,
         r.samples,
         100.0 * r.target_met_fraction,
