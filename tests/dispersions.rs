@@ -53,11 +53,13 @@ fn two_hundred_samples_of_each_guided_demo() {
             // Its circularization burn cannot move the apogee radius left by the transfer burn
             // (docs/method.md §14): some samples miss ±0.1 km, fewer miss ±1 km.
             assert!(failures > 0);
+            // The first 40 samples again, with a looser tolerance (draws depend on the index
+            // only): never fewer of them on target.
             let loose = json_of(&kickturn(&[
                 "dispersions",
                 demo,
                 "--samples",
-                "200",
+                "40",
                 "--seed",
                 "7",
                 "--json",
@@ -67,8 +69,14 @@ fn two_hundred_samples_of_each_guided_demo() {
                 "0.01",
             ]));
             assert_eq!(loose["apsis_tol_km"], 1.0);
-            let met_loose = loose["target_met"].as_u64().unwrap_or(0);
-            assert!(met_loose > met, "{met_loose} vs {met}");
+            let met_loose = loose["target_met"].as_u64().unwrap_or(0) as usize;
+            let strict = r["runs"].as_array().map_or(0, |v| {
+                v.iter()
+                    .take(40)
+                    .filter(|x| x["target_met"] == true)
+                    .count()
+            });
+            assert!(met_loose >= strict, "{met_loose} vs {strict}");
             assert_eq!(loose["runs"][3]["draws"], r["runs"][3]["draws"]);
         } else {
             // The guided upper stage absorbs the dispersions: every sample on target, the
@@ -82,7 +90,7 @@ fn two_hundred_samples_of_each_guided_demo() {
                 "{demo}: reserve {kg} of {nominal} kg"
             );
             let text = String::from_utf8_lossy(
-                &kickturn(&["dispersions", demo, "--samples", "200", "--seed", "7"]).stdout,
+                &kickturn(&["dispersions", demo, "--samples", "20", "--seed", "7"]).stdout,
             )
             .to_string();
             assert!(text.contains("NORMAL FIT (estimate"), "{text}");
