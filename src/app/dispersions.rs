@@ -632,13 +632,16 @@ fn summarize(
                     s.inclination_error_deg
                         .map_or("-".to_string(), |i| format!("{i:+.4}"))
                 ),
-                (st, _) => format!("{st:?}").to_lowercase(),
+                (st, _) => serde_json::to_value(st)
+                    .ok()
+                    .and_then(|v| v.as_str().map(str::to_string))
+                    .unwrap_or_default(),
             },
         })
         .collect();
     DispersionReport {
         tool: tool_version(),
-        input_sha256: p.input_sha256.clone(),
+        input_sha256: case.problem.input_sha256.clone(),
         problem: p.name.clone(),
         seed: o.seed,
         samples: n,
@@ -684,13 +687,5 @@ fn summarize(
         failures,
         runs,
         caution: CAUTION,
-    }
-    .with_sha(case)
-}
-
-impl DispersionReport {
-    fn with_sha(mut self, case: &Case) -> Self {
-        self.input_sha256 = case.problem.input_sha256.clone();
-        self
     }
 }
