@@ -35,7 +35,9 @@
 //!
 //! What the law knows: the flown vehicle's thrust, exhaust velocity, mass and propellant at each
 //! cycle (as a navigation system measuring sensed acceleration and flow would), but not the
-//! future: a thrust or Isp error shows up as a changing state, and the next cycles absorb it.
+//! future: a thrust or Isp error, or a jettison, shows up as a changing state, and the next
+//! cycles absorb it. It ignores drag. An intermediate burn aims at its own `aim` orbit and is cut
+//! off on its apogee or perigee.
 
 use nalgebra::Vector3;
 
@@ -315,9 +317,9 @@ pub struct Guided {
     miss_mps: f64,
 }
 
-/// The target plane through `r` of inclination `i` closest to the motion `h` (angular momentum
-/// direction); `None` if no such plane (|cos i| above the cosine of the latitude of r: taken as
-/// the nearest reachable plane).
+/// The normal of the plane through `r` of inclination `inc_rad` closest to the motion `h`
+/// (angular momentum direction). An inclination below the latitude of r (no such plane) gives
+/// the nearest reachable plane (the one heading due east or west).
 fn plane_normal(r: &Vector3<f64>, h: &Vector3<f64>, inc_rad: f64) -> Vector3<f64> {
     // n ⊥ r̂ and n·ẑ = cos i: n = c1 e1 + c2 e2, e1 = unit(ẑ − (ẑ·r̂)r̂), e2 = r̂ × e1 (e2 ⊥ ẑ).
     let rh = unit_or(r, &Vector3::x());
@@ -657,5 +659,56 @@ impl ActiveLaw for Guided {
                 break;
             }
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn plane_normal_has_the_asked_inclination_and_contains_r() {
+        // Source: definition of inclination, cos i = n̂·ẑ (any text, e.g. Curtis ch. 4).
+        let lat = 28.5f64.to_radians();
+        let r = Vector3::new(lat.cos(), 0.0, lat.sin()) * 6.5e6;
+        let h = Vector3::new(0.0, -0.3, 1.0); // prograde, northerly motion
+        for inc in [30.0f64, 51.6, 97.4] {
+            let n = plane_normal(&r, &h, inc.to_radians());
+            assert!((n.norm() - 1.0).abs() < 1e-12);
+            assert!(n.dot(&r).abs() < 1e-6, "r in the plane");
+            assert!((n.z.acos().to_degrees() - inc).abs() < 1e-9, "{inc}");
+        }
+    }
+
+    #[test]
+    fn burn_time_inverts_the_rocket_equation() {
+        // Source: Tsiolkovsky, Δv = c ln(m0/m1) (domain brief §3g); above the acceleration limit
+        // the thrust acceleration is held, so Δv grows linearly in time.
+        let s = Stage {
+            mass_kg: 10_000.0,
+            thrust_n: 100_000.0,
+            ve_mps: 3_000.0,
+            propellant_kg: 8_000.0,
+            a_max_mps2: f64::INFINITY,
+        };
+        let t = s.time_for(3_000.0 * (2.0f64).ln());
+        // Half the mass burned at 100/3 kg/s: 150 s.
+        assert!((t - 150.0).abs() < 1e-9, "{t}");
+        // Simpson on 16 intervals: ~1e-6 relative, enough for the corrector (which removes the
+        // integrals' errors through its bias terms).
+        let (l, _, _) = s.integrals(t);
+        assert!((l - 3_000.0 * (2.0f64).ln()).abs() < 1e-2, "{l}");
+        let limited = Stage {
+            a_max_mps2: 20.0,
+            ..s
+        };
+        // Full thrust until m = 5000 kg (150 s, Δv = c ln 2), then 20 m/s² held.
+        let t2 = limited.time_for(3_000.0 * (2.0f64).ln() + 200.0);
+        assert!((t2 - 160.0).abs() < 1e-9, "{t2}");
+        let (l2, _, _) = limited.integrals(t2);
+        assert!(
+            (l2 - (3_000.0 * (2.0f64).ln() + 200.0)).abs() < 1e-2,
+            "{l2}"
+        );
     }
 }
