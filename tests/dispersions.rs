@@ -273,3 +273,42 @@ fn csv_figures_and_html_report() {
     assert_eq!(out.status.code(), Some(2));
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn a_separate_dispersions_file_replaces_the_section() {
+    let dir = std::env::temp_dir().join(format!("kickturn-disp-sep-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let sep = dir.join("d.json");
+    let _ = std::fs::write(
+        &sep,
+        r#"{ "thrust_percent": { "uniform": [-0.5, 0.5] }, "isp_s": { "normal_3sigma": 0 } }"#,
+    );
+    let r = json_of(&kickturn(&[
+        "dispersions",
+        GUIDED[1],
+        "--samples",
+        "8",
+        "--json",
+        "--dispersions",
+        &sep.to_string_lossy(),
+    ]));
+    let vars = r["variables"].as_array().cloned().unwrap_or_default();
+    let spread = |name: &str| {
+        vars.iter()
+            .find(|v| v["name"] == name)
+            .map(|v| (v["spread"].clone(), v["placeholder"].clone()))
+    };
+    assert_eq!(
+        spread("stages[0].thrust_percent"),
+        Some(("uniform [-0.5, 0.5] %".into(), false.into()))
+    );
+    // Keys the separate file leaves out take their placeholders (and say so).
+    assert_eq!(spread("cd_scale_percent").map(|s| s.1), Some(true.into()));
+    // A zero spread draws zeros.
+    let isp_col = vars
+        .iter()
+        .position(|v| v["name"] == "stages[1].isp_s")
+        .unwrap_or(usize::MAX);
+    assert_eq!(r["runs"][0]["draws"][isp_col], 0.0);
+    let _ = std::fs::remove_dir_all(&dir);
+}
