@@ -40,5 +40,5 @@ mod python;
 
 // The core's modules under their short names, for callers and tests.
 pub use crate::core::{
-    budget, error, observe, optimize, physics, problem, random, sim, steering, vehicle,
+    budget, dispersion, error, observe, optimize, physics, problem, random, sim, steering, vehicle,
 };

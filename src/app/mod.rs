@@ -13,6 +13,7 @@
 //! [`Observer`](crate::core::observe::Observer), results come back as values, and each outcome
 //! says whether it succeeded (the command line maps that to an exit code).
 
+pub mod dispersions;
 pub mod fly;
 pub mod outcome;
 pub mod solve;

@@ -11,7 +11,7 @@ use super::outcome::{FlightReport, Status};
 use super::{check_range, check_step, Case, Error};
 use crate::core::observe::Observer;
 use crate::core::optimize::{tune_observed, Convergence, SolveOptions, SolveStatus};
-use crate::core::problem::file::{AscentFile, LaunchFile, ProblemFile};
+use crate::core::problem::file::{ArcFile, AscentFile, LaunchFile, ProblemFile};
 use crate::core::problem::params::Param;
 use crate::core::problem::{validate, Problem};
 use crate::core::sim::dynamics::ix;
@@ -394,13 +394,26 @@ impl SolveReport {
 /// controls); [`Error::WriteBack`] when the tuned program does not validate in the file form.
 pub fn solve(case: &Case, s: &SolveSettings, obs: &dyn Observer) -> Result<SolveRun, Error> {
     s.check()?;
+    // A guided last burn is tuned through a linear tangent stand-in (the law guidance flies in
+    // vacuum), then handed back to guidance: the rest of the program is tuned as usual and the
+    // guided stage closes the loop in the flight reported.
+    let standin = guided_standin(case)?;
+    let case = standin.as_ref().map_or(case, |(c, _)| c);
     let p = case.target_reachable()?;
-    let sol = tune_observed(p, &s.solver, obs)?;
+    let mut sol = tune_observed(p, &s.solver, obs)?;
     let mut tuned_file = case.file.clone();
     for (v, x) in &sol.variables {
         v.write(&mut tuned_file, *x);
     }
     set_final_cutoff(&mut tuned_file);
+    if let Some((_, (arc, guidance))) = &standin {
+        if let Some(ArcFile::Burn(b)) = tuned_file.ascent.arcs.get_mut(*arc) {
+            b.steering = guidance.clone();
+        }
+        // The stand-in's parameters are not in the written program.
+        sol.variables
+            .retain(|(v, _)| !matches!(v, Param::Law { arc: a, .. } if a == arc));
+    }
     if let Some(b) = sol.problem.program.bucket {
         tuned_file.ascent.throttle_bucket = Some(crate::core::problem::file::BucketFile {
             start_s: b.start_s,
@@ -587,4 +600,41 @@ fn set_final_cutoff(f: &mut ProblemFile) {
     {
         b.cutoff = Some(CutoffFile::TargetOrbit);
     }
+}
+
+/// A case with a stand-in law for its guided last burn, and (arc index, the guided steering to
+/// put back).
+type Standin = (Case, (usize, crate::core::problem::file::SteeringFile));
+
+/// When the last burn of `case` is guided: the case with that burn flown by a linear tangent
+/// stand-in (the optimizer tunes it, its automatic start included), and (arc index, the guided
+/// steering to put back).
+fn guided_standin(case: &Case) -> Result<Option<Standin>, Error> {
+    use crate::core::problem::file::{LinearTangentFile, SteeringFile};
+    let Some((i, ArcFile::Burn(b))) = case
+        .file
+        .ascent
+        .arcs
+        .iter()
+        .enumerate()
+        .rev()
+        .find(|(_, a)| matches!(a, ArcFile::Burn(_)))
+    else {
+        return Ok(None);
+    };
+    if !matches!(b.steering, SteeringFile::Guidance(_)) {
+        return Ok(None);
+    }
+    let mut file = case.file.clone();
+    if let Some(ArcFile::Burn(sb)) = file.ascent.arcs.get_mut(i) {
+        sb.steering = SteeringFile::LinearTangent(LinearTangentFile {
+            pitch0_deg: 20.0,
+            tan_rate_per_s: 0.004,
+            yaw_rate_per_s: None,
+            heading_deg: None,
+        });
+    }
+    let mut c = Case::from_file(file)?;
+    c.problem.input_sha256 = case.problem.input_sha256.clone();
+    Ok(Some((c, (i, b.steering.clone()))))
 }

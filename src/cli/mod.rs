@@ -8,6 +8,7 @@
 //! interrupted by SIGINT or SIGTERM (a study keeps the points it finished in `--jsonl` and
 //! `--csv`; see `stream`).
 
+mod dispersions;
 mod io;
 mod solve;
 mod stream;
@@ -47,6 +48,9 @@ pub enum Command {
     /// Payload (or margin) change per unit change of each stage's dry mass, propellant, Isp and
     /// thrust, and of the drag coefficient.
     Trade(TradeArgs),
+    /// Fly the program many times with launch-day dispersions (closed-loop guidance where the
+    /// program has it) and size the flight performance reserve.
+    Dispersions(dispersions::DispersionsArgs),
 }
 
 /// Options shared by the study commands.
@@ -304,6 +308,7 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
         }
         Command::Compare(a) => study::run_compare(&a.problems, &a.study),
         Command::Trade(a) => study::run_trade(&a.problem, &a.study),
+        Command::Dispersions(a) => dispersions::run(&a),
     }
 }
 

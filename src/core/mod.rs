@@ -7,6 +7,7 @@
 //! nothing above it; reports progress only through [`observe::Observer`].
 
 pub mod budget;
+pub mod dispersion;
 pub mod error;
 pub mod observe;
 pub mod optimize;

@@ -379,3 +379,114 @@ fn draw_sweep(name: &str, axis: Axis, pts: &[Point]) -> Result<Vec<FigureFile>, 
     )?);
     Ok(out)
 }
+
+/// The figures of a dispersion study: the histogram of the propellant remaining with the reserve
+/// bound and the nominal marked, the perigee and apogee errors of every sample in orbit, and the
+/// contributors' rank correlations.
+pub fn dispersion_figures(
+    r: &crate::app::dispersions::DispersionReport,
+) -> Result<Vec<FigureFile>, PlotError> {
+    let title = format!("{} samples, seed {}", r.samples, r.seed);
+    // Histogram as a step curve: 30 bins over the samples on target.
+    let prop: Vec<f64> = r
+        .runs
+        .iter()
+        .filter(|s| s.target_met)
+        .map(|s| s.propellant_remaining_kg)
+        .collect();
+    let (lo, hi) = prop
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+            (a.min(*v), b.max(*v))
+        });
+    let bins = 30usize;
+    let (mut x, mut y) = (Vec::new(), Vec::new());
+    if lo.is_finite() && hi.is_finite() {
+        let w = ((hi - lo) / bins as f64).max(1e-9);
+        let mut counts = vec![0.0; bins];
+        for v in &prop {
+            let k = (((v - lo) / w) as usize).min(bins - 1);
+            counts[k] += 1.0;
+        }
+        for (k, c) in counts.iter().enumerate() {
+            let x0 = lo + w * k as f64;
+            x.extend([x0, x0 + w]);
+            y.extend([*c, *c]);
+        }
+    }
+    let mut marks = vec![(r.reserve.nominal_remaining_kg, "nominal".to_string())];
+    if let Some(b) = r.reserve.remaining_at_probability_kg {
+        marks.push((
+            b,
+            format!(
+                "reserve bound: {:.0} kg",
+                r.reserve.reserve_kg.unwrap_or(f64::NAN)
+            ),
+        ));
+    }
+    let mut out = line_chart(
+        "dispersions-propellant",
+        &format!(
+            "propellant remaining at insertion ({title}; p {}, c {})",
+            r.reserve.probability, r.reserve.confidence
+        ),
+        "propellant remaining, kg",
+        "samples per bin",
+        &x,
+        &[Series {
+            label: "samples on target",
+            y: &y,
+        }],
+        &[],
+        &as_markers(&marks),
+    )?;
+    // Perigee and apogee errors against the sample index.
+    let orbit: Vec<&crate::app::dispersions::Sample> = r
+        .runs
+        .iter()
+        .filter(|s| s.perigee_error_km.is_some())
+        .collect();
+    let per: Vec<f64> = orbit
+        .iter()
+        .map(|s| s.perigee_error_km.unwrap_or(f64::NAN))
+        .collect();
+    let apo: Vec<f64> = orbit
+        .iter()
+        .map(|s| s.apogee_error_km.unwrap_or(f64::NAN))
+        .collect();
+    out.extend(super::plots::scatter(
+        "dispersions-orbit-errors",
+        &format!("orbit errors, reached − target ({title})"),
+        "perigee error, km",
+        "apogee error, km",
+        &per,
+        &apo,
+    )?);
+    let top = &r.contributors[..r.contributors.len().min(8)];
+    let names: Vec<String> = top.iter().map(|c| readable(&c.name)).collect();
+    let names: Vec<&str> = names.iter().map(String::as_str).collect();
+    let rho: Vec<f64> = top.iter().map(|c| c.rank_correlation_propellant).collect();
+    out.extend(super::plots::bars(
+        "dispersions-contributors",
+        &format!("contributors to the propellant remaining ({title})"),
+        "Spearman rank correlation",
+        &names,
+        &rho,
+    )?);
+    Ok(out)
+}
+
+/// `stages[1].thrust_percent` as `stage 2 thrust %` (words that wrap under a bar).
+fn readable(name: &str) -> String {
+    let mut s = name.to_string();
+    if let Some(rest) = s.strip_prefix("stages[") {
+        if let Some((k, tail)) = rest.split_once("].") {
+            let k: usize = k.parse().unwrap_or(0);
+            s = format!("stage {} {tail}", k + 1);
+        }
+    }
+    s.replace("boosters.", "boosters ")
+        .replace("_percent", " %")
+        .replace("isp_s", "Isp s")
+        .replace('_', " ")
+}

@@ -127,3 +127,35 @@ pub fn page(
     let _ = writeln!(s, "</body></html>");
     Ok(s)
 }
+
+/// The dispersion study as one self-contained page: the text report and the figures (inline SVG).
+pub fn dispersions_page(
+    r: &crate::app::dispersions::DispersionReport,
+) -> Result<String, PlotError> {
+    let files = super::figures::dispersion_figures(r)?;
+    let mut s = String::new();
+    let title = format!("dispersions of {}", r.problem);
+    let _ = writeln!(
+        s,
+        "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title>",
+        esc(&title)
+    );
+    let _ = writeln!(s, "<style>body{{font-family:sans-serif;max-width:1250px;margin:auto;padding:1em}}.caution{{border:2px solid #b00;padding:0.5em;background:#fee}}pre{{background:#f6f6f6;padding:0.5em;white-space:pre-wrap}}</style></head><body>");
+    let _ = writeln!(s, "<h1>{}</h1>", esc(&title));
+    let _ = writeln!(
+        s,
+        "<p class=\"caution\"><b>Caution.</b> {}</p>",
+        esc(CAUTION)
+    );
+    let _ = writeln!(
+        s,
+        "<pre>{}</pre>",
+        esc(super::dispersions::text(r).trim_end())
+    );
+    let _ = writeln!(s, "<h2>Figures</h2>");
+    for svg in files.iter().filter(|p| p.name.ends_with(".svg")) {
+        let _ = writeln!(s, "<div>{}</div>", String::from_utf8_lossy(&svg.bytes));
+    }
+    let _ = writeln!(s, "</body></html>");
+    Ok(s)
+}

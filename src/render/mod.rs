@@ -3,6 +3,7 @@
 //! the caller decides where the bytes go.
 
 pub mod csv;
+pub mod dispersions;
 #[cfg(feature = "figures")]
 pub mod figures;
 #[cfg(feature = "figures")]

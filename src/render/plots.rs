@@ -202,6 +202,110 @@ pub fn waterfall(
     render(stem, &figure)
 }
 
+/// Bars from zero, one per label (positive and negative coloured apart), values printed on the
+/// bars: e.g. rank correlations of the contributors. Draws `<stem>.png` and `.svg`.
+pub fn bars(
+    stem: &str,
+    title: &str,
+    y_label: &str,
+    labels: &[&str],
+    values: &[f64],
+) -> Result<Vec<FigureFile>, PlotError> {
+    let figure = WaterfallFigure {
+        title,
+        y_label,
+        bars: labels
+            .iter()
+            .zip(values)
+            .map(|(l, v)| Bar {
+                label: (*l).to_string(),
+                from: 0.0,
+                to: if usable(*v) { *v } else { 0.0 },
+                value: usable(*v).then_some(*v),
+                step: true,
+            })
+            .collect(),
+    };
+    render(stem, &figure)
+}
+
+/// A scatter of (x, y) points with both axes through zero marked; non-finite points are skipped.
+/// Draws `<stem>.png` and `.svg`.
+pub fn scatter(
+    stem: &str,
+    title: &str,
+    x_label: &str,
+    y_label: &str,
+    x: &[f64],
+    y: &[f64],
+) -> Result<Vec<FigureFile>, PlotError> {
+    let figure = ScatterFigure {
+        title,
+        x_label,
+        y_label,
+        points: x
+            .iter()
+            .zip(y)
+            .filter(|(a, b)| usable(**a) && usable(**b))
+            .map(|(a, b)| (*a, *b))
+            .collect(),
+    };
+    render(stem, &figure)
+}
+
+struct ScatterFigure<'a> {
+    title: &'a str,
+    x_label: &'a str,
+    y_label: &'a str,
+    points: Vec<Xy>,
+}
+
+impl Figure for ScatterFigure<'_> {
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), String> {
+        let body = draw_title(root, self.title)?;
+        let xr = Bounds::of(self.points.iter().map(|p| p.0).chain([0.0])).padded(0.05, 0.0);
+        let yr = Bounds::of(self.points.iter().map(|p| p.1).chain([0.0])).padded(0.05, 0.0);
+        let (xt, yt) = (tick_format(xr.clone()), tick_format(yr.clone()));
+        let mut chart = ChartBuilder::on(&body)
+            .margin(MARGIN)
+            .margin_right(RIGHT_MARGIN)
+            .x_label_area_size(X_AREA)
+            .y_label_area_size(Y_AREA)
+            .build_cartesian_2d(xr.clone(), yr.clone())
+            .map_err(err)?;
+        chart
+            .configure_mesh()
+            .x_label_formatter(&xt)
+            .y_label_formatter(&yt)
+            .x_desc(self.x_label)
+            .y_desc(self.y_label)
+            .axis_desc_style(font(DESC_PX))
+            .label_style(font(TICK_PX))
+            .bold_line_style(BLACK.mix(0.12))
+            .light_line_style(TRANSPARENT)
+            .draw()
+            .map_err(err)?;
+        let axis = GREY.stroke_width(1);
+        chart
+            .draw_series([
+                PathElement::new(vec![(xr.start, 0.0), (xr.end, 0.0)], axis),
+                PathElement::new(vec![(0.0, yr.start), (0.0, yr.end)], axis),
+            ])
+            .map_err(err)?;
+        if self.points.is_empty() {
+            return draw_no_data(chart.plotting_area());
+        }
+        chart
+            .draw_series(
+                self.points
+                    .iter()
+                    .map(|p| Circle::new(*p, 4, PALETTE[0].mix(0.6).filled())),
+            )
+            .map_err(err)?;
+        Ok(())
+    }
+}
+
 // ---------------------------------------------------------------------------------------------
 // Output: one drawing routine, two backends.
 

@@ -38,6 +38,9 @@ pub enum AtmosphereModel {
     Vacuum,
     /// The same air at every altitude (closed-form checks).
     Constant(AtmosphereState),
+    /// U.S. Standard Atmosphere 1976 with every density times this factor (a dispersed day;
+    /// pressure and temperature as the standard).
+    Us1976Scaled(f64),
 }
 
 /// Earth and atmosphere together.
@@ -131,6 +134,11 @@ impl Environment {
             AtmosphereModel::Us1976 => us1976(altitude_m),
             AtmosphereModel::Vacuum => VACUUM,
             AtmosphereModel::Constant(a) => a,
+            AtmosphereModel::Us1976Scaled(k) => {
+                let mut a = us1976(altitude_m);
+                a.density_kg_m3 *= k;
+                a
+            }
         }
     }
 

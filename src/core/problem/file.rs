@@ -35,6 +35,54 @@ pub struct ProblemFile {
     /// Propellant reserves deducted from the margin.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub reserves: Option<ReservesFile>,
+    /// Launch-day dispersions for `kickturn dispersions` (placeholders when absent).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub dispersions: Option<DispersionsFile>,
+}
+
+/// Launch-day dispersions of the vehicle and the air (all optional; a missing key takes its
+/// invented placeholder default, docs/problem-format.md). Each stage (and the booster set) draws
+/// its own thrust, Isp, propellant and dry mass; the drag and density factors are one each.
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DispersionsFile {
+    /// Thrust level (vacuum thrust at full throttle), % of nominal.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub thrust_percent: Option<SpreadFile>,
+    /// Vacuum specific impulse, s added to nominal.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub isp_s: Option<SpreadFile>,
+    /// Propellant loaded, % of nominal.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub propellant_percent: Option<SpreadFile>,
+    /// Dry mass, % of nominal.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub dry_mass_percent: Option<SpreadFile>,
+    /// Factor on every drag coefficient, % from 1.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cd_scale_percent: Option<SpreadFile>,
+    /// Factor on the air density, % from 1.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub density_scale_percent: Option<SpreadFile>,
+    /// Probability that the reserve covers the propellant need (default 0.997).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub probability: Option<f64>,
+    /// Confidence of that statement (default 0.90).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub confidence: Option<f64>,
+}
+
+/// A spread: give exactly one of `normal_3sigma` (a normal distribution with this 3σ, mean 0) or
+/// `uniform` ([low, high] bounds), in the unit of its key.
+#[derive(Debug, Clone, Copy, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SpreadFile {
+    /// Three standard deviations of a zero-mean normal distribution.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub normal_3sigma: Option<f64>,
+    /// Bounds of a uniform distribution, [low, high].
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub uniform: Option<[f64; 2]>,
 }
 
 /// Propellant reserves of the last stage (all optional, default 0).
@@ -345,6 +393,25 @@ pub enum SteeringFile {
     /// Pitch above the local horizontal and heading from north against time since liftoff:
     /// `[time_s, pitch_deg, heading_deg]` triples (what `solve --refine` writes).
     AttitudeTable(Vec<[f64; 3]>),
+    /// Closed-loop guidance to the target orbit (powered explicit guidance, re-solved every
+    /// guidance cycle); the arc's cutoff must be `"target_orbit"`.
+    Guidance(GuidanceFile),
+}
+
+/// Settings of closed-loop guidance (all optional).
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GuidanceFile {
+    /// Guidance cycle, s (default 1).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cycle_s: Option<f64>,
+    /// Time to go below which the steering is held, s (default 4, at least two cycles).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub hold_s: Option<f64>,
+    /// The orbit this burn aims at, in the form of `target` (default: the problem's `target`);
+    /// for an intermediate burn, such as a transfer burn cut off on its apogee.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub aim: Option<TargetFile>,
 }
 
 /// Linear tangent law tan θ = tan θ0 − c·τ, τ time since the arc's start, θ above the horizontal

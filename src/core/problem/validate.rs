@@ -69,7 +69,7 @@ pub fn validate(f: &ProblemFile) -> R<Problem> {
     }
     check_liftoff_thrust(&vehicle, &site, &environment)?;
     let (azimuth_rad, azimuth_source) = azimuth(&f.launch, &site, target.as_ref())?;
-    Ok(Problem {
+    let p = Problem {
         name: f.name.clone(),
         site,
         azimuth_rad,
@@ -83,7 +83,13 @@ pub fn validate(f: &ProblemFile) -> R<Problem> {
         integrator,
         reserves: reserves(f.reserves.as_ref())?,
         input_sha256: String::new(),
-    })
+    };
+    // The dispersions section is checked here, so that every command names a wrong key in it;
+    // `kickturn dispersions` builds the model again from the file.
+    if f.dispersions.is_some() {
+        crate::core::dispersion::Model::from_file(f.dispersions.as_ref(), &p)?;
+    }
+    Ok(p)
 }
 
 fn site(s: &SiteFile) -> R<Site> {
@@ -428,10 +434,49 @@ fn cutoff(path: &str, c: Option<CutoffFile>, has_target: bool) -> R<Cutoff> {
 fn arc(i: usize, a: &ArcFile, has_target: bool) -> R<Arc> {
     let p = format!("ascent.arcs[{i}]");
     Ok(match a {
-        ArcFile::Burn(b) => Arc::Burn {
-            steering: Steering::from_file(&format!("{p}.burn.steering"), &b.steering)?,
-            cutoff: cutoff(&format!("{p}.burn.cutoff"), b.cutoff, has_target)?,
-        },
+        ArcFile::Burn(b) => {
+            let mut steering = Steering::from_file(&format!("{p}.burn.steering"), &b.steering)?;
+            let cutoff = cutoff(&format!("{p}.burn.cutoff"), b.cutoff, has_target)?;
+            if let (Steering::Guidance(g), SteeringFile::Guidance(gf)) =
+                (&mut steering, &b.steering)
+            {
+                let aim_path = format!("{p}.burn.steering.guidance.aim");
+                g.aim = gf
+                    .aim
+                    .as_ref()
+                    .map(|a| {
+                        // The aim has the target's form: name its own fields in errors.
+                        target(a).map_err(|e| match e {
+                            ProblemError::Invalid { field, reason } => ProblemError::Invalid {
+                                field: field.replacen("target", &aim_path, 1),
+                                reason,
+                            },
+                            e => e,
+                        })
+                    })
+                    .transpose()?;
+                // Guidance aims at the target orbit (or its own aim) and ends on its energy
+                // (an intermediate aim: on its apogee or perigee).
+                if !has_target && g.aim.is_none() {
+                    return bad(
+                        &format!("{p}.burn.steering.guidance"),
+                        "closed-loop guidance needs a `target` section (or an `aim`) to aim at",
+                    );
+                }
+                let ok = match cutoff {
+                    Cutoff::TargetOrbit => has_target,
+                    Cutoff::ApogeeAlt(_) | Cutoff::PerigeeAlt(_) => g.aim.is_some(),
+                    _ => false,
+                };
+                if !ok {
+                    return bad(
+                        &format!("{p}.burn.cutoff"),
+                        "a guided burn must be cut off by \"target_orbit\" (the guidance aims at the target's energy), or with an `aim` by the aim's apogee_alt_km or perigee_alt_km",
+                    );
+                }
+            }
+            Arc::Burn { steering, cutoff }
+        }
         ArcFile::Coast(CoastFile::DurationS(t)) => Arc::Coast(CoastEnd::Duration(positive(
             &format!("{p}.coast.duration_s"),
             *t,

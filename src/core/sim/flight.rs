@@ -530,6 +530,7 @@ impl<'a> Flyer<'a> {
         let r = Vector3::new(self.y[0], self.y[1], self.y[2]);
         let v = Vector3::new(self.y[3], self.y[4], self.y[5]);
         let loc = self.p.environment.local(self.t, &r, &v);
+        let state = self.guidance_input();
         self.law = law.start(&ArcStart {
             arc: i,
             t_s: self.t,
@@ -537,6 +538,9 @@ impl<'a> Flyer<'a> {
             loc: &loc,
             azimuth_rad: self.p.azimuth_rad,
             previous: self.flags.last_law.as_deref(),
+            state,
+            environment: &self.p.environment,
+            target: self.p.target.as_ref(),
         });
         if let Some(c) = self.law.continuable() {
             self.flags.last_law = Some(c);
@@ -1011,8 +1015,15 @@ impl<'a> Flyer<'a> {
 
     /// A guidance cycle: the closed-loop law re-solves from the current state.
     fn guidance_cycle(&mut self) {
+        let now = self.guidance_input();
+        self.law.update(&now);
+        self.flags.next_guidance_s = self.law.guidance_period_s().map(|dt| self.t + dt);
+    }
+
+    /// The state a closed-loop law sees now.
+    fn guidance_input(&self) -> GuidanceInput {
         let s = &self.p.vehicle.stages[self.mode.stage];
-        let now = GuidanceInput {
+        GuidanceInput {
             t_s: self.t,
             r_m: Vector3::new(self.y[0], self.y[1], self.y[2]),
             v_mps: Vector3::new(self.y[3], self.y[4], self.y[5]),
@@ -1026,9 +1037,8 @@ impl<'a> Flyer<'a> {
                 self.y[ix::M],
             )
             .max(0.0),
-        };
-        self.law.update(&now);
-        self.flags.next_guidance_s = self.law.guidance_period_s().map(|dt| self.t + dt);
+            max_axial_accel_mps2: self.p.limits.max_axial_accel_mps2,
+        }
     }
 
     fn separate_boosters(&mut self) {

@@ -1,7 +1,8 @@
 //! The ascent program and its steering laws: vertical rise, pitch-over to a kick angle, attitude
 //! hold (the liftoff manoeuvre, flown by the simulator), then one steering law per burn arc —
 //! zero-angle-of-attack gravity turn ([`gravity_turn`]), linear tangent ([`linear_tangent`]),
-//! tabulated pitch ([`pitch_table`]) or a law supplied by a program ([`Steering::Custom`]); coasts
+//! tabulated pitch ([`pitch_table`]), closed-loop guidance ([`guidance`]) or a law supplied by a
+//! program ([`Steering::Custom`]); coasts
 //! and cutoffs.
 //!
 //! Thrust direction in the local frame (pitch θ above the local horizontal, heading ψ clockwise
@@ -22,15 +23,18 @@
 //! JSON form) — docs/architecture.md.
 
 pub mod gravity_turn;
+pub mod guidance;
 pub mod linear_tangent;
 pub mod pitch_table;
 
 use nalgebra::Vector3;
 
 use crate::core::error::ProblemError;
-use crate::core::physics::environment::Local;
+use crate::core::physics::environment::{Environment, Local};
 use crate::core::problem::file::SteeringFile;
+use crate::core::problem::Target;
 
+pub use guidance::Guidance;
 pub use linear_tangent::LinearTangent;
 pub use pitch_table::{AttitudeTable, PitchTable};
 
@@ -222,10 +226,16 @@ pub struct ArcStart<'a> {
     pub azimuth_rad: f64,
     /// The law flown on an earlier arc that this arc may continue (the latest continuable one).
     pub previous: Option<&'a dyn ActiveLaw>,
+    /// The full state at the arc's start (as a guidance cycle would see it).
+    pub state: GuidanceInput,
+    /// Earth and atmosphere models of the flight.
+    pub environment: &'a Environment,
+    /// The problem's target orbit, if any (closed-loop guidance aims at it).
+    pub target: Option<&'a Target>,
 }
 
 /// The state a closed-loop law sees at a guidance-cycle event.
-#[derive(Debug, Clone, Copy)]
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub struct GuidanceInput {
     /// Time, s.
     pub t_s: f64,
@@ -241,6 +251,20 @@ pub struct GuidanceInput {
     pub exhaust_velocity_mps: f64,
     /// Propellant left in the current stage, kg.
     pub propellant_kg: f64,
+    /// Sensed axial-acceleration limit that the throttle holds, m/s² (`None`: no limit).
+    pub max_axial_accel_mps2: Option<f64>,
+}
+
+/// A vector-form steering plan `û ∝ λ + λ̇ (t − t_ref)`: what a closed-loop law flies until its
+/// next update (inertial axes).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Plan {
+    /// λ, unit.
+    pub lambda: Vector3<f64>,
+    /// λ̇, 1/s.
+    pub lambda_dot: Vector3<f64>,
+    /// Reference time t_ref, s.
+    pub t_ref_s: f64,
 }
 
 /// A steering law's settings: what the problem file (or a program) states for a burn arc.
@@ -306,6 +330,11 @@ pub trait ActiveLaw: std::fmt::Debug + Send + Sync {
     fn continuable(&self) -> Option<Box<dyn ActiveLaw>> {
         None
     }
+    /// The plan a closed-loop law flies now (`None`: not a plan-based law); a recorder can
+    /// replay the plans of one flight open loop.
+    fn plan(&self) -> Option<Plan> {
+        None
+    }
 }
 
 /// A law supplied by a program, shared between the copies of a problem (equal only to itself).
@@ -331,6 +360,8 @@ pub enum Steering {
     PitchTable(PitchTable),
     /// Tabulated pitch and heading against time since liftoff (a free thrust direction).
     AttitudeTable(AttitudeTable),
+    /// Closed-loop guidance (powered explicit guidance) to the target orbit.
+    Guidance(Guidance),
     /// A law supplied by a program (not from the problem file): closed-loop guidance, tests.
     /// Shared, so the optimizer cannot tune it.
     Custom(SharedLaw),
@@ -345,6 +376,7 @@ impl Steering {
             Steering::LinearTangentContinued => &linear_tangent::Continued,
             Steering::PitchTable(t) => t,
             Steering::AttitudeTable(t) => t,
+            Steering::Guidance(g) => g,
             Steering::Custom(l) => l.0.as_ref(),
         }
     }
@@ -360,7 +392,10 @@ impl Steering {
             Steering::LinearTangent(l) => Some(l),
             Steering::PitchTable(t) => Some(t),
             Steering::AttitudeTable(t) => Some(t),
-            Steering::GravityTurn | Steering::LinearTangentContinued | Steering::Custom(_) => None,
+            Steering::GravityTurn
+            | Steering::LinearTangentContinued
+            | Steering::Guidance(_)
+            | Steering::Custom(_) => None,
         }
     }
 
@@ -378,6 +413,7 @@ impl Steering {
                 Steering::AttitudeTable(AttitudeTable::from_file(path, pts)?)
             }
             SteeringFile::LinearTangentContinued => Steering::LinearTangentContinued,
+            SteeringFile::Guidance(g) => Steering::Guidance(Guidance::from_file(path, g)?),
         })
     }
 
@@ -389,7 +425,8 @@ impl Steering {
             SteeringFile::GravityTurn
             | SteeringFile::LinearTangentContinued
             | SteeringFile::PitchTable(_)
-            | SteeringFile::AttitudeTable(_) => {}
+            | SteeringFile::AttitudeTable(_)
+            | SteeringFile::Guidance(_) => {}
         }
     }
 }
