@@ -201,3 +201,60 @@ fn a_core_cutoff_drops_boosters_that_still_burn() {
         r.arcs[1].ideal_mps
     );
 }
+
+#[test]
+fn a_pitch_over_given_by_its_duration_flies_as_the_same_rate() {
+    // Source: definition: a constant-rate pitch-over through the kick angle k in d seconds has
+    // the rate k/d, so the medium demo's 6.816° kick at 0.5 °/s equals a 13.632 s pitch-over:
+    // the same flight to round-off. Both forms at once, or neither, are refused by field.
+    let path =
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("problems/medium-2stage-leo200.json");
+    let text = std::fs::read_to_string(&path).unwrap_or_default();
+    let mut v: serde_json::Value = serde_json::from_str(&text).unwrap_or_default();
+    let rate = v["ascent"]["liftoff"]["pitch_rate_deg_s"]
+        .as_f64()
+        .unwrap_or(f64::NAN);
+    let kick = v["ascent"]["liftoff"]["kick_deg"]
+        .as_f64()
+        .unwrap_or(f64::NAN);
+    let by_rate = Problem::from_json(&v.to_string()).unwrap_or_else(|e| panic!("{e}"));
+    let lift = &mut v["ascent"]["liftoff"];
+    lift["pitch_over_s"] = (kick / rate).into();
+    let both = Problem::from_json(&v.to_string())
+        .map(|_| ())
+        .unwrap_err()
+        .to_string();
+    assert!(
+        both.contains("ascent.liftoff.pitch_over_s") && both.contains("not both"),
+        "{both}"
+    );
+    if let Some(o) = v["ascent"]["liftoff"].as_object_mut() {
+        o.remove("pitch_rate_deg_s");
+    }
+    let by_duration = Problem::from_json(&v.to_string()).unwrap_or_else(|e| panic!("{e}"));
+    let (a, b) = (
+        fly(&by_rate, &FlyOptions::default()),
+        fly(&by_duration, &FlyOptions::default()),
+    );
+    for i in 0..7 {
+        assert!(
+            (a.y1[i] - b.y1[i]).abs() <= 1e-6 * a.y1[i].abs().max(1.0),
+            "state {i}: {} vs {}",
+            a.y1[i],
+            b.y1[i]
+        );
+    }
+    let end = |f: &Flight| event(f, EventKind::PitchOverEnd).at.t_s;
+    assert!((end(&b) - end(&a)).abs() < 1e-9 && (end(&b) - (10.0 + kick / rate)).abs() < 1e-9);
+    if let Some(o) = v["ascent"]["liftoff"].as_object_mut() {
+        o.remove("pitch_over_s");
+    }
+    let neither = Problem::from_json(&v.to_string())
+        .map(|_| ())
+        .unwrap_err()
+        .to_string();
+    assert!(
+        neither.contains("ascent.liftoff.pitch_rate_deg_s"),
+        "{neither}"
+    );
+}

@@ -327,8 +327,13 @@ pub struct AscentFile {
 pub struct LiftoffFile {
     /// End of the vertical rise.
     pub vertical_rise: RiseEndFile,
-    /// Constant pitch-over rate, deg/s.
-    pub pitch_rate_deg_s: f64,
+    /// Constant pitch-over rate, deg/s. Give this or `pitch_over_s`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub pitch_rate_deg_s: Option<f64>,
+    /// Pitch-over duration, s: the rate is then the kick over it. Give this or
+    /// `pitch_rate_deg_s`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub pitch_over_s: Option<f64>,
     /// Kick angle: pitch-over from the vertical, degrees.
     pub kick_deg: f64,
 }

@@ -139,7 +139,7 @@ impl Param {
                 .map(|t| t.perigee_alt_m),
             Param::DragScale => stage(0).map(|s| s.aero.cd_scale),
             Param::Kick => l.map(|l| l.kick_rad),
-            Param::PitchRate => l.map(|l| l.pitch_rate_rad_s),
+            Param::PitchRate => l.map(|l| l.rate_rad_s()),
             Param::RiseTime => match l.map(|l| l.rise) {
                 Some(RiseEnd::Time(t)) => Some(t),
                 _ => None,
@@ -210,7 +210,9 @@ impl Param {
             }
             Param::PitchRate => {
                 if let Some(l) = p.program.liftoff.as_mut() {
+                    // A tuned rate replaces a pitch-over given by its duration.
                     l.pitch_rate_rad_s = v;
+                    l.pitch_over_s = None;
                 }
             }
             Param::RiseTime => {
@@ -386,7 +388,8 @@ impl Param {
             }
             Param::PitchRate => {
                 if let Some(l) = f.ascent.liftoff.as_mut() {
-                    l.pitch_rate_deg_s = u;
+                    l.pitch_rate_deg_s = Some(u);
+                    l.pitch_over_s = None;
                 }
             }
             Param::RiseTime => {

@@ -399,17 +399,35 @@ fn liftoff(l: &LiftoffFile) -> R<Liftoff> {
             false,
         )?),
     };
-    let rate = range(
-        &format!("{p}.pitch_rate_deg_s"),
-        l.pitch_rate_deg_s,
-        0.0,
-        90.0,
-        false,
-    )?;
     let kick = range(&format!("{p}.kick_deg"), l.kick_deg, 0.0, 89.0, true)?;
+    let (rate, pitch_over_s) = match (l.pitch_rate_deg_s, l.pitch_over_s) {
+        (Some(r), None) => (
+            range(&format!("{p}.pitch_rate_deg_s"), r, 0.0, 90.0, false)?,
+            None,
+        ),
+        (None, Some(d)) => {
+            let d = range(&format!("{p}.pitch_over_s"), d, 0.0, 600.0, false)?;
+            (kick / d, Some(d))
+        }
+        (Some(_), Some(_)) => {
+            return bad(
+                &format!("{p}.pitch_over_s"),
+                "give the pitch-over by its rate (`pitch_rate_deg_s`) or by its duration \
+                 (`pitch_over_s`), not both",
+            )
+        }
+        (None, None) => {
+            return bad(
+                &format!("{p}.pitch_rate_deg_s"),
+                "missing: give the pitch-over rate (`pitch_rate_deg_s`, deg/s) or its \
+                 duration (`pitch_over_s`, s)",
+            )
+        }
+    };
     Ok(Liftoff {
         rise,
         pitch_rate_rad_s: rate.to_radians(),
+        pitch_over_s,
         kick_rad: kick.to_radians(),
     })
 }

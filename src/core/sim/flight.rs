@@ -559,7 +559,7 @@ impl<'a> Flyer<'a> {
     fn pitch_over(&self) -> Attitude {
         Attitude::PitchOver {
             start_s: self.t,
-            rate_rad_s: self.p.program.liftoff.map_or(0.0, |l| l.pitch_rate_rad_s),
+            rate_rad_s: self.p.program.liftoff.map_or(0.0, |l| l.rate_rad_s()),
             heading_rad: self.p.azimuth_rad,
         }
     }
@@ -647,10 +647,9 @@ impl<'a> Flyer<'a> {
                     tv.push((TimeEvent::RiseEnd, t));
                 }
             }
-            (Attitude::PitchOver { start_s, .. }, Some(l)) => tv.push((
-                TimeEvent::PitchOverEnd,
-                start_s + l.kick_rad / l.pitch_rate_rad_s,
-            )),
+            (Attitude::PitchOver { start_s, .. }, Some(l)) => {
+                tv.push((TimeEvent::PitchOverEnd, start_s + l.pitch_over_duration_s()))
+            }
             (Attitude::Law, _) => {
                 if let Some(t) = self.law.next_node_s(self.t + TIME_EPS_S) {
                     tv.push((TimeEvent::LawNode, t));

@@ -52,10 +52,32 @@ pub enum RiseEnd {
 pub struct Liftoff {
     /// End of the vertical rise.
     pub rise: RiseEnd,
-    /// Pitch-over rate, rad/s (> 0).
+    /// Pitch-over rate, rad/s (> 0); unused when `pitch_over_s` is given.
     pub pitch_rate_rad_s: f64,
+    /// Pitch-over duration, s (> 0), when the file gives the manoeuvre by its duration: the
+    /// rate then follows the kick (kick / duration).
+    pub pitch_over_s: Option<f64>,
     /// Kick angle from the vertical, rad (≥ 0).
     pub kick_rad: f64,
+}
+
+impl Liftoff {
+    /// The pitch-over rate flown, rad/s.
+    pub fn rate_rad_s(&self) -> f64 {
+        match self.pitch_over_s {
+            Some(d) => self.kick_rad / d,
+            None => self.pitch_rate_rad_s,
+        }
+    }
+
+    /// The pitch-over's duration, s (0 for no kick).
+    pub fn pitch_over_duration_s(&self) -> f64 {
+        match self.pitch_over_s {
+            Some(d) if self.kick_rad > 0.0 => d,
+            Some(_) => 0.0,
+            None => self.kick_rad / self.pitch_rate_rad_s,
+        }
+    }
 }
 
 /// Throttle bucket on the first stage.
