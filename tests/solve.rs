@@ -335,7 +335,34 @@ fn an_infeasible_target_is_reported_with_exit_1() {
     let head = head.lines().next().unwrap_or_default();
     assert!(head.starts_with("NOT SOLVED"), "{head}");
     assert!(!head.contains("margin -"), "{head}");
+    // The headline names the cause: the energy.
+    assert!(
+        head.contains("cannot reach the target energy") && head.contains("m/s short"),
+        "{head}"
+    );
+    let cause = r["failure_cause"].as_str().unwrap_or_default();
+    assert!(cause.contains("target energy"), "{cause}");
     let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn a_max_q_limit_that_cannot_be_held_is_named_as_the_cause() {
+    // Repro (issue 9): max-Q 30 kPa with a first stage that throttles down only to 97 %: the
+    // orbit alone is reachable, the limit with it is not. The headline must say so (it said
+    // "no program found reaches the target", beside an EXCEEDED limit).
+    let (code, r) = solve_json("tests/data/repro/maxq30_minthr097.json");
+    assert_eq!(code, Some(1), "{}", r["convergence"]);
+    let cause = r["failure_cause"].as_str().unwrap_or_default();
+    assert!(
+        cause.contains("max-Q limit cannot be held") && cause.contains("97 %"),
+        "{cause}"
+    );
+    // The energy is (all but) reached: a few cm/s at most.
+    assert!(
+        r["shortfall_mps"].as_f64().unwrap_or(0.0) < 0.05,
+        "{}",
+        r["shortfall_mps"]
+    );
 }
 
 #[test]

@@ -109,6 +109,8 @@ pub struct SolveReport {
     /// When the target energy was not reached: the speed still missing at the end of the best
     /// program found, √(v² + 2ΔE) − v, m/s (null when reached).
     pub shortfall_mps: Option<f64>,
+    /// When the solve did not succeed: what stands in the way, in words (null otherwise).
+    pub failure_cause: Option<String>,
 }
 
 /// What `--refine` found: the simple program's optimality gap against a free thrust direction.
@@ -440,6 +442,7 @@ pub fn solve(case: &Case, s: &SolveSettings, obs: &dyn Observer) -> Result<Solve
     };
     let mut report = report(p, &flown, &tuned_file, &flight, &sol, s, obs);
     report.refinement = refinement;
+    report.failure_cause = failure_cause(&flown, &report);
     Ok(SolveRun {
         report,
         tuned_file,
@@ -577,6 +580,7 @@ fn report(
         refinement: None,
         sensitivities: sol.sensitivities.clone(),
         shortfall_mps: shortfall_mps(flown, &flight.y1),
+        failure_cause: None,
         richer_programs: if s.explore {
             let base = crate::core::optimize::objective(&sol.eval);
             explore(p, &sol.problem, &s.solver, base, m_f, c, obs)
@@ -586,6 +590,60 @@ fn report(
         convergence: sol.convergence.clone(),
         flight: report,
     }
+}
+
+/// What stands in the way of a solve that did not succeed, read from its best flight: the
+/// energy (the vehicle falls short), a max-Q limit the program cannot hold together with the
+/// target (naming a first stage that cannot throttle deep), or the remaining terminal
+/// conditions. `None` for a successful solve or a search stopped by its budget.
+fn failure_cause(flown: &Problem, r: &SolveReport) -> Option<String> {
+    if r.succeeded() || r.convergence.status == SolveStatus::BudgetExhausted {
+        return None;
+    }
+    if let Some(short) = r.shortfall_mps.filter(|s| *s > 0.05) {
+        return Some(format!(
+            "the vehicle cannot reach the target energy: the best program found ends {short:.1} \
+             m/s short"
+        ));
+    }
+    let f = &r.flight;
+    if let Some(lim) = f
+        .max_dynamic_pressure_limit_pa
+        .filter(|l| f.max_dynamic_pressure_pa > l * (1.0 + 1e-6))
+    {
+        let s0 = &flown.vehicle.stages[0];
+        let how = if flown.vehicle.boosters.is_some() {
+            format!(
+                "; the boosters cannot throttle and the core goes down only to {:.0} %",
+                s0.min_throttle * 100.0
+            )
+        } else if s0.min_throttle > 0.9 {
+            format!(
+                "; the first stage throttles down only to {:.0} %, so the pitch program must \
+                 hold it almost alone",
+                s0.min_throttle * 100.0
+            )
+        } else {
+            String::new()
+        };
+        return Some(format!(
+            "the max-Q limit cannot be held together with the target orbit: the best program \
+             peaks at {:.2} kPa against {:.2} kPa{how}",
+            f.max_dynamic_pressure_pa / 1e3,
+            lim / 1e3
+        ));
+    }
+    Some(match f.target_deviation {
+        Some(d) if !d.met => format!(
+            "the terminal conditions cannot be met: the best program misses the target by \
+             {:+.2} km in perigee, {} in apogee and {:+.4}° in inclination",
+            d.perigee_km,
+            d.apogee_km
+                .map_or("(unbound)".to_string(), |a| format!("{a:+.2} km")),
+            d.inclination_deg.unwrap_or(0.0)
+        ),
+        _ => "the search did not verify an optimum".to_string(),
+    })
 }
 
 /// The optimizer cuts the last burn on the target energy; the written program says so.

@@ -51,11 +51,21 @@ pub fn summary(r: &SolveReport) -> String {
     } else {
         // A flight that misses the target has no margin to show (the propellant left is that of
         // a different, failed flight).
+        let head = match (&r.failure_cause, c.status) {
+            (Some(cause), SolveStatus::Infeasible) => format!("NOT SOLVED: {cause}"),
+            (Some(cause), _) => format!("{}; {cause}", status_line(c)),
+            (None, _) => status_line(c).to_string(),
+        };
         let _ = writeln!(
             s,
-            "{}: the tuned program's flight does not reach the target, so it has no margin; \
+            "{}{}he tuned program's flight does not reach the target, so it has no margin; \
              propellant used {:.1} kg, left {:.1} kg, payload {:.1} kg",
-            status_line(c),
+            head,
+            if r.failure_cause.is_some() {
+                ". T"
+            } else {
+                ": t"
+            },
             r.propellant_used_kg,
             r.propellant_remaining_kg,
             r.payload_kg
