@@ -798,6 +798,14 @@ mod tests {
         assert_eq!(report.samples, 6);
     }
 
+    fn named<T>(r: Result<T, Error>) -> &'static str {
+        match r {
+            Err(Error::Option { option, .. }) => option,
+            Err(e) => panic!("another error: {e}"),
+            Ok(_) => panic!("accepted"),
+        }
+    }
+
     #[test]
     fn samples_not_of_the_study_are_refused_with_the_option_named() {
         let (case, o) = (
@@ -807,11 +815,6 @@ mod tests {
                 ..DispersionOptions::default()
             },
         );
-        let named = |r: Result<_, Error>| match r {
-            Err(Error::Option { option, .. }) => option,
-            Err(e) => panic!("another error: {e}"),
-            Ok(_) => panic!("accepted"),
-        };
         assert_eq!(named(run_samples(&case, &o, &[2], &Silent)), "indices");
         let mut s = run_samples(&case, &o, &[1, 0], &Silent).expect("two samples");
         assert_eq!(named(report_from_samples(&case, &o, s.clone())), "samples");
