@@ -236,7 +236,7 @@ def test_dispersion_errors_name_the_option_or_the_field():
     with pytest.raises(kickturn.OptionError, match="probability: must lie in"):
         kickturn.dispersions(GUIDED, samples=5, probability=1.5)
     d = json.loads(GUIDED.read_text())
-    del d["target"]
+    d["dispersions"]["isp_s"]["normal_3sigma"] = -1.0
     with pytest.raises(kickturn.ProblemError) as e:
         kickturn.dispersions(d, samples=5)
-    assert e.value.field == "target"
+    assert e.value.field.startswith("dispersions.isp_s"), e.value.field
