@@ -4,7 +4,9 @@
 //!
 //! Sample `k` of seed `S` is the same flight on any thread count and in any order (its draws come
 //! from `random::stream`), and the report is built from the samples in index order, so the same
-//! seed gives a byte-identical report. `--open-loop` flies the same samples with every guided arc
+//! seed gives a byte-identical report. A study can be split: [`run_samples`] flies any subset of
+//! the indices (e.g. one task of a cluster) and [`report_from_samples`] builds the report from
+//! all the samples gathered in index order; [`run`] is the two in one process. `--open-loop` flies the same samples with every guided arc
 //! replaying, open loop, the commands the guidance gave on the nominal flight.
 
 use std::sync::{Arc as Shared, Mutex};
