@@ -13,7 +13,9 @@
 use pyo3::exceptions::{PyIndexError, PyValueError};
 use pyo3::prelude::*;
 
+use crate::app::dispersions::{self as study_dispersions, DispersionOptions, Sample};
 use crate::app::fly::FlyOptions;
+use crate::app::outcome::{APSIS_TOL_KM, INCLINATION_TOL_DEG};
 use crate::app::solve::SolveSettings;
 use crate::app::study::{self, Axis, CompareReport, SweepReport, TradeFactor, TradeReport};
 use crate::app::{self, Case, Silent};
@@ -485,6 +487,138 @@ fn trade_report(
     to_json(&TradeReport::from_factors(&f, sha, objective, factors))
 }
 
+/// The options of a dispersion study (the command line's `DispersionsArgs`).
+fn dispersion_options(
+    samples: usize,
+    seed: u64,
+    open_loop: bool,
+    probability: Option<f64>,
+    confidence: Option<f64>,
+    apsis_tol_km: f64,
+    inclination_tol_deg: f64,
+) -> DispersionOptions {
+    DispersionOptions {
+        samples,
+        seed,
+        open_loop,
+        probability,
+        confidence,
+        apsis_tol_km,
+        inclination_tol_deg,
+    }
+}
+
+/// `kickturn dispersions --json` (the whole study in this process, in parallel).
+#[pyfunction]
+#[pyo3(signature = (
+    text, file=None, *, samples=1000, seed=1, open_loop=false, probability=None, confidence=None,
+    apsis_tol_km=APSIS_TOL_KM, inclination_tol_deg=INCLINATION_TOL_DEG
+))]
+#[allow(clippy::too_many_arguments)]
+fn dispersions(
+    py: Python<'_>,
+    text: String,
+    file: Option<String>,
+    samples: usize,
+    seed: u64,
+    open_loop: bool,
+    probability: Option<f64>,
+    confidence: Option<f64>,
+    apsis_tol_km: f64,
+    inclination_tol_deg: f64,
+) -> PyResult<String> {
+    let file = file.as_deref();
+    let o = dispersion_options(
+        samples,
+        seed,
+        open_loop,
+        probability,
+        confidence,
+        apsis_tol_km,
+        inclination_tol_deg,
+    );
+    let case = load(py, &text, file)?;
+    let run = py.detach(|| study_dispersions::run(&case, &o, &Silent));
+    to_json(&run.map_err(|e| app_error(py, e, file))?)
+}
+
+/// The samples `indices` of a dispersion study (each below `samples`), in that order, as a JSON
+/// array of the `runs` entries of `kickturn dispersions --json`: a part of a study run
+/// elsewhere. Sample `k` is the same whatever the indices flown with it. No indices: the
+/// problem and options are only checked (`[]`).
+#[pyfunction]
+#[pyo3(signature = (
+    text, file, indices, *, samples=1000, seed=1, open_loop=false, probability=None,
+    confidence=None, apsis_tol_km=APSIS_TOL_KM, inclination_tol_deg=INCLINATION_TOL_DEG
+))]
+#[allow(clippy::too_many_arguments)]
+fn dispersion_samples(
+    py: Python<'_>,
+    text: String,
+    file: Option<String>,
+    indices: Vec<usize>,
+    samples: usize,
+    seed: u64,
+    open_loop: bool,
+    probability: Option<f64>,
+    confidence: Option<f64>,
+    apsis_tol_km: f64,
+    inclination_tol_deg: f64,
+) -> PyResult<String> {
+    let file = file.as_deref();
+    let o = dispersion_options(
+        samples,
+        seed,
+        open_loop,
+        probability,
+        confidence,
+        apsis_tol_km,
+        inclination_tol_deg,
+    );
+    let case = load(py, &text, file)?;
+    let run = py.detach(|| study_dispersions::run_samples(&case, &o, &indices, &Silent));
+    to_json(&run.map_err(|e| app_error(py, e, file))?)
+}
+
+/// The `kickturn dispersions --json` document from every sample of the study (`runs`: JSON
+/// text of an array, sample `k` at place `k`, as `dispersion_samples` returns them), with the
+/// nominal flight flown here.
+#[pyfunction]
+#[pyo3(signature = (
+    text, file, runs, *, samples=1000, seed=1, open_loop=false, probability=None,
+    confidence=None, apsis_tol_km=APSIS_TOL_KM, inclination_tol_deg=INCLINATION_TOL_DEG
+))]
+#[allow(clippy::too_many_arguments)]
+fn dispersion_report(
+    py: Python<'_>,
+    text: String,
+    file: Option<String>,
+    runs: String,
+    samples: usize,
+    seed: u64,
+    open_loop: bool,
+    probability: Option<f64>,
+    confidence: Option<f64>,
+    apsis_tol_km: f64,
+    inclination_tol_deg: f64,
+) -> PyResult<String> {
+    let file = file.as_deref();
+    let o = dispersion_options(
+        samples,
+        seed,
+        open_loop,
+        probability,
+        confidence,
+        apsis_tol_km,
+        inclination_tol_deg,
+    );
+    let runs: Vec<Sample> = serde_json::from_str(&runs)
+        .map_err(|e| PyValueError::new_err(format!("dispersion_report: runs: {e}")))?;
+    let case = load(py, &text, file)?;
+    let report = py.detach(|| study_dispersions::report_from_samples(&case, &o, runs));
+    to_json(&report.map_err(|e| app_error(py, e, file))?)
+}
+
 /// The extension module `kickturn._kickturn`.
 #[pymodule]
 #[pyo3(name = "_kickturn")]
@@ -499,8 +633,13 @@ fn kickturn_module(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(trade_size, m)?)?;
     m.add_function(wrap_pyfunction!(trade_batch, m)?)?;
     m.add_function(wrap_pyfunction!(trade_report, m)?)?;
+    m.add_function(wrap_pyfunction!(dispersions, m)?)?;
+    m.add_function(wrap_pyfunction!(dispersion_samples, m)?)?;
+    m.add_function(wrap_pyfunction!(dispersion_report, m)?)?;
     m.add("__version__", env!("CARGO_PKG_VERSION"))?;
     m.add("TOOL", app::tool_version())?;
     m.add("CAUTION", app::outcome::CAUTION)?;
+    m.add("APSIS_TOL_KM", APSIS_TOL_KM)?;
+    m.add("INCLINATION_TOL_DEG", INCLINATION_TOL_DEG)?;
     Ok(())
 }

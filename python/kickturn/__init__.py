@@ -36,6 +36,7 @@ __all__ = [
     "Range",
     "UnreachableError",
     "compare",
+    "dispersions",
     "fly",
     "grid",
     "read_problem",
@@ -57,6 +58,11 @@ Range = Union[str, Sequence[float]]
 MAX_INPUT_BYTES = 16 * 1024 * 1024
 
 _AXES = ("azimuth", "inclination", "altitude", "payload")
+
+#: Apsis tolerance of a dispersed sample's "target met" by default, km (``--apsis-tol-km``).
+APSIS_TOL_KM: float = _kickturn.APSIS_TOL_KM
+#: Inclination tolerance of a dispersed sample's "target met" by default, deg.
+INCLINATION_TOL_DEG: float = _kickturn.INCLINATION_TOL_DEG
 
 
 def _plain(value: Any) -> Any:
@@ -282,3 +288,52 @@ def trade(
             max_trajectories=max_trajectories,
         )
     )
+
+
+def dispersion_options(
+    samples: int = 1000,
+    seed: int = 1,
+    open_loop: bool = False,
+    probability: Optional[float] = None,
+    confidence: Optional[float] = None,
+    apsis_tol_km: float = APSIS_TOL_KM,
+    inclination_tol_deg: float = INCLINATION_TOL_DEG,
+) -> Dict[str, Any]:
+    """The options of a dispersion study as the extension module's keyword arguments."""
+    return dict(
+        samples=samples,
+        seed=seed,
+        open_loop=open_loop,
+        probability=probability,
+        confidence=confidence,
+        apsis_tol_km=apsis_tol_km,
+        inclination_tol_deg=inclination_tol_deg,
+    )
+
+
+def dispersions(
+    problem: Problem,
+    *,
+    samples: int = 1000,
+    seed: int = 1,
+    open_loop: bool = False,
+    probability: Optional[float] = None,
+    confidence: Optional[float] = None,
+    apsis_tol_km: float = APSIS_TOL_KM,
+    inclination_tol_deg: float = INCLINATION_TOL_DEG,
+) -> Dict[str, Any]:
+    """Flies the program ``samples`` times with launch-day dispersions drawn from the problem's
+    ``dispersions`` section, and sizes the flight performance reserve: the
+    ``kickturn dispersions --json`` document.
+
+    The options are the command line's (``--samples``, ``--seed``, ``--open-loop``,
+    ``--probability``, ``--confidence``, ``--apsis-tol-km``, ``--inclination-tol-deg``); the
+    same seed gives the same document. A separate dispersions file (``--dispersions FILE``) is
+    a dict problem with its ``dispersions`` key set. The samples fly in parallel on every core;
+    :func:`kickturn.dask.dispersions` spreads them over a cluster.
+    """
+    text, file = read_problem(problem)
+    options = dispersion_options(
+        samples, seed, open_loop, probability, confidence, apsis_tol_km, inclination_tol_deg
+    )
+    return _loads(_kickturn.dispersions(text, file, **options))

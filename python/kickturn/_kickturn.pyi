@@ -6,6 +6,8 @@ from typing import List, Optional, Sequence, Tuple
 __version__: str
 TOOL: str
 CAUTION: str
+APSIS_TOL_KM: float
+INCLINATION_TOL_DEG: float
 
 def fly(text: str, file: Optional[str] = None) -> str: ...
 def solve(
@@ -78,4 +80,42 @@ def trade_batch(
 ) -> str: ...
 def trade_report(
     text: str, file: Optional[str], values: Sequence[Optional[float]], *, max_payload: bool = False
+) -> str: ...
+def dispersions(
+    text: str,
+    file: Optional[str] = None,
+    *,
+    samples: int = 1000,
+    seed: int = 1,
+    open_loop: bool = False,
+    probability: Optional[float] = None,
+    confidence: Optional[float] = None,
+    apsis_tol_km: float = ...,
+    inclination_tol_deg: float = ...,
+) -> str: ...
+def dispersion_samples(
+    text: str,
+    file: Optional[str],
+    indices: Sequence[int],
+    *,
+    samples: int = 1000,
+    seed: int = 1,
+    open_loop: bool = False,
+    probability: Optional[float] = None,
+    confidence: Optional[float] = None,
+    apsis_tol_km: float = ...,
+    inclination_tol_deg: float = ...,
+) -> str: ...
+def dispersion_report(
+    text: str,
+    file: Optional[str],
+    runs: str,
+    *,
+    samples: int = 1000,
+    seed: int = 1,
+    open_loop: bool = False,
+    probability: Optional[float] = None,
+    confidence: Optional[float] = None,
+    apsis_tol_km: float = ...,
+    inclination_tol_deg: float = ...,
 ) -> str: ...

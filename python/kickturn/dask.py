@@ -1,4 +1,4 @@
-"""Sweeps, trade grids and trades on a Dask cluster (dask.distributed), through a ``distributed.Client`` you
+"""Sweeps, trade grids, trades and dispersions on a Dask cluster (dask.distributed), through a ``distributed.Client`` you
 give: a ``LocalCluster`` on a laptop, dask-jobqueue on a batch cluster, or Kubernetes — only the
 line that makes the client changes (docs/python.md).
 
@@ -16,9 +16,9 @@ kickturn installed (the same version) but not the problem file.
 
 Adding a study: write a module-level batch function ``f(text, file, items, **options) -> list``
 that returns one result per item of ``items`` (a batch), and call :func:`map_batches`. A sampled
-study (dispersions) must draw sample ``i`` from its own seeded stream (``stream(seed, i)`` in
-kickturn's ``core::random``), never from a generator that runs on through a batch, so that the
-split does not change the samples: pass the sample indices as the items.
+study (as :func:`dispersions`) must draw sample ``i`` from its own seeded stream (``stream(seed,
+i)`` in kickturn's ``core::random``), never from a generator that runs on through a batch, so that
+the split does not change the samples: pass the sample indices as the items.
 """
 
 from __future__ import annotations
@@ -38,14 +38,24 @@ from typing import (
     Union,
 )
 
-from . import Problem, Range, _kickturn, grid_rows, read_problem, sweep_axis
+from . import (
+    APSIS_TOL_KM,
+    INCLINATION_TOL_DEG,
+    Problem,
+    Range,
+    _kickturn,
+    dispersion_options,
+    grid_rows,
+    read_problem,
+    sweep_axis,
+)
 from . import frames as _frames
 
 if TYPE_CHECKING:  # pragma: no cover
     import distributed
     import pandas
 
-__all__ = ["batches", "grid", "map_batches", "sweep", "trade"]
+__all__ = ["batches", "dispersions", "grid", "map_batches", "sweep", "trade"]
 
 T = TypeVar("T")
 
@@ -123,6 +133,17 @@ def _trade_batch(
     """``[point, objective value]`` of the trade points ``indices`` (one task)."""
     pairs: List[List[Any]] = json.loads(_kickturn.trade_batch(text, file, indices, **options))
     return pairs
+
+
+def _dispersion_batch(
+    text: str, file: Optional[str], indices: List[int], **options: Any
+) -> List[Dict[str, Any]]:
+    """The dispersed samples ``indices`` (one task; they fly in parallel on the worker's
+    cores)."""
+    runs: List[Dict[str, Any]] = json.loads(
+        _kickturn.dispersion_samples(text, file, indices, **options)
+    )
+    return runs
 
 
 def _frame_or_report(
@@ -246,4 +267,48 @@ def trade(
     )
     if not isinstance(result, dict):
         result.attrs["points"] = [point for point, _ in pairs]
+    return result
+
+
+def dispersions(
+    client: "distributed.Client",
+    problem: Problem,
+    *,
+    samples: int = 1000,
+    seed: int = 1,
+    open_loop: bool = False,
+    probability: Optional[float] = None,
+    confidence: Optional[float] = None,
+    apsis_tol_km: float = APSIS_TOL_KM,
+    inclination_tol_deg: float = INCLINATION_TOL_DEG,
+    batch_size: Optional[int] = None,
+    as_frame: Optional[bool] = None,
+) -> Union["pandas.DataFrame", Dict[str, Any]]:
+    """``kickturn.dispersions`` on the cluster behind ``client``: the sample indices
+    ``0 .. samples - 1`` are the tasks' items. Sample ``k`` draws from its own stream of
+    ``seed``, so the document equals the single-process one (and the command line's ``--json``)
+    for any batch size and number of workers.
+
+    The samples are gathered in index order and the report (statistics, reserve, contributors)
+    is built from them here, by the same library function as the single-process study, which
+    also flies the nominal flight. Returns a DataFrame (one row per sample,
+    ``kickturn.frames.dispersions_frame``) whose ``attrs["report"]`` is the document; with
+    ``as_frame=False``, or without pandas, the document.
+    """
+    text, file = read_problem(problem)
+    options = dispersion_options(
+        samples, seed, open_loop, probability, confidence, apsis_tol_km, inclination_tol_deg
+    )
+    # No indices: checks the problem and the options here, before any task is sent.
+    _kickturn.dispersion_samples(text, file, [], **options)
+    runs = map_batches(
+        client, _dispersion_batch, list(range(samples)), text, file, batch_size=batch_size,
+        **options,
+    )
+    report: Dict[str, Any] = json.loads(
+        _kickturn.dispersion_report(text, file, json.dumps(runs), **options)
+    )
+    result: Union["pandas.DataFrame", Dict[str, Any]] = _frame_or_report(
+        report, as_frame, _frames.dispersions_frame
+    )
     return result

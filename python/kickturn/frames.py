@@ -133,3 +133,33 @@ def trade_frame(report: Mapping[str, Any]) -> "pandas.DataFrame":
     frame = pandas.DataFrame(rows, columns=["parameter", "step", "factor", "unit", "ok"])
     frame.attrs["report"] = report
     return frame
+
+
+#: Result columns of a dispersed sample, as ``kickturn dispersions --csv`` names them.
+SAMPLE_COLUMNS = (
+    "status",
+    "target_met",
+    "perigee_error_km",
+    "apogee_error_km",
+    "inclination_error_deg",
+    "propellant_remaining_kg",
+)
+
+
+def dispersions_frame(report: Mapping[str, Any]) -> "pandas.DataFrame":
+    """A dispersion document (``kickturn.dispersions`` or ``kickturn.dask.dispersions``) as a
+    DataFrame, one row per sample in index order, in ``--csv``'s columns: ``index``,
+    ``sample_seed``, a column per dispersed quantity (its draw, in its unit), then the results
+    (``None`` where ``--csv`` leaves a cell empty)."""
+    import pandas
+
+    names = [v["name"] for v in report["variables"]]
+    rows: List[Dict[str, Any]] = []
+    for s in report["runs"]:
+        row: Dict[str, Any] = {"index": s["index"], "sample_seed": s["sample_seed"]}
+        row.update(zip(names, s["draws"]))
+        row.update({c: s[c] for c in SAMPLE_COLUMNS})
+        rows.append(row)
+    frame = pandas.DataFrame(rows, columns=["index", "sample_seed", *names, *SAMPLE_COLUMNS])
+    frame.attrs["report"] = report
+    return frame

@@ -14,6 +14,7 @@ import pytest
 ROOT = pathlib.Path(__file__).resolve().parents[2]
 MEDIUM = ROOT / "problems" / "medium-2stage-leo200.json"
 SMALL = ROOT / "problems" / "small-3stage-sso500.json"
+GUIDED = ROOT / "problems" / "guided" / "medium-2stage-leo200-guided.json"
 PROBLEMS = sorted((ROOT / "problems").glob("*.json"))
 
 

@@ -9,7 +9,7 @@ import pickle
 import pytest
 
 import kickturn
-from conftest import MEDIUM, PROBLEMS, SMALL, cli_json, run_cli
+from conftest import GUIDED, MEDIUM, PROBLEMS, SMALL, cli_json, run_cli
 
 MEDIUM_REL = "problems/medium-2stage-leo200.json"
 
@@ -193,3 +193,50 @@ def test_a_grid_row_is_the_sweep_of_the_problem_with_the_first_axis_applied():
         kickturn.grid(MEDIUM, {"mass": [1.0]})
     with pytest.raises(kickturn.OptionError, match="contradict"):
         kickturn.grid(MEDIUM, {"altitude": [200.0], "payload": [1.0]}, max_payload=True)
+
+
+def test_dispersions_equal_the_command_line_json():
+    want = cli_json("dispersions", GUIDED, "--samples", "40", "--seed", "7")
+    got = kickturn.dispersions(GUIDED, samples=40, seed=7)
+    assert got == want
+    assert got["samples"] == 40 and len(got["runs"]) == 40
+    assert [s["index"] for s in got["runs"]] == list(range(40))
+    assert got["nominal_target_met"] is True
+
+
+def test_dispersion_options_are_the_command_line_options():
+    args = ["--samples", "12", "--seed", "3", "--open-loop", "--probability", "0.99"]
+    args += ["--confidence", "0.5", "--apsis-tol-km", "2", "--inclination-tol-deg", "0.05"]
+    want = cli_json("dispersions", GUIDED, *args)
+    got = kickturn.dispersions(
+        GUIDED, samples=12, seed=3, open_loop=True, probability=0.99, confidence=0.5,
+        apsis_tol_km=2.0, inclination_tol_deg=0.05,
+    )
+    assert got == want
+    assert got["open_loop"] is True and got["reserve"]["probability"] == 0.99
+
+
+def test_dispersion_samples_of_any_split_build_the_same_report():
+    whole = kickturn.dispersions(GUIDED, samples=6, seed=5)
+    text, file = kickturn.read_problem(GUIDED)
+    part = json.loads(kickturn._kickturn.dispersion_samples(text, file, [4, 1], samples=6, seed=5))
+    assert part == [whole["runs"][4], whole["runs"][1]]
+    runs = json.dumps(whole["runs"])
+    again = kickturn._kickturn.dispersion_report(text, file, runs, samples=6, seed=5)
+    assert json.loads(again) == whole
+    with pytest.raises(kickturn.OptionError, match="samples: 6 samples given for a study of 7"):
+        kickturn._kickturn.dispersion_report(text, file, runs, samples=7, seed=5)
+    with pytest.raises(kickturn.OptionError, match="indices: sample 6 is not in a study of 6"):
+        kickturn._kickturn.dispersion_samples(text, file, [6], samples=6, seed=5)
+
+
+def test_dispersion_errors_name_the_option_or_the_field():
+    with pytest.raises(kickturn.OptionError, match="samples: must lie in"):
+        kickturn.dispersions(GUIDED, samples=0)
+    with pytest.raises(kickturn.OptionError, match="probability: must lie in"):
+        kickturn.dispersions(GUIDED, samples=5, probability=1.5)
+    d = json.loads(GUIDED.read_text())
+    d["dispersions"]["isp_s"]["normal_3sigma"] = -1.0
+    with pytest.raises(kickturn.ProblemError) as e:
+        kickturn.dispersions(d, samples=5)
+    assert e.value.field.startswith("dispersions.isp_s"), e.value.field

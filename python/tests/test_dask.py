@@ -8,7 +8,7 @@ pytest.importorskip("distributed")
 
 import kickturn  # noqa: E402
 import kickturn.dask as kd  # noqa: E402
-from conftest import MEDIUM, cli_json  # noqa: E402
+from conftest import GUIDED, MEDIUM, cli_json  # noqa: E402
 
 
 @pytest.fixture(scope="module")
@@ -87,3 +87,33 @@ def test_a_trade_grid_on_two_workers_equals_the_single_process_grid(client, batc
     assert list(frame["swept_altitude_km"]) == [200.0, 200.0, 250.0, 250.0]
     assert list(frame["swept_payload_kg"]) == [7000.0, 8000.0, 7000.0, 8000.0]
     assert list(frame["margin_kg"]) == [p["report"]["margin_kg"] for p in want["points"]]
+
+
+@pytest.fixture(scope="module")
+def dispersions_40():
+    return kickturn.dispersions(GUIDED, samples=40, seed=7)
+
+
+@pytest.mark.parametrize("batch_size", [7, 40])
+def test_dispersions_on_two_workers_equal_the_single_process_run(
+    client, dispersions_40, batch_size
+):
+    frame = kd.dispersions(client, GUIDED, samples=40, seed=7, batch_size=batch_size)
+    assert frame.attrs["report"] == dispersions_40
+    runs = dispersions_40["runs"]
+    assert list(frame["index"]) == list(range(40))
+    assert list(frame["propellant_remaining_kg"]) == [s["propellant_remaining_kg"] for s in runs]
+    assert list(frame["target_met"]) == [s["target_met"] for s in runs]
+    first = dispersions_40["variables"][0]["name"]
+    assert list(frame[first]) == [s["draws"][0] for s in runs]
+
+
+def test_dispersions_without_a_frame_are_the_command_line_document(client):
+    want = cli_json("dispersions", GUIDED, "--samples", "10", "--seed", "2", "--open-loop")
+    got = kd.dispersions(client, GUIDED, samples=10, seed=2, open_loop=True, as_frame=False)
+    assert got == want
+
+
+def test_bad_dispersion_options_are_raised_on_the_client(client):
+    with pytest.raises(kickturn.OptionError, match="samples: must lie in"):
+        kd.dispersions(client, GUIDED, samples=0)

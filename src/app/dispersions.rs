@@ -4,13 +4,15 @@
 //!
 //! Sample `k` of seed `S` is the same flight on any thread count and in any order (its draws come
 //! from `random::stream`), and the report is built from the samples in index order, so the same
-//! seed gives a byte-identical report. `--open-loop` flies the same samples with every guided arc
+//! seed gives a byte-identical report. A study can be split: [`run_samples`] flies any subset of
+//! the indices (e.g. one task of a cluster) and [`report_from_samples`] builds the report from
+//! all the samples gathered in index order; [`run`] is the two in one process. `--open-loop` flies the same samples with every guided arc
 //! replaying, open loop, the commands the guidance gave on the nominal flight.
 
 use std::sync::{Arc as Shared, Mutex};
 
 use rayon::prelude::*;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use super::outcome::{FlightReport, Status, APSIS_TOL_KM, CAUTION, INCLINATION_TOL_DEG};
 use super::{tool_version, Case, Error};
@@ -76,8 +78,8 @@ pub struct VariableInfo {
     pub placeholder: bool,
 }
 
-/// One flown sample.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+/// One flown sample (read back by [`report_from_samples`] when the samples were flown elsewhere).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Sample {
     /// Index of the sample (0-based): `--sample K` re-flies it alone.
     pub index: usize,
@@ -500,7 +502,8 @@ pub fn fly_one(
     ))
 }
 
-/// Flies the study: `o.samples` dispersed flights in parallel, one [`Observer::advanced`] each.
+/// Flies the study: `o.samples` dispersed flights in parallel, one [`Observer::advanced`] each;
+/// [`run_samples`] of every index, then [`report_from_samples`].
 ///
 /// # Errors
 /// [`Error::Option`] for a sample count or probability out of range; [`Error::Problem`] for a
@@ -510,27 +513,93 @@ pub fn run(
     o: &DispersionOptions,
     obs: &dyn Observer,
 ) -> Result<DispersionReport, Error> {
-    let pr = prepare(case, o)?;
+    let all: Vec<usize> = (0..o.samples).collect();
+    // Checked before the progress starts (an empty index list is valid).
+    prepare(case, o)?;
     obs.started("dispersions", o.samples);
-    let runs: Vec<Sample> = (0..o.samples)
-        .into_par_iter()
-        .map(|k| {
-            let s = fly_sample(
-                &pr,
-                o.seed,
-                k,
-                None,
-                (o.apsis_tol_km, o.inclination_tol_deg),
-            )
-            .sample;
+    let runs = run_samples(case, o, &all, obs);
+    obs.finished();
+    report_from_samples(case, o, runs?)
+}
+
+/// Flies the samples `indices` of the study (each below `o.samples`) in parallel, one
+/// [`Observer::advanced`] each, and returns them in the order of `indices`: a part of a study
+/// run elsewhere (e.g. one task of a cluster). Sample `k` draws from its own stream
+/// (`random::stream(seed, k)`), so any split of the indices gives the same samples as [`run`].
+///
+/// # Errors
+/// As [`run`]; [`Error::Option`] (`indices`) for an index at or above `o.samples`.
+pub fn run_samples(
+    case: &Case,
+    o: &DispersionOptions,
+    indices: &[usize],
+    obs: &dyn Observer,
+) -> Result<Vec<Sample>, Error> {
+    let pr = prepare(case, o)?;
+    if let Some(k) = indices.iter().find(|&&k| k >= o.samples) {
+        return Err(Error::Option {
+            option: "indices",
+            reason: format!("sample {k} is not in a study of {} samples", o.samples),
+        });
+    }
+    let tol = (o.apsis_tol_km, o.inclination_tol_deg);
+    Ok(indices
+        .par_iter()
+        .map(|&k| {
+            let s = fly_sample(&pr, o.seed, k, None, tol).sample;
             obs.advanced();
             s
         })
-        .collect();
-    obs.finished();
+        .collect())
+}
+
+/// The study's report from all its samples (`samples[k]` is sample `k`, as [`run_samples`]
+/// returns them), with the nominal flight flown here: what [`run`] returns.
+///
+/// # Errors
+/// As [`run`]; [`Error::Option`] (`samples`) when the samples are not those of the study: not
+/// `o.samples` of them, out of index order, of another seed, or with another number of draws.
+pub fn report_from_samples(
+    case: &Case,
+    o: &DispersionOptions,
+    samples: Vec<Sample>,
+) -> Result<DispersionReport, Error> {
+    let pr = prepare(case, o)?;
+    check_samples(&pr, o, &samples)?;
     let nominal_flight = sim::fly(&pr.base, &sim::FlyOptions::default());
     let nominal = FlightReport::new(&pr.base, &nominal_flight);
-    Ok(summarize(case, o, &pr, runs, &nominal, &nominal_flight))
+    Ok(summarize(case, o, &pr, samples, &nominal, &nominal_flight))
+}
+
+/// The samples are the study's, in index order.
+fn check_samples(pr: &Prepared, o: &DispersionOptions, samples: &[Sample]) -> Result<(), Error> {
+    let wrong = |reason: String| Error::Option {
+        option: "samples",
+        reason,
+    };
+    if samples.len() != o.samples {
+        return Err(wrong(format!(
+            "{} samples given for a study of {}",
+            samples.len(),
+            o.samples
+        )));
+    }
+    let nvar = pr.model.variables.len();
+    for (k, s) in samples.iter().enumerate() {
+        if s.index != k {
+            return Err(wrong(format!("sample {} given in place {k}", s.index)));
+        }
+        if s.sample_seed != dispersion::sample_seed(o.seed, k as u64) {
+            return Err(wrong(format!("sample {k} is not of seed {}", o.seed)));
+        }
+        if s.draws.len() != nvar {
+            return Err(wrong(format!(
+                "sample {k} has {} draws for {nvar} dispersed quantities",
+                s.draws.len()
+            )));
+        }
+    }
+    Ok(())
 }
 
 fn summarize(
@@ -687,5 +756,77 @@ fn summarize(
         failures,
         runs,
         caution: CAUTION,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::app::Silent;
+
+    fn case() -> Case {
+        let text = include_str!("../../problems/guided/medium-2stage-leo200-guided.json");
+        Case::from_json(text).expect("the guided demo is valid")
+    }
+
+    #[test]
+    fn a_study_split_into_parts_equals_the_whole_run() {
+        let (case, o) = (
+            case(),
+            DispersionOptions {
+                samples: 6,
+                seed: 11,
+                ..DispersionOptions::default()
+            },
+        );
+        let whole = run(&case, &o, &Silent).expect("the study runs");
+        // Two parts, out of order, as two cluster tasks would fly them.
+        let a = run_samples(&case, &o, &[5, 1, 3], &Silent).expect("part a");
+        let b = run_samples(&case, &o, &[0, 4, 2], &Silent).expect("part b");
+        assert_eq!(
+            a.iter().map(|s| s.index).collect::<Vec<_>>(),
+            [5, 1, 3],
+            "samples come back in the order of the indices"
+        );
+        let mut all: Vec<Sample> = a.into_iter().chain(b).collect();
+        all.sort_by_key(|s| s.index);
+        assert_eq!(all, whole.runs);
+        // Through JSON text (how they travel between processes) they come back equal.
+        let text = serde_json::to_string(&all).expect("samples serialize");
+        let back: Vec<Sample> = serde_json::from_str(&text).expect("samples deserialize");
+        assert_eq!(back, all);
+        let report = report_from_samples(&case, &o, back).expect("the report builds");
+        assert_eq!(report, whole);
+        assert_eq!(report.samples, 6);
+    }
+
+    fn named<T>(r: Result<T, Error>) -> &'static str {
+        match r {
+            Err(Error::Option { option, .. }) => option,
+            Err(e) => panic!("another error: {e}"),
+            Ok(_) => panic!("accepted"),
+        }
+    }
+
+    #[test]
+    fn samples_not_of_the_study_are_refused_with_the_option_named() {
+        let (case, o) = (
+            case(),
+            DispersionOptions {
+                samples: 2,
+                ..DispersionOptions::default()
+            },
+        );
+        assert_eq!(named(run_samples(&case, &o, &[2], &Silent)), "indices");
+        let mut s = run_samples(&case, &o, &[1, 0], &Silent).expect("two samples");
+        assert_eq!(named(report_from_samples(&case, &o, s.clone())), "samples");
+        s.reverse();
+        let other_seed = DispersionOptions { seed: 2, ..o };
+        assert_eq!(
+            named(report_from_samples(&case, &other_seed, s.clone())),
+            "samples"
+        );
+        s.pop();
+        assert_eq!(named(report_from_samples(&case, &o, s)), "samples");
     }
 }

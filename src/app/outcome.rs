@@ -18,7 +18,7 @@ pub const CAUTION: &str = "Preliminary design only: not for flight software, ran
 licensing. Defer to local codes and licensed practice.";
 
 /// Outcome of a flight.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Status {
     /// Perigee at or above the orbit threshold.
