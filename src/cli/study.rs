@@ -40,7 +40,9 @@ fn print<T: serde::Serialize>(
 /// Reads a problem file and checks that it validates (a study of a bad file is bad input).
 fn read_valid(path: &Path) -> anyhow::Result<(ProblemFile, String)> {
     let (file, sha) = read_file(path)?;
-    kickturn::problem::validate::validate(&file).with_context(|| format!("{}", path.display()))?;
+    let p = kickturn::problem::validate::validate(&file)
+        .with_context(|| format!("{}", path.display()))?;
+    super::io::warn(path, &kickturn::problem::warning::warnings(&p));
     Ok((file, sha))
 }
 
@@ -217,7 +219,14 @@ pub fn run_compare(files: &[PathBuf], a: &StudyArgs) -> anyhow::Result<u8> {
     super::io::check_json_stdout(a.json)?;
     let read: Vec<(ProblemFile, String)> = files
         .iter()
-        .map(|p| read_file(p))
+        .map(|p| {
+            let r = read_file(p)?;
+            // A file that does not validate becomes a failed column; one that does may warn.
+            if let Ok(v) = kickturn::problem::validate::validate(&r.0) {
+                super::io::warn(p, &kickturn::problem::warning::warnings(&v));
+            }
+            Ok(r)
+        })
         .collect::<anyhow::Result<_>>()?;
     let names: Vec<String> = read.iter().map(|(f, _)| f.name.clone()).collect();
     let shas: Vec<String> = read.iter().map(|(_, s)| s.clone()).collect();

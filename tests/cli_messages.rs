@@ -1,0 +1,134 @@
+//! Issue 12 (what a new user meets): plausibility warnings, errors in plain words and as JSON,
+//! the schema and shell completions, study labels with units, tables sized to their content.
+
+mod bin_support;
+use bin_support::{json_of, kickturn, root};
+
+use kickturn::app::Case;
+use kickturn::problem::WarningKind;
+
+fn demo_json(name: &str) -> serde_json::Value {
+    let text = std::fs::read_to_string(root().join("problems").join(name)).unwrap_or_default();
+    serde_json::from_str(&text).unwrap_or(serde_json::Value::Null)
+}
+
+fn write_temp(tag: &str, v: &serde_json::Value) -> String {
+    let dir = std::env::temp_dir().join(format!("kickturn-msg-{}-{tag}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let p = dir.join("p.json");
+    std::fs::write(&p, serde_json::to_string_pretty(v).unwrap_or_default()).expect("write");
+    p.to_string_lossy().to_string()
+}
+
+#[test]
+fn the_demos_raise_no_warning() {
+    for d in [
+        "heavy-boosters-leo300.json",
+        "medium-2stage-leo200.json",
+        "small-3stage-sso500.json",
+    ] {
+        let text = std::fs::read_to_string(root().join("problems").join(d)).unwrap_or_default();
+        let case = Case::from_json(&text).expect("demo validates");
+        assert!(case.warnings.is_empty(), "{d}: {:?}", case.warnings);
+    }
+}
+
+#[test]
+fn a_value_that_could_be_meant_warns_on_stderr_and_the_run_goes_on() {
+    // An exhaust velocity written as Isp (3400 "s" = 3400 m/s = 346.7 s) and a q limit of
+    // 4.5 kPa: both validate (an electric stage, a deliberate limit), both look like slips.
+    let mut v = demo_json("medium-2stage-leo200.json");
+    v["vehicle"]["stages"][1]["isp_vac_s"] = 3400.0.into();
+    v["limits"]["max_dynamic_pressure_pa"] = 4500.0.into();
+    let text = serde_json::to_string(&v).unwrap_or_default();
+    let case = Case::from_json(&text).expect("validates");
+    let fields: Vec<(&str, WarningKind)> = case
+        .warnings
+        .iter()
+        .map(|w| (w.field.as_str(), w.kind))
+        .collect();
+    assert_eq!(
+        fields,
+        [
+            ("vehicle.stages[1].isp_vac_s", WarningKind::LikelyUnitSlip),
+            ("limits.max_dynamic_pressure_pa", WarningKind::Implausible)
+        ]
+    );
+    // 3400 / 9.80665 = 346.7 s.
+    assert!(
+        case.warnings[0].message.contains("346.7 s"),
+        "{:?}",
+        case.warnings
+    );
+
+    let p = write_temp("warn", &v);
+    let out = kickturn(&["fly", &p, "--json"]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    let lines: Vec<&str> = err.lines().collect();
+    assert_eq!(lines.len(), 2, "{err}");
+    assert!(lines[0].starts_with(&format!("warning: {p}: vehicle.stages[1].isp_vac_s: ")));
+    assert!(lines[0].contains("exhaust velocity in m/s"), "{err}");
+    assert!(lines[1].starts_with(&format!("warning: {p}: limits.max_dynamic_pressure_pa: ")));
+    // The run went on: a report on stdout.
+    assert!(json_of(&out)["status"].is_string());
+}
+
+#[test]
+fn an_upper_stage_thrust_in_kn_warns() {
+    // 900 "N" for a 900 kN upper stage: T/W at ignition 900 / (m g0) ≪ 0.05.
+    let mut v = demo_json("medium-2stage-leo200.json");
+    v["vehicle"]["stages"][1]["thrust_vac_n"] = 900.0.into();
+    let case = Case::from_json(&v.to_string()).expect("validates");
+    assert!(
+        case.warnings
+            .iter()
+            .any(|w| w.field == "vehicle.stages[1].thrust_vac_n" && w.message.contains("kN")),
+        "{:?}",
+        case.warnings
+    );
+}
+
+#[test]
+fn parser_messages_are_in_plain_words_with_the_field_path() {
+    let mut v = demo_json("medium-2stage-leo200.json");
+    v["site"]["name"] = serde_json::json!({"a": 1});
+    let p = write_temp("plain", &v);
+    let out = kickturn(&["fly", &p]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.starts_with(&format!(
+            "error: {p}: site.name: expected text in double quotes here, found an object {{ }} (line "
+        )),
+        "{err}"
+    );
+    assert!(!err.contains("invalid type"), "{err}");
+}
+
+#[test]
+fn every_error_under_json_is_a_json_object_on_stdout() {
+    // A usage error names its option.
+    let out = kickturn(&[
+        "fly",
+        "problems/medium-2stage-leo200.json",
+        "--json",
+        "--csv-step-s",
+        "0",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).starts_with("error: --csv-step-s"));
+    let r = json_of(&out);
+    assert_eq!(r["status"], "bad_input");
+    assert_eq!(r["error"]["kind"], "usage");
+    assert_eq!(r["error"]["field"], "--csv-step-s");
+    // A missing file.
+    let out = kickturn(&["solve", "no/such.json", "--json"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert_eq!(json_of(&out)["error"]["kind"], "usage");
+    // A refused value in a study.
+    let out = kickturn(&["trade", "tests/data/bad/negative-isp.json", "--json"]);
+    assert_eq!(out.status.code(), Some(2));
+    let r = json_of(&out);
+    assert_eq!(r["error"]["kind"], "invalid");
+    assert_eq!(r["error"]["field"], "vehicle.stages[1].isp_vac_s");
+}
