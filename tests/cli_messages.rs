@@ -132,3 +132,53 @@ fn every_error_under_json_is_a_json_object_on_stdout() {
     assert_eq!(r["error"]["kind"], "invalid");
     assert_eq!(r["error"]["field"], "vehicle.stages[1].isp_vac_s");
 }
+
+#[test]
+fn every_bundled_problem_validates_against_the_printed_schema() {
+    let out = kickturn(&["schema"]);
+    assert_eq!(out.status.code(), Some(0));
+    let schema = json_of(&out);
+    assert_eq!(
+        schema["$schema"],
+        "https://json-schema.org/draft/2020-12/schema"
+    );
+    let validator = jsonschema::validator_for(&schema).expect("the schema compiles");
+    let mut files: Vec<std::path::PathBuf> = Vec::new();
+    for dir in ["problems", "tests/data/repro"] {
+        if let Ok(d) = std::fs::read_dir(root().join(dir)) {
+            files.extend(
+                d.filter_map(Result::ok)
+                    .map(|e| e.path())
+                    .filter(|p| p.extension().is_some_and(|x| x == "json")),
+            );
+        }
+    }
+    assert!(files.len() >= 3, "{files:?}");
+    for f in &files {
+        let text = std::fs::read_to_string(f).unwrap_or_default();
+        let v: serde_json::Value = serde_json::from_str(&text).expect("JSON");
+        let errors: Vec<String> = validator.iter_errors(&v).map(|e| e.to_string()).collect();
+        assert!(errors.is_empty(), "{}: {errors:?}", f.display());
+    }
+    // The schema is strict where the parser is: a misspelled key and a wrong type fail.
+    let mut v = demo_json("medium-2stage-leo200.json");
+    assert!(validator.is_valid(&v));
+    v["site"]["latitude"] = 28.0.into();
+    assert!(!validator.is_valid(&v));
+    let mut v = demo_json("medium-2stage-leo200.json");
+    v["vehicle"]["stages"][0]["isp_vac_s"] = "300".into();
+    assert!(!validator.is_valid(&v));
+}
+
+#[test]
+fn completions_are_printed_for_each_shell() {
+    for shell in ["bash", "zsh", "fish"] {
+        let out = kickturn(&["completions", shell]);
+        assert_eq!(out.status.code(), Some(0), "{shell}");
+        let text = String::from_utf8_lossy(&out.stdout);
+        for word in ["kickturn", "solve", "compare", "max-trajectories"] {
+            assert!(text.contains(word), "{shell}: {word}");
+        }
+    }
+    assert_eq!(kickturn(&["completions", "tcsh"]).status.code(), Some(2));
+}

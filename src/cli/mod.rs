@@ -47,6 +47,13 @@ pub enum Command {
     /// Payload (or margin) change per unit change of each stage's dry mass, propellant, Isp and
     /// thrust, and of the drag coefficient.
     Trade(TradeArgs),
+    /// Print the JSON Schema of the problem file (for editors and checks before a run).
+    Schema,
+    /// Print a shell completion script (bash, zsh, fish, elvish, powershell).
+    Completions {
+        /// The shell.
+        shell: clap_complete::Shell,
+    },
 }
 
 /// Options shared by the study commands.
@@ -364,6 +371,18 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
         }
         Command::Compare(a) => study::run_compare(&a.problems, &a.study),
         Command::Trade(a) => study::run_trade(&a.problem, &a.study),
+        Command::Schema => {
+            let schema = kickturn::problem::json_schema();
+            io::emit(&format!("{}\n", serde_json::to_string_pretty(&schema)?))?;
+            Ok(EXIT_OK)
+        }
+        Command::Completions { shell } => {
+            use clap::CommandFactory;
+            let mut out = Vec::new();
+            clap_complete::generate(shell, &mut Cli::command(), "kickturn", &mut out);
+            io::emit(&String::from_utf8_lossy(&out))?;
+            Ok(EXIT_OK)
+        }
     }
 }
 

@@ -4,10 +4,11 @@
 //! [`super::validate`] turns a [`ProblemFile`] into a checked [`super::Problem`]; nothing else in the
 //! library reads these types. The format is documented in `docs/problem-format.md`.
 
+use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
 /// Top level of a problem file.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct ProblemFile {
     /// Short name used in report titles.
@@ -38,7 +39,7 @@ pub struct ProblemFile {
 }
 
 /// Propellant reserves of the last stage (all optional, default 0).
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct ReservesFile {
     /// Flight performance reserve as a percentage of the ideal ΔV, %.
@@ -56,7 +57,7 @@ pub struct ReservesFile {
 }
 
 /// Launch site, geodetic coordinates on the WGS-84 ellipsoid.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct SiteFile {
     /// Name of the (invented) site.
@@ -71,7 +72,7 @@ pub struct SiteFile {
 }
 
 /// Launch direction. Give exactly one of `azimuth_deg` or `inclination_deg`.
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct LaunchFile {
     /// Launch azimuth, degrees clockwise from north.
@@ -90,7 +91,7 @@ pub struct LaunchFile {
 }
 
 /// Azimuth branch for an inclination.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum BranchFile {
     /// Azimuth between 270° and 90° through north.
@@ -102,7 +103,7 @@ pub enum BranchFile {
 /// Target orbit: either apsides (`perigee_alt_km`, `apogee_alt_km`, optional `insertion`) or an
 /// insertion state (`insertion_alt_km`, `insertion_speed_mps`, `insertion_flight_path_deg`).
 /// Altitudes are radius − 6378.137 km (osculating, at cutoff).
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct TargetFile {
     /// Perigee altitude, km.
@@ -130,7 +131,7 @@ pub struct TargetFile {
 }
 
 /// Where an apsis target is met.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum InsertionFile {
     /// At perigee: cutoff radius = perigee radius, flight-path angle 0.
@@ -140,7 +141,7 @@ pub enum InsertionFile {
 }
 
 /// The vehicle: payload, serial stages (first fires at liftoff), optional boosters, jettisons.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct VehicleFile {
     /// Vehicle name.
@@ -158,7 +159,7 @@ pub struct VehicleFile {
 }
 
 /// One serial stage.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct StageFile {
     /// Stage name.
@@ -185,7 +186,7 @@ pub struct StageFile {
 }
 
 /// A set of identical strap-on boosters.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct BoosterFile {
     /// Name of the booster type.
@@ -211,7 +212,7 @@ pub struct BoosterFile {
 }
 
 /// Reference area and drag coefficient against Mach number for one configuration.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct AeroFile {
     /// Reference area, m².
@@ -225,7 +226,7 @@ pub struct AeroFile {
 }
 
 /// Interpolation of a C_D table between its points.
-#[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq, Eq, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum CdInterpolationFile {
     /// Straight lines.
@@ -235,7 +236,7 @@ pub enum CdInterpolationFile {
 }
 
 /// A mass dropped on a condition.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct JettisonFile {
     /// Name (e.g. "fairing").
@@ -247,7 +248,7 @@ pub struct JettisonFile {
 }
 
 /// Condition for a jettison (one key).
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum JettisonWhenFile {
     /// At this time after liftoff, s.
@@ -260,7 +261,7 @@ pub enum JettisonWhenFile {
 }
 
 /// The ascent program: liftoff manoeuvre, then arcs in order.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct AscentFile {
     /// Vertical rise, pitch-over and attitude hold before the gravity turn.
@@ -274,7 +275,7 @@ pub struct AscentFile {
 }
 
 /// Liftoff manoeuvre of the gravity-turn program.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct LiftoffFile {
     /// End of the vertical rise.
@@ -286,7 +287,7 @@ pub struct LiftoffFile {
 }
 
 /// End of the vertical rise (one key).
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum RiseEndFile {
     /// After this time from liftoff, s.
@@ -296,7 +297,7 @@ pub enum RiseEndFile {
 }
 
 /// Throttle bucket: reduced throttle over a time window on the first stage.
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct BucketFile {
     /// Start, s after liftoff.
@@ -308,7 +309,7 @@ pub struct BucketFile {
 }
 
 /// One arc of the ascent (one key: `burn` or `coast`).
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum ArcFile {
     /// Powered arc on the current stage.
@@ -318,7 +319,7 @@ pub enum ArcFile {
 }
 
 /// A powered arc.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct BurnFile {
     /// Steering law for this arc.
@@ -329,7 +330,7 @@ pub struct BurnFile {
 }
 
 /// Steering law of a burn.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum SteeringFile {
     /// Zero angle of attack (thrust along the Earth-relative velocity); on the first arc it starts
@@ -349,7 +350,7 @@ pub enum SteeringFile {
 
 /// Linear tangent law tan θ = tan θ0 − c·τ, τ time since the arc's start, θ above the horizontal
 /// plane frozen (inertially) at the arc's start.
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct LinearTangentFile {
     /// Pitch above the frozen horizontal at the arc's start, degrees.
@@ -367,7 +368,7 @@ pub struct LinearTangentFile {
 }
 
 /// Burn cutoff (string `"depletion"` / `"target_orbit"`, or one key with a value).
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum CutoffFile {
     /// Burn until the stage's propellant is gone.
@@ -383,7 +384,7 @@ pub enum CutoffFile {
 }
 
 /// An unpowered arc.
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum CoastFile {
     /// Coast for this long, s.
@@ -393,7 +394,7 @@ pub enum CoastFile {
 }
 
 /// Path limits.
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct LimitsFile {
     /// Largest sensed axial acceleration, in units of g0; the core throttles to hold it.
@@ -408,7 +409,7 @@ pub struct LimitsFile {
 }
 
 /// Model and integrator settings. Defaults: WGS-84 with J2, rotating, US 1976 atmosphere.
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct ModelFile {
     /// Include the J2 gravity term (default true).
@@ -432,7 +433,7 @@ pub struct ModelFile {
 }
 
 /// Atmosphere model choice.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum AtmosphereFile {
     /// U.S. Standard Atmosphere 1976, tabulated densities above 86 km.

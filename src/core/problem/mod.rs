@@ -244,6 +244,19 @@ impl Problem {
     }
 }
 
+/// JSON Schema (draft 2020-12) of the problem file, generated from the file types and their doc
+/// comments (what `kickturn schema` prints, for editors and for checking files before a run).
+/// The schema knows the keys, types and required fields; ranges and the checks between fields
+/// stay with [`validate`].
+pub fn json_schema() -> serde_json::Value {
+    let mut schema =
+        serde_json::to_value(schemars::schema_for!(ProblemFile)).unwrap_or(serde_json::Value::Null);
+    if let Some(o) = schema.as_object_mut() {
+        o.insert("title".into(), "kickturn problem file".into());
+    }
+    schema
+}
+
 /// Parses problem JSON into the raw file mirror; errors carry the JSON path of the field.
 /// A problem must be exactly one JSON value: anything after it (a second problem, a stray `}`
 /// that closed the document early) is refused with its line and column. A UTF-8 byte order mark
