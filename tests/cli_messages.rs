@@ -182,3 +182,172 @@ fn completions_are_printed_for_each_shell() {
     }
     assert_eq!(kickturn(&["completions", "tcsh"]).status.code(), Some(2));
 }
+
+#[test]
+fn trade_has_booster_fairing_and_reserve_rows_with_units_in_words() {
+    let dir = std::env::temp_dir().join(format!("kickturn-msg-{}-trade", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let csv = dir.join("t.csv");
+    let c = csv.to_string_lossy().to_string();
+    let out = kickturn(&[
+        "trade",
+        "problems/heavy-boosters-leo300.json",
+        "--max-trajectories",
+        "3000",
+        "--csv",
+        &c,
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout);
+    let row = |name: &str| {
+        text.lines()
+            .find(|l| l.trim_start().starts_with(name))
+            .unwrap_or_else(|| panic!("no row {name}: {text}"))
+            .to_string()
+    };
+    let dry = row("Corvane solid booster dry mass (each booster)");
+    assert!(
+        dry.contains("kg per kg") && dry.ends_with("±150 kg"),
+        "{dry}"
+    );
+    assert!(row("Corvane solid booster vacuum Isp").contains("kg per 1 s of Isp"));
+    assert!(row("Corvane solid booster vacuum thrust").contains("kg per 1 kN of thrust"));
+    assert!(row("payload fairing mass (jettisoned)").contains("kg per kg"));
+    assert!(row("drag coefficient").ends_with("±5 % of C_D"));
+    assert!(!text.contains("kg/s") && !text.contains("kg/kg"), "{text}");
+    // A reserve changes no trajectory: the margin after reserves falls by exactly what is set
+    // aside (−1 kg per kg, by construction of the margin).
+    let table = std::fs::read_to_string(&csv).unwrap_or_default();
+    assert!(table.starts_with("parameter,step,factor,unit,ok,step_unit\n"));
+    let reserve: Vec<&str> = table
+        .lines()
+        .find(|l| l.starts_with("last-stage reserve"))
+        .map(|l| l.split(',').collect())
+        .unwrap_or_default();
+    let f: f64 = reserve
+        .get(2)
+        .and_then(|x| x.parse().ok())
+        .unwrap_or(f64::NAN);
+    assert!((f + 1.0).abs() < 1e-6, "{reserve:?}");
+    // A booster's dry mass costs margin (it is carried to booster separation).
+    let booster: f64 = table
+        .lines()
+        .find(|l| l.starts_with("Corvane solid booster dry mass"))
+        .and_then(|l| l.split(',').nth(2))
+        .and_then(|x| x.parse().ok())
+        .unwrap_or(f64::NAN);
+    assert!(booster < 0.0 && booster > -1.0, "{booster}");
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn compare_names_every_csv_row_and_tells_equal_names_apart_by_file() {
+    let dir = std::env::temp_dir().join(format!("kickturn-msg-{}-compare", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let copy = dir.join("variant.json");
+    std::fs::copy(root().join("problems/medium-2stage-leo200.json"), &copy).expect("copy");
+    let v = copy.to_string_lossy().to_string();
+    let out = kickturn(&[
+        "compare",
+        "problems/medium-2stage-leo200.json",
+        &v,
+        "--max-trajectories",
+        "2000",
+        "--csv",
+        "-",
+    ]);
+    assert_eq!(out.status.code(), Some(0));
+    let csv = String::from_utf8_lossy(&out.stdout);
+    let lines: Vec<&str> = csv.lines().collect();
+    assert!(
+        lines[0].starts_with("problem,swept_index,status,payload_kg,"),
+        "{csv}"
+    );
+    assert!(
+        lines[1].starts_with("Brannock M2 to 200 km circular [medium-2stage-leo200],0,"),
+        "{csv}"
+    );
+    assert!(
+        lines[2].starts_with("Brannock M2 to 200 km circular [variant],1,"),
+        "{csv}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn tables_fit_long_names_and_the_tuned_list_reads_in_flight_order() {
+    // A 40-character stage name: every line of the per-arc table keeps the same width.
+    let mut v = demo_json("medium-2stage-leo200.json");
+    v["vehicle"]["stages"][0]["name"] = "Brannock core with a very long stage name".into();
+    let p = write_temp("long", &v);
+    let out = kickturn(&["fly", &p]);
+    let text = String::from_utf8_lossy(&out.stdout);
+    let arcs: Vec<&str> = text
+        .lines()
+        .skip_while(|l| !l.starts_with("Per-arc budget"))
+        .skip(1)
+        .take_while(|l| !l.is_empty())
+        .collect();
+    assert_eq!(arcs.len(), 4, "{text}");
+    let w = arcs[0].chars().count();
+    assert!(arcs.iter().all(|l| l.chars().count() == w), "{arcs:#?}");
+
+    // The small demo's written heading −9.13° shows as 350.87°, beside an azimuth of ~356°;
+    // the list runs launch, liftoff, then the arcs in order, each with written → tuned.
+    let out = kickturn(&["solve", "problems/small-3stage-sso500.json"]);
+    let text = String::from_utf8_lossy(&out.stdout);
+    let tuned: Vec<&str> = text
+        .lines()
+        .skip_while(|l| !l.starts_with("tuned program"))
+        .skip(2)
+        .take_while(|l| l.starts_with("  "))
+        .collect();
+    let fields: Vec<&str> = tuned
+        .iter()
+        .filter_map(|l| l.split_whitespace().next())
+        .collect();
+    assert_eq!(fields[0], "launch.azimuth_deg", "{tuned:#?}");
+    assert_eq!(fields[1], "ascent.liftoff.kick_deg");
+    assert_eq!(fields[2], "ascent.arcs[1].coast.duration_s");
+    assert!(fields
+        .last()
+        .is_some_and(|f| f.starts_with("ascent.arcs[6]")));
+    let heading = tuned
+        .iter()
+        .find(|l| l.contains("heading_deg"))
+        .copied()
+        .unwrap_or("");
+    assert!(heading.contains("350.870000  →  3"), "{heading}");
+    assert!(tuned.iter().all(|l| l.contains("  →  ")), "{tuned:#?}");
+    assert!(!text.contains("°, -") && !text.contains(" -9.13"), "{text}");
+
+    // JSON: the file's value beside the tuned one, and max-Q with its unit beside `value`.
+    let r = json_of(&kickturn(&[
+        "solve",
+        "problems/small-3stage-sso500.json",
+        "--json",
+    ]));
+    let t = &r["tuned"];
+    let h = t
+        .as_array()
+        .and_then(|a| {
+            a.iter().find(|x| {
+                x["field"]
+                    .as_str()
+                    .is_some_and(|f| f.ends_with("heading_deg"))
+            })
+        })
+        .cloned()
+        .unwrap_or_default();
+    assert_eq!(
+        h["written"].as_f64().map(|w| (w * 100.0).round()),
+        Some(-913.0)
+    );
+    assert_eq!(r["max_q"]["value_pa"], r["max_q"]["value"]);
+    assert_eq!(r["max_q"]["value_pa"], r["max_dynamic_pressure_pa"]);
+}
