@@ -92,6 +92,8 @@ pub fn angle_0_360(deg: f64, decimals: usize) -> String {
     if (a - 360.0).abs() < 0.5 / scale {
         a = 0.0;
     }
+    // −0.0 (from a tiny negative angle) prints as "-0.000".
+    a += 0.0;
     format!("{a:.decimals$}")
 }
 
