@@ -121,6 +121,19 @@ fn every_error_under_json_is_a_json_object_on_stdout() {
     assert_eq!(r["status"], "bad_input");
     assert_eq!(r["error"]["kind"], "usage");
     assert_eq!(r["error"]["field"], "--csv-step-s");
+    // A value the command line itself cannot read.
+    let out = kickturn(&[
+        "fly",
+        "problems/medium-2stage-leo200.json",
+        "--json",
+        "--csv-step-s",
+        "abc",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let r = json_of(&out);
+    assert_eq!(r["error"]["kind"], "usage");
+    assert_eq!(r["error"]["field"], "--csv-step-s");
+    assert!(String::from_utf8_lossy(&out.stderr).starts_with("error: "));
     // A missing file.
     let out = kickturn(&["solve", "no/such.json", "--json"]);
     assert_eq!(out.status.code(), Some(2));

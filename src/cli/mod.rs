@@ -268,7 +268,8 @@ pub const EXIT_INTERRUPTED: u8 = 130;
 
 /// Parses arguments, runs, and maps the outcome to an exit code.
 pub fn main_with_args(args: impl IntoIterator<Item = std::ffi::OsString>) -> ExitCode {
-    let cli = match Cli::try_parse_from(args) {
+    let args: Vec<std::ffi::OsString> = args.into_iter().collect();
+    let cli = match Cli::try_parse_from(&args) {
         Ok(c) => c,
         Err(e) => {
             let code = if e.use_stderr() {
@@ -277,6 +278,34 @@ pub fn main_with_args(args: impl IntoIterator<Item = std::ffi::OsString>) -> Exi
                 EXIT_OK
             };
             let _ = e.print();
+            // A command line that asked for `--json` gets its usage error as JSON too.
+            if e.use_stderr() && args.iter().any(|a| a == "--json") {
+                // clap's text without its `error: ` and its closing hint.
+                let text = e.to_string();
+                let message = text
+                    .strip_prefix("error: ")
+                    .unwrap_or(&text)
+                    .split("\n\n")
+                    .next()
+                    .unwrap_or("")
+                    .to_string();
+                let field = match e.get(clap::error::ContextKind::InvalidArg) {
+                    Some(clap::error::ContextValue::String(f)) => {
+                        f.split_whitespace().next().map(str::to_string)
+                    }
+                    _ => None,
+                };
+                let doc = serde_json::json!({
+                    "tool": app::tool_version(),
+                    "status": "bad_input",
+                    "message": message,
+                    "error": error_object("usage", field.as_deref(), &message),
+                });
+                let _ = io::emit(&format!(
+                    "{}\n",
+                    serde_json::to_string_pretty(&doc).unwrap_or_default()
+                ));
+            }
             return ExitCode::from(code);
         }
     };
