@@ -364,3 +364,39 @@ fn tables_fit_long_names_and_the_tuned_list_reads_in_flight_order() {
     assert_eq!(r["max_q"]["value_pa"], r["max_q"]["value"]);
     assert_eq!(r["max_q"]["value_pa"], r["max_dynamic_pressure_pa"]);
 }
+
+#[test]
+fn the_liftoff_event_shows_the_throttle_and_acceleration_of_the_history() {
+    // Issue 12: the liftoff row read throttle 0.0 and 0.0 g while the CSV's first row read 1.0
+    // and 1.38 g (the event was taken before the first burn lit its engines).
+    let r = json_of(&kickturn(&[
+        "fly",
+        "problems/medium-2stage-leo200.json",
+        "--json",
+    ]));
+    let e = &r["events"][0];
+    assert_eq!(e["kind"], "liftoff");
+    let csv = kickturn(&["fly", "problems/medium-2stage-leo200.json", "--csv", "-"]);
+    let text = String::from_utf8_lossy(&csv.stdout);
+    let mut lines = text.lines();
+    let head: Vec<&str> = lines.next().unwrap_or("").split(',').collect();
+    let first: Vec<&str> = lines.next().unwrap_or("").split(',').collect();
+    let col = |name: &str| -> f64 {
+        head.iter()
+            .position(|h| *h == name)
+            .and_then(|i| first.get(i))
+            .and_then(|x| x.parse().ok())
+            .unwrap_or(f64::NAN)
+    };
+    let ev = |k: &str| {
+        e[k].as_f64()
+            .or_else(|| e["at"][k].as_f64())
+            .unwrap_or(f64::NAN)
+    };
+    assert_eq!(ev("throttle"), 1.0);
+    assert!(
+        (ev("axial_accel_g") - col("axial_accel_g")).abs() < 1e-5,
+        "{e}"
+    );
+    assert!(col("axial_accel_g") > 1.0);
+}
