@@ -173,6 +173,19 @@ fn every_bundled_problem_validates_against_the_printed_schema() {
         let errors: Vec<String> = validator.iter_errors(&v).map(|e| e.to_string()).collect();
         assert!(errors.is_empty(), "{}: {errors:?}", f.display());
     }
+    // The copy in docs/ (for editors) is the printed schema.
+    let committed =
+        std::fs::read_to_string(root().join("docs/problem-format.schema.json")).unwrap_or_default();
+    assert_eq!(
+        committed,
+        String::from_utf8_lossy(&out.stdout),
+        "docs/problem-format.schema.json is stale: regenerate it with `kickturn schema`"
+    );
+    // A file may name its schema for an editor; kickturn accepts and ignores the key.
+    let mut v = demo_json("medium-2stage-leo200.json");
+    v["$schema"] = "../docs/problem-format.schema.json".into();
+    assert!(validator.is_valid(&v));
+    assert!(Case::from_json(&v.to_string()).is_ok());
     // The schema is strict where the parser is: a misspelled key and a wrong type fail.
     let mut v = demo_json("medium-2stage-leo200.json");
     assert!(validator.is_valid(&v));

@@ -11,6 +11,10 @@ use serde::{Deserialize, Serialize};
 #[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct ProblemFile {
+    /// The JSON Schema this file follows, for editors (`docs/problem-format.schema.json`, printed by
+    /// `kickturn schema`); kickturn itself ignores it.
+    #[serde(rename = "$schema", default, skip_serializing_if = "Option::is_none")]
+    pub schema: Option<String>,
     /// Short name used in report titles.
     pub name: String,
     /// Free text.
