@@ -207,6 +207,26 @@ fn bad_inputs_exit_2_with_the_field_path_and_nothing_on_stdout() {
             let out = kickturn(&args);
             let err = String::from_utf8_lossy(&out.stderr);
             assert_eq!(out.status.code(), Some(2), "{}: {err}", path.display());
+            assert!(err.starts_with("error: "), "{}: {err}", path.display());
+            if args.len() == 3 {
+                // Under --json the same error as a JSON object on stdout (issue 12).
+                let r = json_of(&out);
+                assert_eq!(r["status"], "bad_input", "{}", path.display());
+                assert!(
+                    r["error"]["kind"] == "format" || r["error"]["kind"] == "invalid",
+                    "{}: {r}",
+                    path.display()
+                );
+                assert!(r["error"]["field"].is_string(), "{}: {r}", path.display());
+                assert!(
+                    r["error"]["message"]
+                        .as_str()
+                        .is_some_and(|m| m.contains(expected)),
+                    "{}: {r}",
+                    path.display()
+                );
+                continue;
+            }
             assert!(
                 out.stdout.is_empty(),
                 "{}: stdout not empty",
@@ -579,6 +599,12 @@ fn an_unreachable_target_inclination_with_a_given_azimuth_is_refused_at_once() {
     let r = json_of(&out);
     assert_eq!(r["status"], "unreachable_inclination");
     assert_eq!(r["field"], "target.inclination_deg");
+    // The same `error` object as bad input (issue 12).
+    assert_eq!(r["error"]["kind"], "unreachable_inclination");
+    assert_eq!(r["error"]["field"], "target.inclination_deg");
+    assert!(r["error"]["message"]
+        .as_str()
+        .is_some_and(|m| m.contains("launch.allow_dog_leg")));
     // Plane change 2·v·sin(Δi/2) at 200 km (v ≈ 7784 m/s): about 1091 m/s for Δi ≈ 8.04°.
     let dv = r["plane_change_mps"].as_f64().unwrap_or(f64::NAN);
     assert!((dv - 1091.4).abs() < 1.0, "{dv}");
@@ -701,7 +727,11 @@ fn a_dash_reads_the_problem_from_stdin_and_sends_one_output_to_stdout() {
     ] {
         let out = kickturn(args);
         assert_eq!(out.status.code(), Some(2), "{args:?}");
-        assert!(out.stdout.is_empty(), "{args:?}");
+        if args.contains(&"--json") {
+            assert_eq!(json_of(&out)["error"]["kind"], "usage", "{args:?}");
+        } else {
+            assert!(out.stdout.is_empty(), "{args:?}");
+        }
         assert!(
             String::from_utf8_lossy(&out.stderr).starts_with("error: "),
             "{args:?}"

@@ -143,8 +143,9 @@ fn compare_and_trade_stream_their_points_with_what_each_stands_for() {
         assert_eq!(l["problem"], pairs[index_of(&l)][0]);
     }
 
-    // A trade of 9 parameters is 18 points; a small trajectory budget keeps it short (the
-    // factors need not converge for the stream to be checked).
+    // A trade of 11 parameters (two stages, drag, the fairing and the reserve) is 22 points; a
+    // small trajectory budget keeps it short (the factors need not converge for the stream to
+    // be checked).
     let (jl, csv) = (dir.join("t.jsonl"), dir.join("t.csv"));
     let (j, c) = (jl.to_string_lossy(), csv.to_string_lossy());
     let out = kickturn(&[
@@ -165,19 +166,19 @@ fn compare_and_trade_stream_their_points_with_what_each_stands_for() {
     );
     let report = json_of(&out);
     let factors = report["factors"].as_array().cloned().unwrap_or_default();
-    assert_eq!(factors.len(), 9);
+    assert_eq!(factors.len(), 11);
     let all = lines(&jl);
-    assert_eq!(all.len(), 18 + 2);
-    assert_eq!(all[0]["planned_points"], 18);
+    assert_eq!(all.len(), 22 + 2);
+    assert_eq!(all[0]["planned_points"], 22);
     assert_eq!(all[0]["value"], "signed_step");
-    assert_eq!(all[19]["complete"], true);
+    assert_eq!(all[23]["complete"], true);
     assert_eq!(
-        all[19]["succeeded"],
+        all[23]["succeeded"],
         report["factors"]
             .as_array()
             .is_some_and(|f| f.iter().all(|f| f["ok"] == true))
     );
-    for l in &all[1..19] {
+    for l in &all[1..23] {
         let i = index_of(l);
         let f = &factors[i / 2];
         assert_eq!(l["parameter"], f["param"]);
@@ -187,8 +188,8 @@ fn compare_and_trade_stream_their_points_with_what_each_stands_for() {
         assert_eq!(l["value"].as_f64(), f["step"].as_f64().map(|s| sign * s));
     }
     let table = text(&csv);
-    assert_eq!(table.lines().count(), 10, "header and nine factors");
-    assert!(table.starts_with("parameter,step,factor,unit,ok\n"));
+    assert_eq!(table.lines().count(), 12, "header and eleven factors");
+    assert!(table.starts_with("parameter,step,factor,unit,ok,step_unit\n"));
     let _ = std::fs::remove_dir_all(&dir);
 }
 

@@ -176,7 +176,7 @@ def test_study_documents_become_frames_in_the_csv_columns():
     assert list(frame.columns[4:]) == list(frames.POINT_COLUMNS)
     head, _ = run_cli("compare", MEDIUM, SMALL, "--max-trajectories", "3000", "--csv", "-")
     csv_columns = head.splitlines()[0].split(",")
-    assert csv_columns == ["swept_index", "status", *frames.POINT_COLUMNS]
+    assert csv_columns == ["problem", "swept_index", "status", *frames.POINT_COLUMNS]
 
 
 def test_a_grid_row_is_the_sweep_of_the_problem_with_the_first_axis_applied():

@@ -73,6 +73,9 @@ pub struct Case {
     pub file: ProblemFile,
     /// The validated problem (with the SHA-256 of the text it came from, when known).
     pub problem: Problem,
+    /// Plausibility warnings: values that validate but look like a unit or typing slip (the
+    /// command line prints them on stderr; the library never prints).
+    pub warnings: Vec<problem::Warning>,
 }
 
 impl Case {
@@ -81,13 +84,23 @@ impl Case {
         let file = problem::parse(text)?;
         let mut problem = validate::validate(&file)?;
         problem.input_sha256 = problem::sha256_hex(text.as_bytes());
-        Ok(Case { file, problem })
+        let warnings = problem::warning::warnings(&problem);
+        Ok(Case {
+            file,
+            problem,
+            warnings,
+        })
     }
 
     /// Validates a problem file mirror (no input hash).
     pub fn from_file(file: ProblemFile) -> Result<Case, ProblemError> {
         let problem = validate::validate(&file)?;
-        Ok(Case { file, problem })
+        let warnings = problem::warning::warnings(&problem);
+        Ok(Case {
+            file,
+            problem,
+            warnings,
+        })
     }
 
     /// The problem, or why a direct ascent cannot reach its inclination (dog legs allowed by

@@ -144,7 +144,7 @@ pub struct FlightReport {
     /// Maximum dynamic pressure, Pa.
     pub max_dynamic_pressure_pa: f64,
     /// Max-Q details.
-    pub max_q: Option<Extremum>,
+    pub max_q: Option<MaxQ>,
     /// Maximum sensed axial acceleration, g0.
     pub max_axial_accel_g: f64,
     /// Limit on dynamic pressure, Pa, if given.
@@ -247,7 +247,7 @@ impl FlightReport {
             propellant_remaining_kg: f.propellant_remaining_kg,
             final_mass_kg: f.y1[crate::core::sim::dynamics::ix::M],
             max_dynamic_pressure_pa: f.max_q.map_or(0.0, |m| m.value),
-            max_q: f.max_q,
+            max_q: f.max_q.map(MaxQ::from),
             max_axial_accel_g: f.max_axial_accel.map_or(0.0, |m| m.value),
             max_dynamic_pressure_limit_pa: p.limits.max_dynamic_pressure_pa,
             max_axial_accel_limit_g: p
@@ -267,5 +267,26 @@ impl FlightReport {
     /// True when the vehicle reached orbit.
     pub fn reached_orbit(&self) -> bool {
         self.status == Status::Orbit
+    }
+}
+
+/// Max-Q and the flight state there.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct MaxQ {
+    /// Maximum dynamic pressure, Pa (the key other programs read; `value_pa` says its unit).
+    pub value: f64,
+    /// Maximum dynamic pressure, Pa (the same number under a key with its unit).
+    pub value_pa: f64,
+    /// Flight state at max-Q.
+    pub at: crate::core::sim::Snapshot,
+}
+
+impl From<Extremum> for MaxQ {
+    fn from(e: Extremum) -> Self {
+        MaxQ {
+            value: e.value,
+            value_pa: e.value,
+            at: e.at,
+        }
     }
 }

@@ -31,8 +31,11 @@ pub struct TunedProgram {
 pub struct Tuned {
     /// JSON path of the field.
     pub field: String,
-    /// Value in the field's unit.
+    /// Value in the field's unit (the unit ends the field's name: `kick_deg`, `duration_s`).
     pub value: f64,
+    /// The value the problem file gave, in the same unit (`None` when the file states none: the
+    /// search started from its own guess).
+    pub written: Option<f64>,
     /// The bound the value sits on, if any: the optimum may lie beyond it (widen it, or free
     /// another variable), so it is not a free optimum in this variable.
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -47,6 +50,23 @@ pub enum AtBound {
     Lower,
     /// Its upper bound.
     Upper,
+}
+
+/// Where a tuned variable acts in flight, for listing them in flight order: the launch and the
+/// liftoff manoeuvre first, the throttle bucket on the first arc, then each arc's law, cutoff and
+/// coast in program order (the arcs fly in that order), anything else last.
+fn flight_order(v: &Param) -> (usize, u8) {
+    match *v {
+        Param::Azimuth | Param::TargetInclination => (0, 0),
+        Param::RiseTime => (0, 1),
+        Param::PitchRate => (0, 2),
+        Param::Kick => (0, 3),
+        Param::BucketStart | Param::BucketDuration | Param::BucketThrottle => (0, 4),
+        Param::Law { arc, .. } => (arc, 5),
+        Param::ApogeeCutoff(arc) => (arc, 6),
+        Param::Coast(arc) => (arc, 5),
+        _ => (usize::MAX, 0),
+    }
 }
 
 /// The bound `x` (SI) of `v` sits on: the registry's bounds, and for a timed coast its written
@@ -560,15 +580,25 @@ fn report(
             launch: tuned_file.launch.clone(),
             ascent: tuned_file.ascent.clone(),
         },
-        tuned: sol
-            .variables
-            .iter()
-            .map(|(v, x)| Tuned {
-                field: v.name(),
-                value: v.to_file_unit(*x),
-                at_bound: bound_hit(v, *x, p),
-            })
-            .collect(),
+        tuned: {
+            let mut t: Vec<(Param, Tuned)> = sol
+                .variables
+                .iter()
+                .map(|(v, x)| {
+                    (
+                        *v,
+                        Tuned {
+                            field: v.name(),
+                            value: v.to_file_unit(*x),
+                            written: v.get(p).map(|w| v.to_file_unit(w)),
+                            at_bound: bound_hit(v, *x, p),
+                        },
+                    )
+                })
+                .collect();
+            t.sort_by_key(|(v, _)| flight_order(v));
+            t.into_iter().map(|(_, t)| t).collect()
+        },
         propellant_used_kg: flown.vehicle.propellant_loaded_kg() - report.propellant_remaining_kg,
         payload_kg: flown.vehicle.payload_kg,
         propellant_remaining_kg: report.propellant_remaining_kg,

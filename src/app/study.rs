@@ -438,7 +438,8 @@ impl CompareReport {
     }
 }
 
-/// A traded parameter: a registry [`Param`] and the trade's step and unit for it.
+/// A traded parameter: a registry [`Param`] (stage and drag rows) or a field of the file that the
+/// optimizer never tunes (booster, jettison and reserve rows), with the trade's step and unit.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 #[serde(rename_all = "snake_case", tag = "kind")]
 pub enum Traded {
@@ -464,64 +465,175 @@ pub enum Traded {
     },
     /// Every drag coefficient, % of its value.
     Drag,
+    /// Dry mass of one strap-on booster, kg (all boosters change together).
+    BoosterDryMass,
+    /// Propellant of one strap-on booster, kg.
+    BoosterPropellant,
+    /// Vacuum Isp of the boosters, s.
+    BoosterIsp,
+    /// Vacuum thrust of one booster, kN (sea-level thrust and exit area scale with it).
+    BoosterThrust,
+    /// Mass of jettisoned item `index` (a fairing, an interstage), kg.
+    Jettison {
+        /// Index in `vehicle.jettisons`.
+        index: usize,
+    },
+    /// Unusable residual propellant of the last stage (`reserves.residuals_kg`), kg: every
+    /// reserve mass acts alike.
+    Reserve,
 }
 
 impl Traded {
-    /// The registry parameter.
-    pub fn param(&self) -> Param {
+    /// The registry parameter, for the rows that have one (stage and drag rows).
+    pub fn param(&self) -> Option<Param> {
         match *self {
-            Traded::DryMass { stage } => Param::DryMass(stage),
-            Traded::Propellant { stage } => Param::Propellant(stage),
-            Traded::Isp { stage } => Param::IspVac(stage),
-            Traded::Thrust { stage } => Param::ThrustVac(stage),
-            Traded::Drag => Param::DragScale,
+            Traded::DryMass { stage } => Some(Param::DryMass(stage)),
+            Traded::Propellant { stage } => Some(Param::Propellant(stage)),
+            Traded::Isp { stage } => Some(Param::IspVac(stage)),
+            Traded::Thrust { stage } => Some(Param::ThrustVac(stage)),
+            Traded::Drag => Some(Param::DragScale),
+            _ => None,
         }
+    }
+
+    /// The parameter's value in the file, SI (N for thrust, 1 for the drag scale).
+    fn read(&self, f: &ProblemFile) -> f64 {
+        let b = f.vehicle.boosters.as_ref();
+        match *self {
+            Traded::BoosterDryMass => b.map(|b| b.dry_mass_kg),
+            Traded::BoosterPropellant => b.map(|b| b.propellant_kg),
+            Traded::BoosterIsp => b.map(|b| b.isp_vac_s),
+            Traded::BoosterThrust => b.map(|b| b.thrust_vac_n),
+            Traded::Jettison { index } => f.vehicle.jettisons.get(index).map(|j| j.mass_kg),
+            Traded::Reserve => f.reserves.as_ref().and_then(|r| r.residuals_kg),
+            _ => self.param().and_then(|p| p.read_file(f)),
+        }
+        .unwrap_or(0.0)
     }
 
     /// The step used for the central difference, in the trade's unit (kg, s, kN, %).
     fn step(&self, f: &ProblemFile) -> f64 {
-        let file_value = || self.param().read_file(f).unwrap_or(0.0);
+        let file_value = || self.read(f);
         match *self {
-            Traded::DryMass { .. } | Traded::Propellant { .. } => (0.01 * file_value()).max(1.0),
-            Traded::Isp { .. } => 1.0,
-            Traded::Thrust { .. } => 0.01 * file_value() / 1e3,
+            Traded::DryMass { .. }
+            | Traded::Propellant { .. }
+            | Traded::BoosterDryMass
+            | Traded::BoosterPropellant
+            | Traded::Jettison { .. } => (0.01 * file_value()).max(1.0),
+            // A reserve of a few kg must not step below zero.
+            Traded::Reserve => (0.01 * file_value()).max(1.0).min(0.5 * file_value()),
+            Traded::Isp { .. } | Traded::BoosterIsp => 1.0,
+            Traded::Thrust { .. } | Traded::BoosterThrust => 0.01 * file_value() / 1e3,
             Traded::Drag => 5.0,
         }
     }
 
-    /// Unit of the trade factor.
+    /// Unit of the trade factor, in words (`kg per 1 s of Isp`: not a mass flow).
     pub fn unit(&self) -> &'static str {
         match self {
-            Traded::DryMass { .. } | Traded::Propellant { .. } => "kg/kg",
-            Traded::Isp { .. } => "kg/s",
-            Traded::Thrust { .. } => "kg/kN",
-            Traded::Drag => "kg per % of C_D",
+            Traded::DryMass { .. }
+            | Traded::Propellant { .. }
+            | Traded::BoosterDryMass
+            | Traded::BoosterPropellant
+            | Traded::Jettison { .. }
+            | Traded::Reserve => "kg per kg",
+            Traded::Isp { .. } | Traded::BoosterIsp => "kg per 1 s of Isp",
+            Traded::Thrust { .. } | Traded::BoosterThrust => "kg per 1 kN of thrust",
+            Traded::Drag => "kg per 1 % of C_D",
+        }
+    }
+
+    /// Unit of the step.
+    pub fn step_unit(&self) -> &'static str {
+        match self {
+            Traded::Isp { .. } | Traded::BoosterIsp => "s",
+            Traded::Thrust { .. } | Traded::BoosterThrust => "kN",
+            Traded::Drag => "% of C_D",
+            _ => "kg",
         }
     }
 
     /// The file with the parameter changed by `d` (the trade's unit).
     fn apply(&self, f: &ProblemFile, d: f64) -> ProblemFile {
         let mut g = f.clone();
-        let p = self.param();
-        let now = || p.read_file(f).unwrap_or(0.0);
-        let u = match self {
-            Traded::Thrust { .. } => now() + d * 1e3,
-            Traded::Drag => 1.0 + d / 100.0,
-            _ => now() + d,
-        };
-        p.write_file_unit(&mut g, u);
+        if let Some(p) = self.param() {
+            let now = || p.read_file(f).unwrap_or(0.0);
+            let u = match self {
+                Traded::Thrust { .. } => now() + d * 1e3,
+                Traded::Drag => 1.0 + d / 100.0,
+                _ => now() + d,
+            };
+            p.write_file_unit(&mut g, u);
+            return g;
+        }
+        let u = self.read(f)
+            + if *self == Traded::BoosterThrust {
+                d * 1e3
+            } else {
+                d
+            };
+        match *self {
+            Traded::Jettison { index } => {
+                if let Some(j) = g.vehicle.jettisons.get_mut(index) {
+                    j.mass_kg = u;
+                }
+            }
+            Traded::Reserve => {
+                if let Some(r) = g.reserves.as_mut() {
+                    r.residuals_kg = Some(u);
+                }
+            }
+            _ => {
+                if let Some(b) = g.vehicle.boosters.as_mut() {
+                    match *self {
+                        Traded::BoosterDryMass => b.dry_mass_kg = u,
+                        Traded::BoosterPropellant => b.propellant_kg = u,
+                        Traded::BoosterIsp => b.isp_vac_s = u,
+                        _ => {
+                            // Sea-level thrust and exit area scale with the vacuum thrust.
+                            let k = u / b.thrust_vac_n;
+                            b.thrust_vac_n = u;
+                            if let Some(t) = b.thrust_sl_n.as_mut() {
+                                *t *= k;
+                            }
+                            if let Some(a) = b.exit_area_m2.as_mut() {
+                                *a *= k;
+                            }
+                        }
+                    }
+                }
+            }
+        }
         g
     }
 
     /// Name for tables.
     pub fn name(&self, f: &ProblemFile) -> String {
         let st = |i: usize| f.vehicle.stages[i].name.clone();
+        let booster = || {
+            f.vehicle
+                .boosters
+                .as_ref()
+                .map_or_else(|| "booster".to_string(), |b| b.name.clone())
+        };
         match *self {
             Traded::DryMass { stage } => format!("{} dry mass", st(stage)),
             Traded::Propellant { stage } => format!("{} propellant", st(stage)),
             Traded::Isp { stage } => format!("{} vacuum Isp", st(stage)),
             Traded::Thrust { stage } => format!("{} vacuum thrust", st(stage)),
             Traded::Drag => "drag coefficient (all configurations)".into(),
+            Traded::BoosterDryMass => format!("{} dry mass (each booster)", booster()),
+            Traded::BoosterPropellant => format!("{} propellant (each booster)", booster()),
+            Traded::BoosterIsp => format!("{} vacuum Isp", booster()),
+            Traded::BoosterThrust => format!("{} vacuum thrust (each booster)", booster()),
+            Traded::Jettison { index } => format!(
+                "{} mass (jettisoned)",
+                f.vehicle
+                    .jettisons
+                    .get(index)
+                    .map_or("jettison", |j| j.name.as_str())
+            ),
+            Traded::Reserve => "last-stage reserve (reserves.residuals_kg)".into(),
         }
     }
 }
@@ -535,6 +647,8 @@ pub struct TradeFactor {
     pub name: String,
     /// Central-difference step, in the parameter's unit.
     pub step: f64,
+    /// Unit of `step`.
+    pub step_unit: &'static str,
     /// ∂payload/∂parameter (payload objective) or ∂margin/∂parameter (propellant objective).
     pub factor: f64,
     /// Unit of `factor`.
@@ -543,7 +657,9 @@ pub struct TradeFactor {
     pub ok: bool,
 }
 
-/// The parameters traded for a problem file.
+/// The parameters traded for a problem file: each stage's dry mass, propellant, Isp and thrust,
+/// the drag coefficient, then the boosters' (when fitted), each jettisoned mass and the
+/// last-stage reserve (when the file has `reserves.residuals_kg` above zero).
 pub fn traded(f: &ProblemFile) -> Vec<Traded> {
     let mut v = Vec::new();
     for stage in 0..f.vehicle.stages.len() {
@@ -553,6 +669,22 @@ pub fn traded(f: &ProblemFile) -> Vec<Traded> {
         v.push(Traded::Thrust { stage });
     }
     v.push(Traded::Drag);
+    if f.vehicle.boosters.is_some() {
+        v.extend([
+            Traded::BoosterDryMass,
+            Traded::BoosterPropellant,
+            Traded::BoosterIsp,
+            Traded::BoosterThrust,
+        ]);
+    }
+    v.extend((0..f.vehicle.jettisons.len()).map(|index| Traded::Jettison { index }));
+    if f.reserves
+        .as_ref()
+        .and_then(|r| r.residuals_kg)
+        .is_some_and(|r| r > 0.0)
+    {
+        v.push(Traded::Reserve);
+    }
     v
 }
 
@@ -593,6 +725,7 @@ impl TradeFactor {
             param,
             name: param.name(f),
             step: h,
+            step_unit: param.step_unit(),
             factor: match (a, b) {
                 (Some(a), Some(b)) => (a - b) / (2.0 * h),
                 _ => f64::NAN,

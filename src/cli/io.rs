@@ -50,7 +50,16 @@ pub fn read_text(path: &Path) -> anyhow::Result<String> {
 /// Reads, parses and validates a problem file, with the path in any error.
 pub fn load_case(path: &Path) -> anyhow::Result<Case> {
     let text = read_text(path)?;
-    Case::from_json(&text).with_context(|| format!("{}", path.display()))
+    let case = Case::from_json(&text).with_context(|| format!("{}", path.display()))?;
+    warn(path, &case.warnings);
+    Ok(case)
+}
+
+/// Prints plausibility warnings on stderr, each prefixed `warning:` and with the file's path.
+pub fn warn(path: &Path, warnings: &[problem::Warning]) {
+    for w in warnings {
+        eprintln!("warning: {}: {w}", path.display());
+    }
 }
 
 /// Reads and parses a problem file (not validated); returns it with the SHA-256 of its text.

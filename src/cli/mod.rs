@@ -51,6 +51,13 @@ pub enum Command {
     /// Fly the program many times with launch-day dispersions (closed-loop guidance where the
     /// program has it) and size the flight performance reserve.
     Dispersions(dispersions::DispersionsArgs),
+    /// Print the JSON Schema of the problem file (for editors and checks before a run).
+    Schema,
+    /// Print a shell completion script (bash, zsh, fish, elvish, powershell).
+    Completions {
+        /// The shell.
+        shell: clap_complete::Shell,
+    },
 }
 
 /// Options shared by the study commands.
@@ -265,7 +272,8 @@ pub const EXIT_INTERRUPTED: u8 = 130;
 
 /// Parses arguments, runs, and maps the outcome to an exit code.
 pub fn main_with_args(args: impl IntoIterator<Item = std::ffi::OsString>) -> ExitCode {
-    let cli = match Cli::try_parse_from(args) {
+    let args: Vec<std::ffi::OsString> = args.into_iter().collect();
+    let cli = match Cli::try_parse_from(&args) {
         Ok(c) => c,
         Err(e) => {
             let code = if e.use_stderr() {
@@ -274,17 +282,105 @@ pub fn main_with_args(args: impl IntoIterator<Item = std::ffi::OsString>) -> Exi
                 EXIT_OK
             };
             let _ = e.print();
+            // A command line that asked for `--json` gets its usage error as JSON too.
+            if e.use_stderr() && args.iter().any(|a| a == "--json") {
+                // clap's text without its `error: ` and its closing hint.
+                let text = e.to_string();
+                let message = text
+                    .strip_prefix("error: ")
+                    .unwrap_or(&text)
+                    .split("\n\n")
+                    .next()
+                    .unwrap_or("")
+                    .to_string();
+                let field = match e.get(clap::error::ContextKind::InvalidArg) {
+                    Some(clap::error::ContextValue::String(f)) => {
+                        f.split_whitespace().next().map(str::to_string)
+                    }
+                    _ => None,
+                };
+                let doc = serde_json::json!({
+                    "tool": app::tool_version(),
+                    "status": "bad_input",
+                    "message": message,
+                    "error": error_object("usage", field.as_deref(), &message),
+                });
+                let _ = io::emit(&format!(
+                    "{}\n",
+                    serde_json::to_string_pretty(&doc).unwrap_or_default()
+                ));
+            }
             return ExitCode::from(code);
         }
     };
     io::remove_temporaries_on_interrupt();
+    let json = cli.command.wants_json();
     match run(cli) {
         Ok(code) => ExitCode::from(code),
         Err(err) => {
             eprintln!("error: {err:#}");
+            if json {
+                let _ = io::emit(&format!(
+                    "{}\n",
+                    serde_json::to_string_pretty(&error_json(&err)).unwrap_or_default()
+                ));
+            }
             ExitCode::from(EXIT_BAD_INPUT)
         }
     }
+}
+
+impl Command {
+    /// The command asked for `--json` (its errors then also go to stdout as a JSON object).
+    fn wants_json(&self) -> bool {
+        match self {
+            Command::Fly(a) => a.out.json,
+            Command::Solve(a) => a.out.json,
+            Command::Sweep(a) => a.study.json,
+            Command::Compare(a) => a.study.json,
+            Command::Trade(a) => a.study.json,
+            #[allow(unreachable_patterns)]
+            _ => false,
+        }
+    }
+}
+
+/// The `error` object of a `--json` failure: its `kind` (`format`: the file does not parse;
+/// `invalid`: a value is refused; `unreachable_inclination`; `usage`: an option, a path or the
+/// command line), the `field` it names (a JSON path or an option) and the whole `message`.
+fn error_object(kind: &str, field: Option<&str>, message: &str) -> serde_json::Value {
+    serde_json::json!({ "kind": kind, "field": field, "message": message })
+}
+
+/// A bad-input failure as the JSON document printed under `--json` (exit 2): the same shape as
+/// the unreachable-inclination document (`tool`, `status`, `message`, `error`).
+fn error_json(err: &anyhow::Error) -> serde_json::Value {
+    use kickturn::error::ProblemError;
+    let problem = err.chain().find_map(|e| {
+        e.downcast_ref::<ProblemError>()
+            .or_else(|| match e.downcast_ref::<app::Error>() {
+                Some(app::Error::Problem(p)) => Some(p),
+                _ => None,
+            })
+    });
+    let message = format!("{err:#}");
+    let (kind, field) = match problem {
+        Some(ProblemError::Format { path, .. }) => ("format", Some(path.clone())),
+        Some(ProblemError::Invalid { field, .. }) => ("invalid", Some(field.clone())),
+        _ => (
+            "usage",
+            message
+                .strip_prefix("--")
+                .and_then(|m| m.split([':', ' ']).next())
+                .map(|f| format!("--{f}")),
+        ),
+    };
+    serde_json::json!({
+        "tool": app::tool_version(),
+        "status": "bad_input",
+        "message": message,
+        "error": error_object(kind, field.as_deref(), &message),
+    })
 }
 
 fn run(cli: Cli) -> anyhow::Result<u8> {
@@ -309,6 +405,18 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
         Command::Compare(a) => study::run_compare(&a.problems, &a.study),
         Command::Trade(a) => study::run_trade(&a.problem, &a.study),
         Command::Dispersions(a) => dispersions::run(&a),
+        Command::Schema => {
+            let schema = kickturn::problem::json_schema();
+            io::emit(&format!("{}\n", serde_json::to_string_pretty(&schema)?))?;
+            Ok(EXIT_OK)
+        }
+        Command::Completions { shell } => {
+            use clap::CommandFactory;
+            let mut out = Vec::new();
+            clap_complete::generate(shell, &mut Cli::command(), "kickturn", &mut out);
+            io::emit(&String::from_utf8_lossy(&out))?;
+            Ok(EXIT_OK)
+        }
     }
 }
 
@@ -317,16 +425,19 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
 /// else is bad input (exit 2).
 fn app_error(problem: &std::path::Path, e: app::Error, json: bool) -> anyhow::Result<u8> {
     if e.is_bad_input() {
-        bail!("{}: {e}", problem.display());
+        return Err(anyhow::Error::new(e).context(problem.display().to_string()));
     }
     eprintln!("error: {}: {e}", problem.display());
     if json {
+        let message = format!("{}: {e}", problem.display());
         let mut obj = serde_json::json!({
             "tool": app::tool_version(),
             "status": "error",
             "message": e.to_string(),
+            "error": error_object("run", None, &message),
         });
         if let app::Error::Unreachable(u) = &e {
+            obj["error"] = error_object("unreachable_inclination", Some(u.field), &message);
             obj["status"] = "unreachable_inclination".into();
             obj["field"] = u.field.into();
             obj["inclination_deg"] = u.inclination_deg.into();

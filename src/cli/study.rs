@@ -40,7 +40,9 @@ fn print<T: serde::Serialize>(
 /// Reads a problem file and checks that it validates (a study of a bad file is bad input).
 fn read_valid(path: &Path) -> anyhow::Result<(ProblemFile, String)> {
     let (file, sha) = read_file(path)?;
-    kickturn::problem::validate::validate(&file).with_context(|| format!("{}", path.display()))?;
+    let p = kickturn::problem::validate::validate(&file)
+        .with_context(|| format!("{}", path.display()))?;
+    super::io::warn(path, &kickturn::problem::warning::warnings(&p));
     Ok((file, sha))
 }
 
@@ -215,10 +217,18 @@ pub fn run_compare(files: &[PathBuf], a: &StudyArgs) -> anyhow::Result<u8> {
     let inputs: Vec<&Path> = files.iter().map(PathBuf::as_path).collect();
     check_outputs(&inputs, &study_outputs(a))?;
     super::io::check_json_stdout(a.json)?;
-    let read: Vec<(ProblemFile, String)> = files
+    let read = files
         .iter()
-        .map(|p| read_file(p))
-        .collect::<anyhow::Result<_>>()?;
+        .map(|p| {
+            let r = read_file(p)?;
+            // A file that does not validate becomes a failed column; one that does may warn.
+            if let Ok(v) = kickturn::problem::validate::validate(&r.0) {
+                super::io::warn(p, &kickturn::problem::warning::warnings(&v));
+            }
+            Ok(r)
+        })
+        .collect::<anyhow::Result<Vec<_>>>()?;
+    let read = unique_names(read, files);
     let names: Vec<String> = read.iter().map(|(f, _)| f.name.clone()).collect();
     let shas: Vec<String> = read.iter().map(|(_, s)| s.clone()).collect();
     let header = StreamHeader {
@@ -229,7 +239,7 @@ pub fn run_compare(files: &[PathBuf], a: &StudyArgs) -> anyhow::Result<u8> {
         input_sha256: &shas,
     };
     let csv = CsvPlan {
-        header: render::csv::points_stream_header("index"),
+        header: render::csv::compare_stream_header(),
         rows: read.len(),
         unit: "points",
     };
@@ -239,17 +249,45 @@ pub fn run_compare(files: &[PathBuf], a: &StudyArgs) -> anyhow::Result<u8> {
         &header,
         csv,
         |i, p| render::stream::point_line(i, PointLabel::Problem(name(i)), p),
-        |i, p| Some(render::csv::points_stream_row("index", i, p)),
+        |i, p| Some(render::csv::compare_stream_row(i, name(i), p)),
     )?;
     let report = CompareReport::run_streamed(read, &opts, &Progress::new(), &keep);
     keep.close(report.problems.len(), report.succeeded())?;
     if let Some(path) = &a.csv {
-        let pts: Vec<Point> = report.problems.iter().map(|(_, p)| p.clone()).collect();
-        let text = render::csv::points("index", &pts);
+        let text = render::csv::compare(&report);
         write_atomic(path, &files[0], text.as_bytes())?;
     }
     print(a.json, &report, || render::study::compare(&report))?;
     Ok(exit_code(report.succeeded()))
+}
+
+/// Problems that share a name are told apart by their file's stem (`name [stem]`), and by their
+/// place when the stems are also alike: every column, CSV row and JSON entry names one problem.
+fn unique_names(
+    mut read: Vec<(ProblemFile, String)>,
+    files: &[PathBuf],
+) -> Vec<(ProblemFile, String)> {
+    let names: Vec<String> = read.iter().map(|(f, _)| f.name.clone()).collect();
+    let shared = |i: usize| names.iter().filter(|n| **n == names[i]).count() > 1;
+    let stems: Vec<String> = files
+        .iter()
+        .map(|p| {
+            p.file_stem()
+                .map_or_else(|| "-".into(), |s| s.to_string_lossy().into_owned())
+        })
+        .collect();
+    for (i, (f, _)) in read.iter_mut().enumerate() {
+        if shared(i) {
+            let stem_shared = (0..names.len())
+                .any(|j| j != i && names[j] == names[i] && stems.get(j) == stems.get(i));
+            f.name = if stem_shared {
+                format!("{} [{} #{}]", names[i], stems[i], i + 1)
+            } else {
+                format!("{} [{}]", names[i], stems[i])
+            };
+        }
+    }
+    read
 }
 
 /// Runs `kickturn trade`.

@@ -9,7 +9,7 @@
 
 use std::io::Write;
 
-use crate::app::study::{Point, TradeFactor, TradeReport};
+use crate::app::study::{CompareReport, Point, TradeFactor, TradeReport};
 use crate::core::sim::Snapshot;
 
 /// Runs `write` on an in-memory CSV writer and returns the text (writing to memory cannot fail;
@@ -181,17 +181,59 @@ pub fn points_stream_row(label: &str, index: usize, p: &Point) -> String {
     line(rec)
 }
 
-/// Columns of the trade CSV.
-const TRADE_COLUMNS: [&str; 5] = ["parameter", "step", "factor", "unit", "ok"];
+/// Columns of the trade CSV (`step_unit` last: the first five kept their places).
+const TRADE_COLUMNS: [&str; 6] = ["parameter", "step", "factor", "unit", "ok", "step_unit"];
 
-fn trade_record(f: &TradeFactor) -> [String; 5] {
+fn trade_record(f: &TradeFactor) -> [String; 6] {
     [
         f.name.clone(),
         f.step.to_string(),
         f.factor.to_string(),
         f.unit.to_string(),
         f.ok.to_string(),
+        f.step_unit.to_string(),
     ]
+}
+
+/// The header line of a comparison's streamed CSV: `index`, `problem` (its name) and the
+/// columns of [`points_stream_header`] after `index`.
+pub fn compare_stream_header() -> String {
+    let swept = "swept_index";
+    let head = ["index", "problem", swept, "status"];
+    line(head.iter().chain(POINT_RESULTS.iter()))
+}
+
+/// One streamed row of a comparison: problem `index` (argument order) and its name.
+pub fn compare_stream_row(index: usize, name: &str, p: &Point) -> String {
+    let r = point_row("index", p);
+    let mut rec = vec![index.to_string(), name.to_string()];
+    rec.extend(r.iter().map(|(_, v)| v.clone()));
+    rec.resize(4 + POINT_RESULTS.len(), String::new());
+    line(rec)
+}
+
+/// A comparison as CSV text: a `problem` column with each problem's name, then the columns of
+/// [`points`] (`swept_index` is its place in the argument list).
+pub fn compare(r: &CompareReport) -> String {
+    let pts: Vec<Point> = r.problems.iter().map(|(_, p)| p.clone()).collect();
+    let table = points("index", &pts);
+    let mut lines = table.lines();
+    let mut out = String::new();
+    if let Some(head) = lines.next() {
+        out.push_str(&line(["problem"]).replace('\n', ","));
+        out.push_str(head);
+        out.push('\n');
+    }
+    // Each row after the header belongs to one problem, in order (a name is quoted as CSV
+    // needs; the rows of `points` hold no newline).
+    for ((name, _), row) in r.problems.iter().zip(lines) {
+        let field = line([name.as_str()]);
+        out.push_str(field.trim_end_matches('\n'));
+        out.push(',');
+        out.push_str(row);
+        out.push('\n');
+    }
+    out
 }
 
 /// The header line of a trade's streamed CSV: `index` and the trade columns.
@@ -267,7 +309,12 @@ mod tests {
         assert_eq!(row, format!("7,42.5,unreachable{}\n", ",".repeat(16)));
         assert_eq!(
             trade_stream_header(),
-            "index,parameter,step,factor,unit,ok\n"
+            "index,parameter,step,factor,unit,ok,step_unit\n"
+        );
+        assert!(compare_stream_header().starts_with("index,problem,swept_index,status,"));
+        assert_eq!(
+            compare_stream_row(1, "a, \"b\"", &p),
+            format!("1,\"a, \"\"b\"\"\",42.5,unreachable{}\n", ",".repeat(16))
         );
     }
 }

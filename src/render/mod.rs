@@ -13,4 +13,5 @@ pub mod plots;
 pub mod solve;
 pub mod stream;
 pub mod study;
+pub mod table;
 pub mod text;

@@ -21,6 +21,42 @@ fn status_line(c: &Convergence) -> &'static str {
     }
 }
 
+/// The tuned variables as a table: field, the file's value → the tuned one, and a flag where the
+/// tuned value sits on a bound (its optimum may lie beyond).
+fn tuned_table(tuned: &[crate::app::solve::Tuned]) -> String {
+    use super::table::{angle_0_360, Align, Table};
+    let mut t = Table::new(&[
+        ("field", Align::Left),
+        ("written", Align::Right),
+        ("", Align::Left),
+        ("tuned", Align::Right),
+        ("", Align::Left),
+    ]);
+    for x in tuned {
+        let angle = x.field.ends_with("azimuth_deg") || x.field.ends_with("heading_deg");
+        let show = |v: f64| {
+            if angle {
+                angle_0_360(v, 6)
+            } else {
+                format!("{v:.6}")
+            }
+        };
+        let bound = match x.at_bound {
+            None => "",
+            Some(crate::app::solve::AtBound::Lower) => "(at its lower bound)",
+            Some(crate::app::solve::AtBound::Upper) => "(at its upper bound)",
+        };
+        t.row(vec![
+            x.field.clone(),
+            x.written.map_or_else(|| "(none)".into(), show),
+            "→".into(),
+            show(x.value),
+            bound.into(),
+        ]);
+    }
+    t.render("  ")
+}
+
 /// Text rendering: the solve verdict, the tuned program, then the flight report.
 pub fn render(r: &SolveReport) -> String {
     let mut s = summary(r);
@@ -94,15 +130,11 @@ pub fn summary(r: &SolveReport) -> String {
         .map(|(n, v)| format!("{n} {v:+.3e}"))
         .collect();
     let _ = writeln!(s, "terminal residuals: {}", res.join(", "));
-    let _ = writeln!(s, "tuned program:");
-    for t in &r.tuned {
-        let bound = match t.at_bound {
-            None => "",
-            Some(crate::app::solve::AtBound::Lower) => "  (at its lower bound)",
-            Some(crate::app::solve::AtBound::Upper) => "  (at its upper bound)",
-        };
-        let _ = writeln!(s, "  {:<64} {:>14.6}{bound}", t.field, t.value);
-    }
+    let _ = writeln!(
+        s,
+        "tuned program (in flight order; written in the file → tuned; headings in [0, 360)°):"
+    );
+    s.push_str(&tuned_table(&r.tuned));
     for a in &r.active_constraints {
         let _ = writeln!(s, "active: {a}");
     }

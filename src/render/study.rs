@@ -5,6 +5,7 @@ use std::fmt::Write as _;
 use crate::app::outcome::CAUTION;
 use crate::app::study::{CompareReport, Point, SweepReport, TradeReport};
 use crate::core::optimize::Objective;
+use crate::render::table::{Align, Table};
 
 /// The sweep as a table; `range` is the range as the user wrote it.
 pub fn sweep(r: &SweepReport, range: &str) -> String {
@@ -20,44 +21,52 @@ fn status_word(p: &Point) -> &'static str {
 fn points(title: &str, label: &str, pts: &[Point]) -> String {
     let mut s = String::new();
     let _ = writeln!(s, "{title}");
-    let _ = writeln!(
-        s,
-        "  {:>14} {:>16} {:>10} {:>10} {:>9} {:>9} {:>8} {:>9} {:>8} {:>9} {:>8} {:>7}",
-        label,
-        "status",
-        "payload kg",
-        "margin kg",
-        "ideal",
-        "gravity",
-        "drag",
-        "steering",
-        "back-p",
-        "Earth rot",
-        "incl°",
-        "q kPa"
-    );
+    let r_ = Align::Right;
+    let mut t = Table::new(&[
+        (label, r_),
+        ("status", r_),
+        ("payload kg", r_),
+        ("margin kg", r_),
+        ("ideal m/s", r_),
+        ("gravity m/s", r_),
+        ("drag m/s", r_),
+        ("steering m/s", r_),
+        ("back-p m/s", r_),
+        ("Earth rot m/s", r_),
+        ("incl deg", r_),
+        ("q kPa", r_),
+    ]);
     for p in pts {
+        let value = format!("{:.3}", p.value);
         match &p.report {
             Some(r) => {
                 let b = &r.flight.budget;
-                let _ = writeln!(
-                    s,
-                    "  {:>14.3} {:>16} {:>10.1} {:>10.1} {:>9.1} {:>9.1} {:>8.1} {:>9.1} {:>8.1} {:>9.1} {:>8.3} {:>7.2}",
-                    p.value, status_word(p), r.payload_kg, r.margin_kg, b.ideal_mps, b.gravity_loss_mps,
-                    b.drag_loss_mps, b.steering_loss_mps, b.back_pressure_loss_mps,
-                    b.earth_rotation_mps, r.flight.orbit.inclination_deg,
-                    r.flight.max_dynamic_pressure_pa / 1e3
-                );
+                let f1 = |x: f64| format!("{x:.1}");
+                t.row(vec![
+                    value,
+                    status_word(p).into(),
+                    f1(r.payload_kg),
+                    f1(r.margin_kg),
+                    f1(b.ideal_mps),
+                    f1(b.gravity_loss_mps),
+                    f1(b.drag_loss_mps),
+                    f1(b.steering_loss_mps),
+                    f1(b.back_pressure_loss_mps),
+                    f1(b.earth_rotation_mps),
+                    format!("{:.3}", r.flight.orbit.inclination_deg),
+                    format!("{:.2}", r.flight.max_dynamic_pressure_pa / 1e3),
+                ]);
             }
             None => {
                 let m = p.message.as_deref().unwrap_or("");
-                let _ = writeln!(s, "  {:>14.3} {:>16} {m}", p.value, status_word(p));
+                t.row_with_note(vec![value, status_word(p).into()], m.into());
             }
         }
     }
+    s.push_str(&t.render("  "));
     let _ = writeln!(
         s,
-        "budget terms in m/s, Earth-relative bookkeeping (Earth rotation: inertial − relative speed at cutoff)"
+        "budget terms in Earth-relative bookkeeping (Earth rotation: inertial − relative speed at cutoff)"
     );
     let _ = writeln!(s, "CAUTION: {}", CAUTION);
     s
@@ -68,63 +77,53 @@ pub fn compare(r: &CompareReport) -> String {
     let mut s = String::new();
     let _ = writeln!(
         s,
-        "comparison of solved ascents (Earth-relative bookkeeping, m/s unless noted)"
+        "comparison of solved ascents (Earth-relative bookkeeping)"
     );
     // Each column as wide as its problem's full name (two variants may share a long prefix).
-    let widths: Vec<usize> = r
-        .problems
-        .iter()
-        .map(|(name, _)| name.chars().count().max(12))
-        .collect();
-    let _ = write!(s, "  {:<34}", "");
-    for ((name, _), w) in r.problems.iter().zip(&widths) {
-        let _ = write!(s, " {name:>w$}");
-    }
-    let _ = writeln!(s);
+    let mut head: Vec<(&str, Align)> = vec![("", Align::Left)];
+    head.extend(
+        r.problems
+            .iter()
+            .map(|(name, _)| (name.as_str(), Align::Right)),
+    );
+    let mut t = Table::new(&head);
     type Get = fn(&crate::app::solve::SolveReport) -> f64;
     let rows: [(&str, Get); 14] = [
         ("payload kg", |r| r.payload_kg),
         ("propellant used kg", |r| r.propellant_used_kg),
         ("margin after reserves kg", |r| r.margin_kg),
         ("margin m/s", |r| r.margin_mps),
-        ("ideal ΔV", |r| r.flight.budget.ideal_mps),
-        ("gravity loss", |r| r.flight.budget.gravity_loss_mps),
-        ("drag loss", |r| r.flight.budget.drag_loss_mps),
-        ("steering loss", |r| r.flight.budget.steering_loss_mps),
-        ("back-pressure loss", |r| {
+        ("ideal ΔV m/s", |r| r.flight.budget.ideal_mps),
+        ("gravity loss m/s", |r| r.flight.budget.gravity_loss_mps),
+        ("drag loss m/s", |r| r.flight.budget.drag_loss_mps),
+        ("steering loss m/s", |r| r.flight.budget.steering_loss_mps),
+        ("back-pressure loss m/s", |r| {
             r.flight.budget.back_pressure_loss_mps
         }),
-        ("Earth rotation (at cutoff)", |r| {
+        ("Earth rotation (at cutoff) m/s", |r| {
             r.flight.budget.earth_rotation_mps
         }),
-        ("rotating-frame gain", |r| {
+        ("rotating-frame gain m/s", |r| {
             r.flight.budget.rotating_frame_mps
         }),
-        ("inertial speed at cutoff", |r| {
+        ("inertial speed at cutoff m/s", |r| {
             r.flight.budget.final_speed_mps
         }),
         ("max-Q kPa", |r| r.flight.max_dynamic_pressure_pa / 1e3),
         ("max axial acceleration g0", |r| r.flight.max_axial_accel_g),
     ];
-    let _ = write!(s, "  {:<34}", "status");
-    for ((_, p), w) in r.problems.iter().zip(&widths) {
-        let _ = write!(s, " {:>w$}", status_word(p));
-    }
-    let _ = writeln!(s);
+    let mut status = vec!["status".to_string()];
+    status.extend(r.problems.iter().map(|(_, p)| status_word(p).to_string()));
+    t.row(status);
     for (label, get) in rows {
-        let _ = write!(s, "  {label:<34}");
-        for ((_, p), w) in r.problems.iter().zip(&widths) {
-            match &p.report {
-                Some(rep) => {
-                    let _ = write!(s, " {:>w$.1}", get(rep));
-                }
-                None => {
-                    let _ = write!(s, " {:>w$}", "-");
-                }
-            }
-        }
-        let _ = writeln!(s);
+        let mut cells = vec![label.to_string()];
+        cells.extend(r.problems.iter().map(|(_, p)| match &p.report {
+            Some(rep) => format!("{:.1}", get(rep)),
+            None => "-".into(),
+        }));
+        t.row(cells);
     }
+    s.push_str(&t.render("  "));
     let _ = writeln!(s, "CAUTION: {}", CAUTION);
     s
 }
@@ -137,18 +136,26 @@ pub fn trade(r: &TradeReport) -> String {
         Objective::LeastPropellant => "propellant margin",
     };
     let _ = writeln!(s, "trade factors of {}: change in {what} per unit change (central differences of re-solved problems)", r.problem);
+    let mut t = Table::new(&[
+        ("parameter", Align::Left),
+        ("factor", Align::Right),
+        ("unit", Align::Left),
+        ("step", Align::Left),
+    ]);
     for f in &r.factors {
-        let flag = if f.ok {
-            ""
+        let cells = vec![
+            f.name.clone(),
+            format!("{:+.4}", f.factor),
+            f.unit.to_string(),
+            format!("±{} {}", f.step, f.step_unit),
+        ];
+        if f.ok {
+            t.row(cells);
         } else {
-            "  (a perturbed solve missed the target)"
-        };
-        let _ = writeln!(
-            s,
-            "  {:<48} {:>+12.4} {:<16} step ±{}{flag}",
-            f.name, f.factor, f.unit, f.step
-        );
+            t.row_with_note(cells, "(a perturbed solve missed the target)".into());
+        }
     }
+    s.push_str(&t.render("  "));
     let ideal: Vec<String> = r
         .ideal_isp_factors
         .iter()
@@ -156,7 +163,7 @@ pub fn trade(r: &TradeReport) -> String {
         .collect();
     let _ = writeln!(
         s,
-        "rocket-equation ideal Isp factors by stage (kg/s, no losses, no boosters): {}",
+        "rocket-equation ideal Isp factors by stage (kg per 1 s of Isp, no losses, no boosters): {}",
         ideal.join(", ")
     );
     let _ = writeln!(s, "CAUTION: {}", CAUTION);

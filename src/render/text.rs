@@ -84,7 +84,12 @@ fn budget_table(b: &Budget, s: &mut String) {
         ),
     };
     let _ = writeln!(s, "\n{title}");
-    let _ = writeln!(s, "  {:<52} {:>10} {:>7}", "term", "m/s", "% ideal");
+    use super::table::{Align, Table};
+    let mut t = Table::new(&[
+        ("term", Align::Left),
+        ("m/s", Align::Right),
+        ("% ideal", Align::Right),
+    ]);
     let i = b.ideal_mps;
     let rows: [(&str, f64, bool); 8] = [
         ("ideal ΔV", i, true),
@@ -102,50 +107,58 @@ fn budget_table(b: &Budget, s: &mut String) {
     ];
     for (name, v, show_pct) in rows {
         let p = if show_pct {
-            pct(v.abs(), i)
+            pct(v.abs(), i).trim().to_string()
         } else {
             String::new()
         };
-        let _ = writeln!(s, "  {name:<52} {v:>+10.2} {p:>7}");
+        t.row(vec![name.into(), format!("{v:+.2}"), p]);
     }
-    let _ = writeln!(
-        s,
-        "  {:<52} {:>10.2}",
-        "= inertial speed at cutoff", b.final_speed_mps
-    );
-    let _ = writeln!(
-        s,
-        "  {:<52} {:>10.2e}",
-        "closure error", b.closure_error_mps
-    );
+    t.row(vec![
+        "= inertial speed at cutoff".into(),
+        format!("{:.2}", b.final_speed_mps),
+    ]);
+    t.row(vec![
+        "closure error".into(),
+        format!("{:.2e}", b.closure_error_mps),
+    ]);
+    s.push_str(&t.render("  "));
 }
 
 fn arc_table(r: &FlightReport, s: &mut String) {
+    use super::table::{Align, Table};
     let _ = writeln!(
         s,
         "\nPer-arc budget, Earth-relative bookkeeping, m/s (on a coast the gravity term is speed traded for altitude)"
     );
-    let _ = writeln!(
-        s,
-        "  {:<24} {:>8} {:>8} {:>9} {:>9} {:>8} {:>9} {:>8} {:>6} {:>9}",
-        "arc", "t0 s", "t1 s", "ideal", "gravity", "drag", "steering", "back-p", "rot", "Δspeed"
-    );
+    let r_ = Align::Right;
+    let mut t = Table::new(&[
+        ("arc", Align::Left),
+        ("t0 s", r_),
+        ("t1 s", r_),
+        ("ideal", r_),
+        ("gravity", r_),
+        ("drag", r_),
+        ("steering", r_),
+        ("back-p", r_),
+        ("rot", r_),
+        ("Δspeed", r_),
+    ]);
     for p in &r.arcs {
-        let _ = writeln!(
-            s,
-            "  {:<24} {:>8.2} {:>8.2} {:>9.1} {:>9.1} {:>8.1} {:>9.1} {:>8.1} {:>6.1} {:>+9.1}",
-            p.label,
-            p.t0_s,
-            p.t1_s,
-            p.ideal_mps,
-            p.gravity_loss_mps,
-            p.drag_loss_mps,
-            p.steering_loss_mps,
-            p.back_pressure_loss_mps,
-            p.rotating_frame_mps,
-            p.speed_change_mps
-        );
+        let f1 = |x: f64| format!("{x:.1}");
+        t.row(vec![
+            p.label.clone(),
+            format!("{:.2}", p.t0_s),
+            format!("{:.2}", p.t1_s),
+            f1(p.ideal_mps),
+            f1(p.gravity_loss_mps),
+            f1(p.drag_loss_mps),
+            f1(p.steering_loss_mps),
+            f1(p.back_pressure_loss_mps),
+            f1(p.rotating_frame_mps),
+            format!("{:+.1}", p.speed_change_mps),
+        ]);
     }
+    s.push_str(&t.render("  "));
 }
 
 fn extremes(r: &FlightReport, s: &mut String) {
@@ -203,29 +216,37 @@ fn extremes(r: &FlightReport, s: &mut String) {
 }
 
 fn events(r: &FlightReport, s: &mut String) {
+    use super::table::{Align, Table};
     let _ = writeln!(s, "\nEvents (altitude geodetic; γ Earth-relative)");
-    let _ = writeln!(
-        s,
-        "  {:>9} {:>9} {:>10} {:>9} {:>9} {:>6} {:>8} {:>7} {:>10}  event",
-        "t s", "alt km", "range km", "v_rel m/s", "v_in m/s", "Mach", "q kPa", "γ deg", "mass kg"
-    );
+    let r_ = Align::Right;
+    let mut t = Table::new(&[
+        ("t s", r_),
+        ("alt km", r_),
+        ("range km", r_),
+        ("v_rel m/s", r_),
+        ("v_in m/s", r_),
+        ("Mach", r_),
+        ("q kPa", r_),
+        ("γ deg", r_),
+        ("mass kg", r_),
+        ("event", Align::Left),
+    ]);
     for e in &r.events {
         let a = &e.at;
-        let _ = writeln!(
-            s,
-            "  {:>9.3} {:>9.3} {:>10.3} {:>9.1} {:>9.1} {:>6.2} {:>8.3} {:>7.3} {:>10.1}  {}",
-            a.t_s,
-            a.altitude_m / 1e3,
-            a.downrange_m / 1e3,
-            a.speed_rel_mps,
-            a.speed_inertial_mps,
-            a.mach,
-            a.dynamic_pressure_pa / 1e3,
-            a.flight_path_rel_deg,
-            a.mass_kg,
-            e.label
-        );
+        t.row(vec![
+            format!("{:.3}", a.t_s),
+            format!("{:.3}", a.altitude_m / 1e3),
+            format!("{:.3}", a.downrange_m / 1e3),
+            format!("{:.1}", a.speed_rel_mps),
+            format!("{:.1}", a.speed_inertial_mps),
+            format!("{:.2}", a.mach),
+            format!("{:.3}", a.dynamic_pressure_pa / 1e3),
+            format!("{:.3}", a.flight_path_rel_deg),
+            format!("{:.1}", a.mass_kg),
+            e.label.clone(),
+        ]);
     }
+    s.push_str(&t.render("  "));
 }
 
 /// Renders the report for a terminal.
@@ -233,8 +254,12 @@ pub fn render(r: &FlightReport) -> String {
     let mut s = String::new();
     let _ = writeln!(
         s,
-        "{} | {} | {} from {}, azimuth {:.3}°",
-        r.tool, r.problem, r.vehicle, r.site, r.azimuth_deg
+        "{} | {} | {} from {}, azimuth {}°",
+        r.tool,
+        r.problem,
+        r.vehicle,
+        r.site,
+        super::table::angle_0_360(r.azimuth_deg, 3)
     );
     verdict(r, &mut s);
     budget_table(&r.budget, &mut s);

@@ -541,12 +541,28 @@ struct Ended {
 impl Ended {
     fn new(what: String, status: &TerminationStatus) -> Self {
         Ended {
-            text: format!("{what}: {status}"),
+            text: format!("{what}: {}", own_words(status)),
             at_iteration_limit: matches!(
                 status,
                 TerminationStatus::Terminated(TerminationReason::MaxItersReached)
             ),
         }
+    }
+}
+
+/// A search's stopping reason in the tool's own words (not the optimization library's, which
+/// read oddly mid-sentence: "Solver converged", "Maximum number of iterations reached").
+fn own_words(status: &TerminationStatus) -> String {
+    match status {
+        TerminationStatus::NotTerminated => "still running".into(),
+        TerminationStatus::Terminated(r) => match r {
+            TerminationReason::SolverConverged => "converged to its tolerance".into(),
+            TerminationReason::MaxItersReached => "stopped at its iteration limit".into(),
+            TerminationReason::TargetCostReached => "reached its target value".into(),
+            TerminationReason::Interrupt => "interrupted".into(),
+            TerminationReason::Timeout => "stopped at its time limit".into(),
+            TerminationReason::SolverExit(why) => format!("stopped ({why})"),
+        },
     }
 }
 

@@ -4,12 +4,17 @@
 //! [`super::validate`] turns a [`ProblemFile`] into a checked [`super::Problem`]; nothing else in the
 //! library reads these types. The format is documented in `docs/problem-format.md`.
 
+use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
 /// Top level of a problem file.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct ProblemFile {
+    /// The JSON Schema this file follows, for editors (`docs/problem-format.schema.json`, printed by
+    /// `kickturn schema`); kickturn itself ignores it.
+    #[serde(rename = "$schema", default, skip_serializing_if = "Option::is_none")]
+    pub schema: Option<String>,
     /// Short name used in report titles.
     pub name: String,
     /// Free text.
@@ -43,7 +48,7 @@ pub struct ProblemFile {
 /// Launch-day dispersions of the vehicle and the air (all optional; a missing key takes its
 /// invented placeholder default, docs/problem-format.md). Each stage (and the booster set) draws
 /// its own thrust, Isp, propellant and dry mass; the drag and density factors are one each.
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct DispersionsFile {
     /// Thrust level (vacuum thrust at full throttle), % of nominal.
@@ -74,7 +79,7 @@ pub struct DispersionsFile {
 
 /// A spread: give exactly one of `normal_3sigma` (a normal distribution with this 3σ, mean 0) or
 /// `uniform` ([low, high] bounds), in the unit of its key.
-#[derive(Debug, Clone, Copy, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct SpreadFile {
     /// Three standard deviations of a zero-mean normal distribution.
@@ -86,7 +91,7 @@ pub struct SpreadFile {
 }
 
 /// Propellant reserves of the last stage (all optional, default 0).
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct ReservesFile {
     /// Flight performance reserve as a percentage of the ideal ΔV, %.
@@ -104,7 +109,7 @@ pub struct ReservesFile {
 }
 
 /// Launch site, geodetic coordinates on the WGS-84 ellipsoid.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct SiteFile {
     /// Name of the (invented) site.
@@ -119,7 +124,7 @@ pub struct SiteFile {
 }
 
 /// Launch direction. Give exactly one of `azimuth_deg` or `inclination_deg`.
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct LaunchFile {
     /// Launch azimuth, degrees clockwise from north.
@@ -138,7 +143,7 @@ pub struct LaunchFile {
 }
 
 /// Azimuth branch for an inclination.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum BranchFile {
     /// Azimuth between 270° and 90° through north.
@@ -150,7 +155,7 @@ pub enum BranchFile {
 /// Target orbit: either apsides (`perigee_alt_km`, `apogee_alt_km`, optional `insertion`) or an
 /// insertion state (`insertion_alt_km`, `insertion_speed_mps`, `insertion_flight_path_deg`).
 /// Altitudes are radius − 6378.137 km (osculating, at cutoff).
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct TargetFile {
     /// Perigee altitude, km.
@@ -178,7 +183,7 @@ pub struct TargetFile {
 }
 
 /// Where an apsis target is met.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum InsertionFile {
     /// At perigee: cutoff radius = perigee radius, flight-path angle 0.
@@ -188,7 +193,7 @@ pub enum InsertionFile {
 }
 
 /// The vehicle: payload, serial stages (first fires at liftoff), optional boosters, jettisons.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct VehicleFile {
     /// Vehicle name.
@@ -206,7 +211,7 @@ pub struct VehicleFile {
 }
 
 /// One serial stage.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct StageFile {
     /// Stage name.
@@ -233,7 +238,7 @@ pub struct StageFile {
 }
 
 /// A set of identical strap-on boosters.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct BoosterFile {
     /// Name of the booster type.
@@ -259,7 +264,7 @@ pub struct BoosterFile {
 }
 
 /// Reference area and drag coefficient against Mach number for one configuration.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct AeroFile {
     /// Reference area, m².
@@ -273,7 +278,7 @@ pub struct AeroFile {
 }
 
 /// Interpolation of a C_D table between its points.
-#[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq, Eq, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum CdInterpolationFile {
     /// Straight lines.
@@ -283,7 +288,7 @@ pub enum CdInterpolationFile {
 }
 
 /// A mass dropped on a condition.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct JettisonFile {
     /// Name (e.g. "fairing").
@@ -295,7 +300,7 @@ pub struct JettisonFile {
 }
 
 /// Condition for a jettison (one key).
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum JettisonWhenFile {
     /// At this time after liftoff, s.
@@ -308,7 +313,7 @@ pub enum JettisonWhenFile {
 }
 
 /// The ascent program: liftoff manoeuvre, then arcs in order.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct AscentFile {
     /// Vertical rise, pitch-over and attitude hold before the gravity turn.
@@ -322,7 +327,7 @@ pub struct AscentFile {
 }
 
 /// Liftoff manoeuvre of the gravity-turn program.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct LiftoffFile {
     /// End of the vertical rise.
@@ -339,7 +344,7 @@ pub struct LiftoffFile {
 }
 
 /// End of the vertical rise (one key).
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum RiseEndFile {
     /// After this time from liftoff, s.
@@ -349,7 +354,7 @@ pub enum RiseEndFile {
 }
 
 /// Throttle bucket: reduced throttle over a time window on the first stage.
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct BucketFile {
     /// Start, s after liftoff.
@@ -361,7 +366,7 @@ pub struct BucketFile {
 }
 
 /// One arc of the ascent (one key: `burn` or `coast`).
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum ArcFile {
     /// Powered arc on the current stage.
@@ -371,7 +376,7 @@ pub enum ArcFile {
 }
 
 /// A powered arc.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct BurnFile {
     /// Steering law for this arc.
@@ -382,7 +387,7 @@ pub struct BurnFile {
 }
 
 /// Steering law of a burn.
-#[derive(Debug, Clone, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum SteeringFile {
     /// Zero angle of attack (thrust along the Earth-relative velocity); on the first arc it starts
@@ -404,7 +409,7 @@ pub enum SteeringFile {
 }
 
 /// Settings of closed-loop guidance (all optional).
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct GuidanceFile {
     /// Guidance cycle, s (default 1).
@@ -421,7 +426,7 @@ pub struct GuidanceFile {
 
 /// Linear tangent law tan θ = tan θ0 − c·τ, τ time since the arc's start, θ above the horizontal
 /// plane frozen (inertially) at the arc's start.
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct LinearTangentFile {
     /// Pitch above the frozen horizontal at the arc's start, degrees.
@@ -439,7 +444,7 @@ pub struct LinearTangentFile {
 }
 
 /// Burn cutoff (string `"depletion"` / `"target_orbit"`, or one key with a value).
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum CutoffFile {
     /// Burn until the stage's propellant is gone.
@@ -455,7 +460,7 @@ pub enum CutoffFile {
 }
 
 /// An unpowered arc.
-#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum CoastFile {
     /// Coast for this long, s.
@@ -465,7 +470,7 @@ pub enum CoastFile {
 }
 
 /// Path limits.
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct LimitsFile {
     /// Largest sensed axial acceleration, in units of g0; the core throttles to hold it.
@@ -484,7 +489,7 @@ pub struct LimitsFile {
 }
 
 /// Model and integrator settings. Defaults: WGS-84 with J2, rotating, US 1976 atmosphere.
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct ModelFile {
     /// Include the J2 gravity term (default true).
@@ -508,7 +513,7 @@ pub struct ModelFile {
 }
 
 /// Atmosphere model choice.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum AtmosphereFile {
     /// U.S. Standard Atmosphere 1976, tabulated densities above 86 km.

@@ -7,6 +7,7 @@
 pub mod file;
 pub mod params;
 pub mod validate;
+pub mod warning;
 
 use sha2::{Digest, Sha256};
 
@@ -18,6 +19,7 @@ use crate::core::steering::Program;
 use crate::core::vehicle::Vehicle;
 
 pub use file::ProblemFile;
+pub use warning::{Warning, WarningKind};
 
 /// How the launch azimuth was chosen.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -244,12 +246,42 @@ impl Problem {
     }
 }
 
+/// JSON Schema (draft 2020-12) of the problem file, generated from the file types and their doc
+/// comments (what `kickturn schema` prints, for editors and for checking files before a run).
+/// The schema knows the keys, types and required fields; ranges and the checks between fields
+/// stay with [`validate`].
+pub fn json_schema() -> serde_json::Value {
+    let mut schema =
+        serde_json::to_value(schemars::schema_for!(ProblemFile)).unwrap_or(serde_json::Value::Null);
+    if let Some(o) = schema.as_object_mut() {
+        o.insert("title".into(), "kickturn problem file".into());
+    }
+    schema
+}
+
 /// Parses problem JSON into the raw file mirror; errors carry the JSON path of the field.
 /// A problem must be exactly one JSON value: anything after it (a second problem, a stray `}`
 /// that closed the document early) is refused with its line and column. A UTF-8 byte order mark
 /// at the start is accepted.
 pub fn parse(text: &str) -> Result<ProblemFile, ProblemError> {
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    // serde reads a struct from a list too (`[1, 2]` as its fields in order): refuse any
+    // document that is not an object before it is read as one.
+    if !text.trim_start().starts_with('{') {
+        if let Ok(v) = serde_json::from_str::<serde_json::Value>(text) {
+            let found = match v {
+                serde_json::Value::Array(_) => "a list [ ]",
+                serde_json::Value::String(_) => "a text in double quotes",
+                serde_json::Value::Number(_) => "a number",
+                serde_json::Value::Bool(_) => "true or false",
+                _ => "null",
+            };
+            return Err(ProblemError::Format {
+                path: "(document)".into(),
+                message: format!("a problem file is one JSON object in {{ }}, found {found}"),
+            });
+        }
+    }
     let de = &mut serde_json::Deserializer::from_str(text);
     let file: ProblemFile = serde_path_to_error::deserialize(&mut *de).map_err(|e| {
         let path = e.path().to_string();
@@ -259,7 +291,7 @@ pub fn parse(text: &str) -> Result<ProblemFile, ProblemError> {
             } else {
                 path
             },
-            message: with_hint(&e.into_inner().to_string()),
+            message: plain_words(&e.into_inner().to_string()),
         }
     })?;
     de.end().map_err(|e| ProblemError::Format {
@@ -301,6 +333,80 @@ fn with_hint(msg: &str) -> String {
     match best {
         Some((d, c)) if d <= got.len().max(3) / 2 => format!("{msg} (did you mean `{c}`?)"),
         _ => msg.to_string(),
+    }
+}
+
+/// Rewrites the parser's words (`invalid type: map, expected a string at line 3 column 9`) in
+/// plain ones (`expected text in double quotes here, found an object { } (line 3, column 9)`).
+fn plain_words(msg: &str) -> String {
+    let (body, at) = match msg.rfind(" at line ") {
+        Some(i) => (
+            &msg[..i],
+            Some(msg[i + 4..].replacen(" column", ", column", 1)),
+        ),
+        None => (msg, None),
+    };
+    let hinted = with_hint(body);
+    let body = hinted.as_str();
+    let expected_found = |rest: &str, found: &dyn Fn(&str) -> String| match rest
+        .split_once(", expected ")
+    {
+        Some((got, want)) => format!("expected {} here, found {}", wanted_words(want), found(got)),
+        None => body.to_string(),
+    };
+    let body = if let Some(rest) = body.strip_prefix("invalid type: ") {
+        expected_found(rest, &found_words)
+    } else if let Some(rest) = body.strip_prefix("invalid value: ") {
+        expected_found(rest, &found_words)
+    } else if let Some(rest) = body.strip_prefix("invalid length ") {
+        expected_found(rest, &|n: &str| format!("a list of {n} entries"))
+    } else if let Some(key) = body.strip_prefix("missing field ") {
+        format!("missing field {key}: this object needs it")
+    } else {
+        body.to_string()
+    };
+    match at {
+        Some(a) => format!("{body} ({a})"),
+        None => body,
+    }
+}
+
+/// What the parser expected, in plain words.
+fn wanted_words(want: &str) -> String {
+    let length = |s: &str| s.rsplit(' ').next().and_then(|n| n.parse::<usize>().ok());
+    match want {
+        "f64" | "f32" => "a number".into(),
+        "u8" | "u16" | "u32" | "u64" | "usize" => "a whole number (0 or more)".into(),
+        "a string" => "text in double quotes".into(),
+        "a boolean" => "true or false".into(),
+        "a sequence" => "a list in [ ]".into(),
+        w if w.starts_with("an array of length") || w.starts_with("a tuple of size") => {
+            match length(w) {
+                Some(n) => format!("a list of {n} numbers"),
+                None => w.to_string(),
+            }
+        }
+        w if w.starts_with("struct ") || w == "a map" => "an object in { }".into(),
+        w if w.starts_with("enum ") || w.contains("variant") => {
+            "one of the names or one-key objects allowed here".into()
+        }
+        w => w.to_string(),
+    }
+}
+
+/// What the parser found, in plain words.
+fn found_words(got: &str) -> String {
+    let quoted = |s: &str| s.split('`').nth(1).map(str::to_string);
+    match got {
+        "map" => "an object { }".into(),
+        "sequence" => "a list [ ]".into(),
+        "null" | "unit value" => "null".into(),
+        g if g.starts_with("string ") => format!("the text {}", &g[7..]),
+        g if g.starts_with("floating point") || g.starts_with("integer") => {
+            format!("the number {}", quoted(g).unwrap_or_default())
+        }
+        g if g.starts_with("boolean") => quoted(g).unwrap_or_else(|| g.to_string()),
+        g => g.to_string(),
     }
 }
 
@@ -398,5 +504,32 @@ mod tests {
         assert!(hint("max_g", limits).ends_with("(did you mean `max_axial_accel_g`?)"));
         // Far from everything: no guess.
         assert!(!hint("colour", site).contains("did you mean"));
+    }
+
+    #[test]
+    fn parser_words_are_rewritten_in_plain_ones_with_the_field_path() {
+        // Issue 12: raw parser text leaked (`expected f64`, `invalid type: map, expected a
+        // string`).
+        let msg = |text: &str| parse(text).err().map(|e| e.to_string()).unwrap_or_default();
+        let m = msg(r#"{"name": {"a": 1}}"#);
+        assert_eq!(
+            m,
+            "name: expected text in double quotes here, found an object { } (line 1, column 9)"
+        );
+        let m = msg(r#"{"name": "x", "site": {"name": "s", "latitude_deg": "28"}}"#);
+        assert!(
+            m.starts_with(
+                "site.latitude_deg: expected a number here, found the text \"28\" (line 1,"
+            ),
+            "{m}"
+        );
+        assert_eq!(
+            plain_words("invalid length 3, expected an array of length 2 at line 4 column 2"),
+            "expected a list of 2 numbers here, found a list of 3 entries (line 4, column 2)"
+        );
+        assert_eq!(
+            plain_words("invalid type: integer `3`, expected a boolean"),
+            "expected true or false here, found the number 3"
+        );
     }
 }

@@ -458,10 +458,6 @@ impl<'a> Flyer<'a> {
     }
 
     fn run(&mut self) {
-        self.event(
-            EventKind::Liftoff,
-            format!("liftoff from {}", self.p.site.name),
-        );
         let (mut burns, mut coasts) = (0, 0);
         for arc_i in 0..self.p.program.arcs.len() {
             let (t0, y0) = (self.t, self.y);
@@ -478,6 +474,15 @@ impl<'a> Flyer<'a> {
             };
             if !self.start_arc(arc_i) {
                 break;
+            }
+            if arc_i == 0 {
+                // Taken once the first burn has lit its engines, so that the liftoff row shows
+                // the throttle and acceleration at release (issue 12: it showed 0.0 and 0.0 g
+                // while the history showed 1.0 and 1.30 g).
+                self.event(
+                    EventKind::Liftoff,
+                    format!("liftoff from {}", self.p.site.name),
+                );
             }
             while !self.arc_done && self.ended.is_none() {
                 self.segment();
