@@ -99,6 +99,65 @@ pub struct Marker<'a> {
     pub label: &'a str,
 }
 
+/// A shaded span of the x axis (a stage's burn on time plots), labelled at its foot.
+pub struct Band<'a> {
+    /// Start, in the x axis unit.
+    pub from: f64,
+    /// End, in the x axis unit.
+    pub to: f64,
+    /// Text written at the foot of the span when it is wide enough.
+    pub label: &'a str,
+}
+
+/// Every part of a line chart, for [`chart`]: [`line_chart`] and [`dual_axis_chart`] are this
+/// with no shading. Limits are `(label, value)` pairs; their legend reads `label value unit`,
+/// the unit taken from the bracket of the axis title they are drawn against (`[kPa]`).
+#[derive(Default)]
+pub struct ChartSpec<'a> {
+    /// File stem (`<stem>.png`, `<stem>.svg`).
+    pub stem: &'a str,
+    /// Title.
+    pub title: &'a str,
+    /// X axis title with its unit.
+    pub x_label: &'a str,
+    /// Left y axis title with its unit.
+    pub y_label: &'a str,
+    /// Right y axis title; `Some` draws the right axis for the `right` series.
+    pub right_label: Option<&'a str>,
+    /// X values shared by every series.
+    pub x: &'a [f64],
+    /// Series on the left axis.
+    pub left: &'a [Series<'a>],
+    /// Series on the right axis.
+    pub right: &'a [Series<'a>],
+    /// Horizontal limit lines on the left axis.
+    pub left_limits: &'a [(&'a str, f64)],
+    /// Horizontal limit lines on the right axis.
+    pub right_limits: &'a [(&'a str, f64)],
+    /// Vertical event markers.
+    pub markers: &'a [Marker<'a>],
+    /// Shaded spans behind the curves.
+    pub bands: &'a [Band<'a>],
+}
+
+/// Draws the chart `spec` describes as `<stem>.png` and `<stem>.svg`.
+pub fn chart(spec: &ChartSpec) -> Result<Vec<FigureFile>, PlotError> {
+    let figure = LineFigure {
+        title: spec.title,
+        x_label: spec.x_label,
+        y_label: spec.y_label,
+        right_label: spec.right_label,
+        x: spec.x,
+        left: spec.left,
+        right: spec.right,
+        left_limits: spec.left_limits,
+        right_limits: spec.right_limits,
+        markers: spec.markers,
+        bands: spec.bands,
+    };
+    render(spec.stem, &figure)
+}
+
 /// One drawn file: its name (`<stem>.png` or `<stem>.svg`) and its bytes.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct FigureFile {
@@ -147,6 +206,7 @@ pub fn line_chart(
         left_limits: limits,
         right_limits: &[],
         markers,
+        bands: &[],
     };
     render(stem, &figure)
 }
@@ -178,6 +238,7 @@ pub fn dual_axis_chart(
         left_limits,
         right_limits,
         markers,
+        bands: &[],
     };
     render(stem, &figure)
 }
@@ -293,6 +354,7 @@ struct LineFigure<'a> {
     left_limits: &'a [(&'a str, f64)],
     right_limits: &'a [(&'a str, f64)],
     markers: &'a [Marker<'a>],
+    bands: &'a [Band<'a>],
 }
 
 /// Axis ranges and event-label placement of one line chart.
@@ -348,6 +410,7 @@ impl Figure for LineFigure<'_> {
         if !frame.has_data {
             return draw_no_data(chart.plotting_area());
         }
+        draw_bands(&chart, self.bands, &frame)?;
         self.draw_limits(&chart, &frame)?;
         self.draw_curves(&chart, &left, &right, &frame)?;
         draw_event_labels(root, &chart, &frame)
@@ -380,9 +443,16 @@ impl LineFigure<'_> {
                     false,
                 ));
             }
+            let unit = axis_unit(if heading == "left axis" {
+                self.y_label
+            } else {
+                self.right_label.unwrap_or("")
+            });
             for (i, &(label, y)) in limits.iter().enumerate().filter(|(_, l)| usable(l.1)) {
-                let text = format!("{label} = {}", fmt_num(y));
-                entries.push(LegendEntry::line(text, pal(l_off + i), true));
+                let text = format!("{label} {}{unit}", fmt_num(y));
+                let mut entry = LegendEntry::line(text, pal(l_off + i), true);
+                entry.dash = limit_dash(l_off - off[2] + i);
+                entries.push(entry);
             }
         }
         entries
@@ -407,7 +477,11 @@ impl LineFigure<'_> {
         let band_px = if rows == 0 { 0 } else { rows * NOTE_ROW + 8 };
         let top = (f64::from(band_px) / f64::from(plot_h)).min(0.45);
         let left = y_range(left, self.left_limits, top);
-        let right = y_range(right, self.right_limits, top);
+        let mut right = y_range(right, self.right_limits, top);
+        if !self.left_limits.is_empty() && !self.right_limits.is_empty() {
+            // Limits often top their axes; a taller right axis keeps the two lines apart.
+            right.end += 0.15 * (right.end - right.start);
+        }
         let has_data = true;
         Frame {
             x,
@@ -434,7 +508,8 @@ impl LineFigure<'_> {
             for (i, &(_, y)) in limits.iter().enumerate().filter(|(_, l)| usable(l.1)) {
                 let line = vec![(f.x.start + phase * f64::from(k % 2), y), (f.x.end, y)];
                 let style = pal(start + i).stroke_width(2);
-                area.draw(&DashedPathElement::new(line, DASH, DASH, style))
+                let (on, off) = limit_dash(start - off[2] + i);
+                area.draw(&DashedPathElement::new(line, on, off, style))
                     .map_err(err)?;
                 k += 1;
             }
@@ -717,11 +792,12 @@ impl Bar {
         }
     }
 
-    fn value_text(&self) -> String {
+    /// The bar's value with `decimals` places (the same for every bar of a chart).
+    fn value_text(&self, decimals: usize) -> String {
         match self.value {
             None => "n/a".to_string(),
-            Some(v) if self.step && v >= 0.0 => format!("+{}", fmt_num(v)),
-            Some(v) => fmt_num(v),
+            Some(v) if self.step && v >= 0.0 => format!("+{v:.decimals$}"),
+            Some(v) => format!("{v:.decimals$}"),
         }
     }
 }
@@ -775,12 +851,16 @@ impl Figure for WaterfallFigure<'_> {
         } else {
             0.0..1.0
         };
-        let chart = self.bar_chart(&body, n, lines, y)?;
+        let broken = y.start > 0.0;
+        let chart = self.bar_chart(&body, n, lines, y, broken)?;
         draw_bar_names(root, &chart, &names)?;
         if !has_data {
             return draw_no_data(chart.plotting_area());
         }
         draw_bars(chart.plotting_area(), &self.bars)?;
+        if broken {
+            draw_breaks(root, &chart, &self.bars)?;
+        }
         draw_bar_values(root, &chart, &self.bars, slot)
     }
 }
@@ -793,9 +873,15 @@ impl WaterfallFigure<'_> {
         n: usize,
         lines: u32,
         y: Range<f64>,
+        broken: bool,
     ) -> Result<BarChart<'a, DB>, String> {
         let y_ticks = tick_format(y.clone());
-        let y_label = fit_text(body, self.y_label, DESC_PX, plot_size(body, false).1 as u32);
+        let y_title = if broken {
+            format!("{} (axis from {})", self.y_label, fmt_num(y.start))
+        } else {
+            self.y_label.to_string()
+        };
+        let y_label = fit_text(body, &y_title, DESC_PX, plot_size(body, false).1 as u32);
         let mut chart = ChartBuilder::on(body)
             .margin(MARGIN)
             .margin_right(RIGHT_MARGIN)
@@ -819,18 +905,90 @@ impl WaterfallFigure<'_> {
     }
 }
 
-/// Value range with the zero line, room above for the value labels and below for negative bars.
+/// Value range, room above for the value labels and below for negative bars. The axis starts
+/// at zero unless every step and the total stay high above it (a budget whose losses are a small
+/// part of the ideal ΔV): then it starts a little below the lowest step, at a round value, and
+/// the full bars are drawn broken ([`draw_breaks`]), so that small steps are not slivers.
 fn bar_range(bars: &[Bar]) -> Range<f64> {
     let b = Bounds::of(bars.iter().flat_map(|b| [0.0, b.from, b.to]));
     let span = if b.hi > b.lo { b.hi - b.lo } else { 1.0 };
     let below = if b.lo < 0.0 { 0.08 * span } else { 0.0 };
+    // Steps span from..to; a full bar after the first counts by its top only.
+    let low_steps = Bounds::of(
+        bars.iter()
+            .skip(1)
+            .filter(|b| b.value.is_some())
+            .flat_map(|b| [if b.step { b.from } else { b.to }, b.to]),
+    );
+    if b.lo >= 0.0 && !low_steps.is_empty() && low_steps.lo > 0.4 * b.hi {
+        let pad = 0.15 * (b.hi - low_steps.lo).max(0.02 * b.hi);
+        let floor = round_down(low_steps.lo - pad);
+        if floor > 0.0 {
+            return floor..b.hi + 0.1 * (b.hi - floor);
+        }
+    }
     b.lo - below..b.hi + 0.1 * span
+}
+
+/// `v` rounded down to one or two significant digits of a 1-2-5 step (7613 → 7000, 1480 → 1000).
+fn round_down(v: f64) -> f64 {
+    if !(v > 0.0 && v.is_finite()) {
+        return 0.0;
+    }
+    let step = 10f64.powf(v.log10().floor());
+    (v / step).floor() * step
+}
+
+/// Decimal places for every value label of a waterfall: four significant digits of the largest
+/// value plus one (9595.3 → 1 place, so a 6.7 m/s term keeps a digit), at most three.
+fn bar_decimals(bars: &[Bar]) -> usize {
+    let top = bars
+        .iter()
+        .filter_map(|b| b.value)
+        .map(f64::abs)
+        .fold(0.0, f64::max);
+    if top > 0.0 && top.is_finite() {
+        (4.0 - top.log10().floor()).clamp(0.0, 3.0) as usize
+    } else {
+        0
+    }
+}
+
+/// A broken-axis mark: a white gap with slanted edges across each full bar and the axis line
+/// near the foot, since those bars do not start at the axis' first value.
+fn draw_breaks<DB: DrawingBackend>(
+    root: &DrawingArea<DB, Shift>,
+    chart: &BarChart<DB>,
+    bars: &[Bar],
+) -> Result<(), String> {
+    let y0 = chart.plotting_area().get_pixel_range().1.end;
+    let x_axis = chart.plotting_area().get_pixel_range().0.start;
+    let y = y0 - 22;
+    let mut xs: Vec<(i32, i32)> = vec![(x_axis - 8, x_axis + 8)];
+    for (i, _) in bars.iter().enumerate().filter(|(_, b)| !b.step && b.value.is_some()) {
+        let (a, _) = chart.backend_coord(&(i as f64 + 0.1, 0.0));
+        let (b, _) = chart.backend_coord(&(i as f64 + 0.9, 0.0));
+        xs.push((a, b));
+    }
+    for (a, b) in xs {
+        let gap = [(a, y + 4), (b, y - 4), (b, y - 12), (a, y - 4)];
+        root.draw(&Polygon::new(gap.to_vec(), WHITE.filled()))
+            .map_err(err)?;
+        for dy in [0, -8] {
+            let line = vec![(a, y + 4 + dy), (b, y - 4 + dy)];
+            root.draw(&PathElement::new(line, BLACK.stroke_width(1)))
+                .map_err(err)?;
+        }
+    }
+    Ok(())
 }
 
 fn draw_bars<DB: DrawingBackend>(area: &PlotArea<DB>, bars: &[Bar]) -> Result<(), String> {
     for (i, bar) in bars.iter().enumerate() {
         let x = i as f64;
         let (lo, hi) = (bar.from.min(bar.to), bar.from.max(bar.to));
+        // A full bar on a broken axis starts at the axis' first value.
+        let lo = lo.max(area.get_y_range().start);
         if bar.value.is_some() {
             let corners = [(x + 0.18, lo), (x + 0.82, hi)];
             area.draw(&Rectangle::new(corners, bar.color().filled()))
@@ -854,8 +1012,9 @@ fn draw_bar_values<DB: DrawingBackend>(
     bars: &[Bar],
     slot: i32,
 ) -> Result<(), String> {
+    let decimals = bar_decimals(bars);
     for (i, bar) in bars.iter().enumerate() {
-        let text = bar.value_text();
+        let text = bar.value_text(decimals);
         // Shrink the value text only if it is wider than its bar slot.
         let width = text_width(root, &text, TICK_PX).max(1) as i32;
         let px = (TICK_PX as i32 * (slot - 6) / width).clamp(11, TICK_PX as i32) as u32;
@@ -885,32 +1044,101 @@ fn draw_bar_names<DB: DrawingBackend>(
     Ok(())
 }
 
-/// Greedy word wrap to `max_w` px, at most three lines; the last line is cut with "…" if needed.
+/// Greedy word wrap of bar names to `max_w` px, at most three lines.
 fn wrap_words<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     text: &str,
     max_w: u32,
 ) -> Vec<String> {
+    wrap_text(area, text, TICK_PX, max_w, 3)
+}
+
+/// Greedy wrap to `max_w` px at spaces and after hyphens, at most `max_lines` lines; the last
+/// line is cut with "…" if it still does not fit.
+fn wrap_text<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    text: &str,
+    px: u32,
+    max_w: u32,
+    max_lines: usize,
+) -> Vec<String> {
+    // Pieces: (text, joined to the previous piece without a space).
+    let mut pieces: Vec<(String, bool)> = Vec::new();
+    for word in text.split_whitespace() {
+        let parts: Vec<&str> = word.split_inclusive('-').collect();
+        for (k, part) in parts.iter().enumerate() {
+            pieces.push(((*part).to_string(), k > 0));
+        }
+    }
     let mut lines: Vec<String> = Vec::new();
     let mut current = String::new();
-    for word in text.split_whitespace() {
-        let candidate = if current.is_empty() {
-            word.to_string()
-        } else {
-            format!("{current} {word}")
+    for (piece, glued) in pieces {
+        let candidate = match (current.is_empty(), glued) {
+            (true, _) => piece.clone(),
+            (false, true) => format!("{current}{piece}"),
+            (false, false) => format!("{current} {piece}"),
         };
-        if current.is_empty() || text_width(area, &candidate, TICK_PX) <= max_w || lines.len() == 2
-        {
+        let fits = text_width(area, &candidate, px) <= max_w;
+        if current.is_empty() || fits || lines.len() + 1 >= max_lines.max(1) {
             current = candidate;
         } else {
-            lines.push(std::mem::replace(&mut current, word.to_string()));
+            lines.push(std::mem::replace(&mut current, piece));
         }
     }
     lines.push(current);
     lines
         .iter()
-        .map(|l| fit_text(area, l, TICK_PX, max_w))
+        .map(|l| fit_text(area, l, px, max_w))
         .collect()
+}
+
+/// The unit in the bracket that ends an axis title ("dynamic pressure [kPa]" → " kPa"), with a
+/// leading space; empty when the title has none.
+fn axis_unit(axis_title: &str) -> String {
+    match (axis_title.rfind('['), axis_title.rfind(']')) {
+        (Some(a), Some(b)) if a < b => format!(" {}", &axis_title[a + 1..b]),
+        _ => String::new(),
+    }
+}
+
+/// Dash and gap lengths (px) of the `i`-th limit line: dashed, dotted, long dash, so that two
+/// limits at the same height still read apart.
+fn limit_dash(i: usize) -> (i32, i32) {
+    [(DASH, DASH), (3, 5), (22, 8)][i % 3]
+}
+
+/// Shades every second band lightly behind the curves and writes its label at its foot.
+fn draw_bands<DB: DrawingBackend>(
+    chart: &Dual<DB>,
+    bands: &[Band],
+    f: &Frame,
+) -> Result<(), String> {
+    let area = chart.plotting_area();
+    let tints = [RGBColor(0, 114, 178).mix(0.07), RGBColor(213, 94, 0).mix(0.07)];
+    let style = font(NOTE_PX)
+        .color(&GREY)
+        .pos(Pos::new(HPos::Center, VPos::Bottom));
+    for (i, b) in bands.iter().enumerate() {
+        let (lo, hi) = (b.from.max(f.x.start), b.to.min(f.x.end));
+        if !(usable(lo) && usable(hi) && hi > lo) {
+            continue;
+        }
+        let corners = [(lo, f.left.start), (hi, f.left.end)];
+        area.draw(&Rectangle::new(corners, tints[i % 2].filled()))
+            .map_err(err)?;
+        let (x0, y0) = chart.backend_coord(&(lo, f.left.start));
+        let (x1, _) = chart.backend_coord(&(hi, f.left.start));
+        let room = (x1 - x0 - 6).max(0) as u32;
+        if room >= 40 {
+            let root = area.strip_coord_spec();
+            let text = fit_text(&root, b.label, NOTE_PX, room);
+            let (ox, oy) = area.get_base_pixel();
+            let at = ((x0 + x1) / 2 - ox, y0 - 4 - oy);
+            root.draw(&Text::new(text, at, style.clone()))
+                .map_err(err)?;
+        }
+    }
+    Ok(())
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -923,8 +1151,14 @@ fn draw_title<DB: DrawingBackend>(
 ) -> Result<DrawingArea<DB, Shift>, String> {
     root.fill(&WHITE).map_err(err)?;
     let (w, _) = root.dim_in_pixel();
-    let text = fit_text(root, title, TITLE_PX, w.saturating_sub(2 * MARGIN));
-    let style = font(TITLE_PX).pos(Pos::new(HPos::Center, VPos::Center));
+    // A long title is set smaller (down to the axis-title size) before it is cut.
+    let room = w.saturating_sub(2 * MARGIN);
+    let px = (DESC_PX..=TITLE_PX)
+        .rev()
+        .find(|&px| text_width(root, &printable(title), px) <= room)
+        .unwrap_or(DESC_PX);
+    let text = fit_text(root, title, px, room);
+    let style = font(px).pos(Pos::new(HPos::Center, VPos::Center));
     let at = (w as i32 / 2, TITLE_BAND as i32 / 2 + 4);
     root.draw(&Text::new(text, at, style)).map_err(err)?;
     Ok(root.split_vertically(TITLE_BAND).1)
@@ -935,6 +1169,8 @@ struct LegendEntry {
     text: String,
     color: Option<RGBColor>,
     dashed: bool,
+    /// Dash and gap lengths of a dashed swatch, px.
+    dash: (i32, i32),
 }
 
 impl LegendEntry {
@@ -943,6 +1179,7 @@ impl LegendEntry {
             text,
             color: Some(color),
             dashed,
+            dash: (9, 6),
         }
     }
 
@@ -951,6 +1188,7 @@ impl LegendEntry {
             text: text.to_string(),
             color: None,
             dashed: false,
+            dash: (9, 6),
         }
     }
 }
@@ -981,18 +1219,25 @@ fn draw_legend<DB: DrawingBackend>(
 ) -> Result<(), String> {
     let right = area.dim_in_pixel().0 as i32 - MARGIN as i32;
     let top = MARGIN as i32;
-    let bottom = top + PAD + LEGEND_ROW * entries.len() as i32;
+    let max_text = (right - SWATCH - 3 * PAD).max(10) as u32;
+    // A long entry wraps onto a second line (cut only beyond that), so a legend keeps its words.
+    let lines: Vec<Vec<String>> = entries
+        .iter()
+        .map(|e| wrap_text(area, &e.text, LEGEND_PX, max_text, 2))
+        .collect();
+    let line_h = LEGEND_PX as i32 + 4;
+    let extra = |n: usize| (n.max(1) as i32 - 1) * line_h;
+    let bottom = top + PAD + lines.iter().map(|l| LEGEND_ROW + extra(l.len())).sum::<i32>();
     let corners = [(0, top), (right, bottom)];
     area.draw(&Rectangle::new(corners, WHITE.filled()))
         .map_err(err)?;
     area.draw(&Rectangle::new(corners, GREY.mix(0.6).stroke_width(1)))
         .map_err(err)?;
-    let max_text = (right - SWATCH - 3 * PAD).max(10) as u32;
-    for (i, entry) in entries.iter().enumerate() {
-        let y = top + PAD / 2 + LEGEND_ROW * i as i32 + LEGEND_ROW / 2;
+    let mut y = top + PAD / 2 + LEGEND_ROW / 2;
+    for (entry, text) in entries.iter().zip(&lines) {
         let text_x = match entry.color {
             Some(color) => {
-                draw_swatch(area, (PAD, y), color, entry.dashed)?;
+                draw_swatch(area, (PAD, y), color, entry.dashed.then_some(entry.dash))?;
                 2 * PAD + SWATCH
             }
             None => PAD,
@@ -1001,9 +1246,12 @@ fn draw_legend<DB: DrawingBackend>(
         let style = font(LEGEND_PX)
             .color(&color)
             .pos(Pos::new(HPos::Left, VPos::Center));
-        let text = fit_text(area, &entry.text, LEGEND_PX, max_text);
-        area.draw(&Text::new(text, (text_x, y), style))
-            .map_err(err)?;
+        for (k, line) in text.iter().enumerate() {
+            let at = (text_x, y + k as i32 * line_h);
+            area.draw(&Text::new(line.clone(), at, style.clone()))
+                .map_err(err)?;
+        }
+        y += LEGEND_ROW + extra(text.len());
     }
     Ok(())
 }
@@ -1012,12 +1260,12 @@ fn draw_swatch<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     (x, y): (i32, i32),
     color: RGBColor,
-    dashed: bool,
+    dash: Option<(i32, i32)>,
 ) -> Result<(), String> {
     let line = vec![(x, y), (x + SWATCH, y)];
     let style = color.stroke_width(3);
-    if dashed {
-        area.draw(&DashedPathElement::new(line, 9, 6, style))
+    if let Some((on, off)) = dash {
+        area.draw(&DashedPathElement::new(line, on, off, style))
             .map_err(err)
     } else {
         area.draw(&PathElement::new(line, style)).map_err(err)
@@ -1477,8 +1725,9 @@ mod tests {
         }
         assert_relative_eq!(bars[1].from, 100.0);
         assert!(bars[2].value.is_none());
-        assert_eq!(bars[2].value_text(), "n/a");
-        assert_eq!(bars[3].value_text(), "+5");
+        assert_eq!(bars[2].value_text(0), "n/a");
+        assert_eq!(bars[3].value_text(0), "+5");
+        assert_eq!(bars[1].value_text(1), "-30.0");
         assert_eq!(bars[1].color(), LOSS);
         assert_eq!(bars[3].color(), GAIN);
     }
