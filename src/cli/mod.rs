@@ -128,9 +128,23 @@ pub struct SweepArgs {
     /// Write the sweep curves (PNG and SVG) into this folder.
     #[arg(long, value_name = "DIR")]
     pub plot: Option<PathBuf>,
+    /// Write a self-contained HTML report (the table and the figures) to this file.
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
     /// Shared options.
     #[command(flatten)]
     pub study: StudyArgs,
+}
+
+/// Figure and report outputs of `compare` and `trade`.
+#[derive(Debug, clap::Args)]
+pub struct StudyFigureArgs {
+    /// Write the study's figures (PNG and SVG) into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub plot: Option<PathBuf>,
+    /// Write a self-contained HTML report (the table and the figures) to this file.
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
 }
 
 /// Arguments of `compare`.
@@ -139,6 +153,9 @@ pub struct CompareArgs {
     /// Two or more problem files.
     #[arg(required = true, num_args = 2..)]
     pub problems: Vec<PathBuf>,
+    /// Figures and report.
+    #[command(flatten)]
+    pub figures: StudyFigureArgs,
     /// Shared options.
     #[command(flatten)]
     pub study: StudyArgs,
@@ -149,6 +166,9 @@ pub struct CompareArgs {
 pub struct TradeArgs {
     /// Problem file (JSON) with a `target`.
     pub problem: PathBuf,
+    /// Figures and report.
+    #[command(flatten)]
+    pub figures: StudyFigureArgs,
     /// Shared options.
     #[command(flatten)]
     pub study: StudyArgs,
@@ -300,10 +320,14 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
                 (_, _, _, Some(r)) => (Axis::Payload, r),
                 _ => bail!("sweep: give one of --azimuth, --inclination, --altitude, --payload"),
             };
-            study::run_sweep(&a.problem, axis, range, &a.study, a.plot.as_ref())
+            let figures = StudyFigureArgs {
+                plot: a.plot.clone(),
+                report: a.report.clone(),
+            };
+            study::run_sweep(&a.problem, axis, range, &a.study, &figures)
         }
-        Command::Compare(a) => study::run_compare(&a.problems, &a.study),
-        Command::Trade(a) => study::run_trade(&a.problem, &a.study),
+        Command::Compare(a) => study::run_compare(&a.problems, &a.study, &a.figures),
+        Command::Trade(a) => study::run_trade(&a.problem, &a.study, &a.figures),
     }
 }
 
@@ -386,7 +410,11 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
         Ok(r) => r,
         Err(e) => return app_error(&a.problem, e, a.out.json),
     };
-    write_flight_outputs(&a.out, &a.problem, &run.report, &run.flight, None)?;
+    let outputs = FlightOutputs {
+        vehicle: Some(&case.problem.vehicle),
+        solve: None,
+    };
+    write_flight_outputs(&a.out, &a.problem, &run.report, &run.flight, &outputs)?;
     if a.out.json {
         io::emit_report(&format!("{}\n", serde_json::to_string_pretty(&run.report)?))?;
     } else {
@@ -395,14 +423,20 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
     Ok(exit_code(run.succeeded()))
 }
 
-/// Writes `--csv`, `--plot` and `--report` of a flight (with the solve's summary in the page when
-/// `solve` is given).
+/// What the HTML report adds to a flight: the input vehicle's table and the solve's summary.
+struct FlightOutputs<'a> {
+    vehicle: Option<&'a kickturn::vehicle::Vehicle>,
+    solve: Option<&'a app::solve::SolveReport>,
+}
+
+/// Writes `--csv`, `--plot` and `--report` of a flight (with the vehicle table and the solve's
+/// summary in the page when `extra` has them).
 fn write_flight_outputs(
     out: &FlightOutputArgs,
     input: &std::path::Path,
     report: &app::outcome::FlightReport,
     flight: &kickturn::sim::Flight,
-    solve: Option<&app::solve::SolveReport>,
+    extra: &FlightOutputs,
 ) -> anyhow::Result<()> {
     if let Some(path) = &out.csv {
         let text = render::csv::history(&flight.history);
@@ -416,7 +450,7 @@ fn write_flight_outputs(
         )?;
     }
     if let Some(path) = &out.report {
-        let page = render::html::page(report, flight, solve)?;
+        let page = render::html::page_with_vehicle(report, flight, extra.solve, extra.vehicle)?;
         write_atomic(path, input, page.as_bytes())?;
     }
     Ok(())

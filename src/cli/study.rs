@@ -22,7 +22,43 @@ use kickturn::render::stream::{PointLabel, StreamHeader};
 use super::exit_code;
 use super::io::{check_outputs, read_file, write_atomic, write_figures, OutputKind, Progress};
 use super::stream::LineFile;
-use super::StudyArgs;
+use super::{StudyArgs, StudyFigureArgs};
+
+/// `--plot` and `--report` of a study, for [`check_outputs`].
+fn figure_outputs(f: &StudyFigureArgs) -> Vec<(&'static str, &Path, OutputKind)> {
+    let mut v = Vec::new();
+    if let Some(p) = &f.plot {
+        v.push(("--plot", p.as_path(), OutputKind::Folder));
+    }
+    if let Some(p) = &f.report {
+        v.push(("--report", p.as_path(), OutputKind::File));
+    }
+    v
+}
+
+/// Writes a study's figures (`--plot`) and its HTML page (`--report`: `title`, the text
+/// `table` and the same figures with captions); draws nothing when neither is asked for.
+fn write_study_figures(
+    f: &StudyFigureArgs,
+    input: &Path,
+    title: &str,
+    table: impl FnOnce() -> String,
+    draw: impl FnOnce() -> Result<Vec<render::plots::FigureFile>, render::plots::PlotError>,
+) -> anyhow::Result<()> {
+    if f.plot.is_none() && f.report.is_none() {
+        return Ok(());
+    }
+    let figures = draw()?;
+    if let Some(dir) = &f.plot {
+        write_figures(dir, input, &figures)?;
+    }
+    if let Some(path) = &f.report {
+        let captions = render::figures::study_captions(&figures);
+        let page = render::html::study_page(title, &table(), &figures, &captions);
+        write_atomic(path, input, page.as_bytes())?;
+    }
+    Ok(())
+}
 
 /// Prints `report` as JSON or as the text `table`.
 fn print<T: serde::Serialize>(
@@ -149,15 +185,13 @@ pub fn run_sweep(
     axis: Axis,
     range: &str,
     a: &StudyArgs,
-    plot: Option<&PathBuf>,
+    figures: &StudyFigureArgs,
 ) -> anyhow::Result<u8> {
     let opts = a.options()?;
     let values =
         study::parse_range(range).map_err(|e| anyhow::anyhow!("--{}: {e}", axis_flag(axis)))?;
     let mut outputs = study_outputs(a);
-    if let Some(p) = plot {
-        outputs.push(("--plot", p.as_path(), OutputKind::Folder));
-    }
+    outputs.extend(figure_outputs(figures));
     check_outputs(&[problem], &outputs)?;
     super::io::check_json_stdout(a.json)?;
     let (file, sha) = read_valid(problem)?;
@@ -189,10 +223,13 @@ pub fn run_sweep(
         let text = render::csv::points(label, &report.points);
         write_atomic(path, problem, text.as_bytes())?;
     }
-    if let Some(dir) = plot {
-        let figures = render::figures::sweep_figures(&file.name, axis, &report.points)?;
-        write_figures(dir, problem, &figures)?;
-    }
+    write_study_figures(
+        figures,
+        problem,
+        &format!("{}: sweep of {label}", file.name),
+        || render::study::sweep(&report, range),
+        || render::figures::sweep_figures(&file.name, axis, &report.points),
+    )?;
     print(a.json, &report, || render::study::sweep(&report, range))?;
     Ok(exit_code(report.succeeded()))
 }
@@ -207,13 +244,19 @@ fn axis_flag(a: Axis) -> &'static str {
 }
 
 /// Runs `kickturn compare`.
-pub fn run_compare(files: &[PathBuf], a: &StudyArgs) -> anyhow::Result<u8> {
+pub fn run_compare(
+    files: &[PathBuf],
+    a: &StudyArgs,
+    figures: &StudyFigureArgs,
+) -> anyhow::Result<u8> {
     let opts = a.options()?;
     if files.len() < 2 {
         bail!("compare: give at least two problem files");
     }
     let inputs: Vec<&Path> = files.iter().map(PathBuf::as_path).collect();
-    check_outputs(&inputs, &study_outputs(a))?;
+    let mut outputs = study_outputs(a);
+    outputs.extend(figure_outputs(figures));
+    check_outputs(&inputs, &outputs)?;
     super::io::check_json_stdout(a.json)?;
     let read: Vec<(ProblemFile, String)> = files
         .iter()
@@ -248,14 +291,27 @@ pub fn run_compare(files: &[PathBuf], a: &StudyArgs) -> anyhow::Result<u8> {
         let text = render::csv::points("index", &pts);
         write_atomic(path, &files[0], text.as_bytes())?;
     }
+    write_study_figures(
+        figures,
+        &files[0],
+        "comparison of solved ascents",
+        || render::study::compare(&report),
+        || render::figures::compare_figures(&report),
+    )?;
     print(a.json, &report, || render::study::compare(&report))?;
     Ok(exit_code(report.succeeded()))
 }
 
 /// Runs `kickturn trade`.
-pub fn run_trade(problem: &Path, a: &StudyArgs) -> anyhow::Result<u8> {
+pub fn run_trade(
+    problem: &Path,
+    a: &StudyArgs,
+    figures: &StudyFigureArgs,
+) -> anyhow::Result<u8> {
     let opts = a.options()?;
-    check_outputs(&[problem], &study_outputs(a))?;
+    let mut outputs = study_outputs(a);
+    outputs.extend(figure_outputs(figures));
+    check_outputs(&[problem], &outputs)?;
     super::io::check_json_stdout(a.json)?;
     let (file, sha) = read_valid(problem)?;
     let traded = study::traded(&file);
@@ -309,6 +365,13 @@ pub fn run_trade(problem: &Path, a: &StudyArgs) -> anyhow::Result<u8> {
     if let Some(path) = &a.csv {
         write_atomic(path, problem, render::csv::trade(&report).as_bytes())?;
     }
+    write_study_figures(
+        figures,
+        problem,
+        &format!("{}: trade factors", report.problem),
+        || render::study::trade(&report),
+        || render::figures::trade_figures(&report),
+    )?;
     print(a.json, &report, || render::study::trade(&report))?;
     Ok(exit_code(report.succeeded()))
 }

@@ -3,9 +3,12 @@
 //! the ΔV waterfall (bookkeeping named in the title), cumulative losses, and sweep curves.
 
 pub use super::plots::FigureFile;
-use super::plots::{chart, dual_axis_chart, line_chart, waterfall, Band, ChartSpec, Marker, PlotError, Series};
+use super::plots::{
+    bar_chart, chart, dual_axis_chart, line_chart, waterfall, Band, ChartSpec, Marker, PlotError,
+    Series,
+};
 use crate::app::outcome::FlightReport;
-use crate::app::study::{Axis, Point};
+use crate::app::study::{Axis, CompareReport, Point, TradeReport};
 use crate::core::sim::{ArcKind, EventKind, Flight, Snapshot};
 
 fn col(h: &[Snapshot], f: impl Fn(&Snapshot) -> f64) -> Vec<f64> {
@@ -587,4 +590,84 @@ fn draw_sweep(name: &str, axis: Axis, pts: &[Point]) -> Result<Vec<FigureFile>, 
         &[],
     )?);
     Ok(out)
+}
+
+/// Compare figures: the payload of each problem (`compare_payload`) and each solved problem's ΔV
+/// budget waterfall (`compare_budget_<n>`, n from 1 in argument order).
+pub fn compare_figures(r: &CompareReport) -> Result<Vec<FigureFile>, PlotError> {
+    let payloads: Vec<(&str, f64)> = r
+        .problems
+        .iter()
+        .map(|(name, p)| {
+            let v = p.report.as_ref().map_or(f64::NAN, |s| s.payload_kg);
+            (name.as_str(), v)
+        })
+        .collect();
+    let mut out = bar_chart(
+        "compare_payload",
+        "payload of each compared problem",
+        "payload [kg]",
+        &payloads,
+        false,
+    )?;
+    for (i, (name, p)) in r.problems.iter().enumerate() {
+        if let Some(s) = &p.report {
+            out.extend(budget_waterfall(
+                &s.flight,
+                &format!("{name}: ΔV budget (Earth-relative)"),
+            )?);
+            // Give the pair its own stem so the problems do not overwrite each other.
+            let n = out.len();
+            for f in &mut out[n - 2..] {
+                f.name = f.name.replacen("budget", &format!("compare_budget_{}", i + 1), 1);
+            }
+        }
+    }
+    Ok(out)
+}
+
+/// Trade figure (`trade`): the payload (or margin) change for one step of each factor, signed,
+/// in kg, so that factors of different units sit on one axis.
+pub fn trade_figures(r: &TradeReport) -> Result<Vec<FigureFile>, PlotError> {
+    let what = match r.objective {
+        crate::core::optimize::Objective::MaxPayload => "payload",
+        crate::core::optimize::Objective::LeastPropellant => "margin",
+    };
+    let labels: Vec<String> = r
+        .factors
+        .iter()
+        .map(|f| format!("{} (+{})", f.name, crate::app::show(f.step)))
+        .collect();
+    let bars: Vec<(&str, f64)> = r
+        .factors
+        .iter()
+        .zip(&labels)
+        .map(|(f, l)| (l.as_str(), f.factor * f.step))
+        .collect();
+    bar_chart(
+        "trade",
+        &format!("{}: {what} change for one step of each factor", r.problem),
+        &format!("{what} change [kg]"),
+        &bars,
+        true,
+    )
+}
+
+/// Captions of the study figures, by file stem.
+pub fn study_captions(files: &[FigureFile]) -> Vec<(String, String)> {
+    files
+        .iter()
+        .filter_map(|f| f.name.strip_suffix(".svg"))
+        .map(|stem| {
+            let text = match stem {
+                "compare_payload" => "Payload of each compared problem (the file's payload, or the largest payload with --max-payload).".to_string(),
+                "trade" => "Change in payload (with --max-payload) or in margin after reserves for one step of each factor, from central differences of re-solved problems; the step is in the factor's own unit (see the table).".to_string(),
+                "sweep_mass" => "Payload (left axis) and margin after reserves (right axis) against the swept value.".to_string(),
+                "sweep_losses" => "Losses and the Earth-rotation term against the swept value (Earth-relative bookkeeping).".to_string(),
+                s if s.starts_with("compare_budget_") => "ΔV budget of one compared problem (Earth-relative bookkeeping; the axis may start above zero, marked as broken).".to_string(),
+                _ => String::new(),
+            };
+            (stem.to_string(), text)
+        })
+        .collect()
 }

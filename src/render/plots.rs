@@ -259,6 +259,37 @@ pub fn waterfall(
         title,
         y_label,
         bars: waterfall_bars(start, steps, end_label),
+        connectors: true,
+    };
+    render(stem, &figure)
+}
+
+/// Bars from zero, one per `(label, value)`, the value printed on each (same decimals for all).
+/// `signed` colours negative bars as losses and positive ones as gains (a trade's payload
+/// changes); otherwise every bar has one colour (payload per problem). The axis always includes
+/// zero. A non-finite value is shown as "n/a".
+pub fn bar_chart(
+    stem: &str,
+    title: &str,
+    y_label: &str,
+    bars: &[(&str, f64)],
+    signed: bool,
+) -> Result<Vec<FigureFile>, PlotError> {
+    let bars = bars
+        .iter()
+        .map(|&(label, v)| Bar {
+            label: label.into(),
+            from: 0.0,
+            to: if usable(v) { v } else { 0.0 },
+            value: usable(v).then_some(v),
+            step: signed,
+        })
+        .collect();
+    let figure = WaterfallFigure {
+        title,
+        y_label,
+        bars,
+        connectors: false,
     };
     render(stem, &figure)
 }
@@ -772,6 +803,8 @@ struct WaterfallFigure<'a> {
     title: &'a str,
     y_label: &'a str,
     bars: Vec<Bar>,
+    /// A waterfall: running-total connectors and a possibly broken axis; else plain bars from 0.
+    connectors: bool,
 }
 
 /// One waterfall bar from `from` to `to` (m/s); `value` is `None` for a non-finite input.
@@ -842,14 +875,17 @@ impl Figure for WaterfallFigure<'_> {
         let names: Vec<Vec<String>> = self
             .bars
             .iter()
-            .map(|b| wrap_words(&body, &b.label, (slot - 8).max(8) as u32))
+            .map(|b| {
+                let lines = if self.connectors { 3 } else { 5 };
+                wrap_text(&body, &b.label, TICK_PX, (slot - 8).max(8) as u32, lines)
+            })
             .collect();
         let lines = names.iter().map(Vec::len).max().unwrap_or(1) as u32;
         let has_data = self.bars.iter().any(|b| b.value.is_some());
-        let y = if has_data {
-            bar_range(&self.bars)
-        } else {
-            0.0..1.0
+        let y = match (has_data, self.connectors) {
+            (false, _) => 0.0..1.0,
+            (true, true) => bar_range(&self.bars),
+            (true, false) => zero_range(&self.bars),
         };
         let broken = y.start > 0.0;
         let chart = self.bar_chart(&body, n, lines, y, broken)?;
@@ -857,11 +893,12 @@ impl Figure for WaterfallFigure<'_> {
         if !has_data {
             return draw_no_data(chart.plotting_area());
         }
-        draw_bars(chart.plotting_area(), &self.bars)?;
+        draw_bars(chart.plotting_area(), &self.bars, self.connectors)?;
         if broken {
             draw_breaks(root, &chart, &self.bars)?;
         }
-        draw_bar_values(root, &chart, &self.bars, slot)
+        let digits = if self.connectors { 4.0 } else { 2.0 };
+        draw_bar_values(root, &chart, &self.bars, slot, digits)
     }
 }
 
@@ -939,16 +976,17 @@ fn round_down(v: f64) -> f64 {
     (v / step).floor() * step
 }
 
-/// Decimal places for every value label of a waterfall: four significant digits of the largest
-/// value plus one (9595.3 → 1 place, so a 6.7 m/s term keeps a digit), at most three.
-fn bar_decimals(bars: &[Bar]) -> usize {
+/// Decimal places for every value label of a chart: `digits` + 1 significant digits of the
+/// largest value (a waterfall asks for 4: 9595.3 → 1 place, so a 6.7 m/s term keeps a digit;
+/// plain bars for 2: 74.96 → 74.9), at most three.
+fn bar_decimals(bars: &[Bar], digits: f64) -> usize {
     let top = bars
         .iter()
         .filter_map(|b| b.value)
         .map(f64::abs)
         .fold(0.0, f64::max);
     if top > 0.0 && top.is_finite() {
-        (4.0 - top.log10().floor()).clamp(0.0, 3.0) as usize
+        (digits - top.log10().floor()).clamp(0.0, 3.0) as usize
     } else {
         0
     }
@@ -983,7 +1021,19 @@ fn draw_breaks<DB: DrawingBackend>(
     Ok(())
 }
 
-fn draw_bars<DB: DrawingBackend>(area: &PlotArea<DB>, bars: &[Bar]) -> Result<(), String> {
+/// Value range of plain bars: zero and every bar, room above for the value labels.
+fn zero_range(bars: &[Bar]) -> Range<f64> {
+    let b = Bounds::of(bars.iter().flat_map(|b| [0.0, b.to]));
+    let span = if b.hi > b.lo { b.hi - b.lo } else { 1.0 };
+    let below = if b.lo < 0.0 { 0.1 * span } else { 0.0 };
+    b.lo - below..b.hi + 0.1 * span
+}
+
+fn draw_bars<DB: DrawingBackend>(
+    area: &PlotArea<DB>,
+    bars: &[Bar],
+    connectors: bool,
+) -> Result<(), String> {
     for (i, bar) in bars.iter().enumerate() {
         let x = i as f64;
         let (lo, hi) = (bar.from.min(bar.to), bar.from.max(bar.to));
@@ -994,7 +1044,7 @@ fn draw_bars<DB: DrawingBackend>(area: &PlotArea<DB>, bars: &[Bar]) -> Result<()
             area.draw(&Rectangle::new(corners, bar.color().filled()))
                 .map_err(err)?;
         }
-        if i + 1 < bars.len() {
+        if connectors && i + 1 < bars.len() {
             // Connector: the running total carried to the next bar.
             let line = vec![(x + 0.82, bar.to), (x + 1.18, bar.to)];
             area.draw(&PathElement::new(line, GREY.stroke_width(1)))
@@ -1011,8 +1061,9 @@ fn draw_bar_values<DB: DrawingBackend>(
     chart: &BarChart<DB>,
     bars: &[Bar],
     slot: i32,
+    digits: f64,
 ) -> Result<(), String> {
-    let decimals = bar_decimals(bars);
+    let decimals = bar_decimals(bars, digits);
     for (i, bar) in bars.iter().enumerate() {
         let text = bar.value_text(decimals);
         // Shrink the value text only if it is wider than its bar slot.
@@ -1042,15 +1093,6 @@ fn draw_bar_names<DB: DrawingBackend>(
         }
     }
     Ok(())
-}
-
-/// Greedy word wrap of bar names to `max_w` px, at most three lines.
-fn wrap_words<DB: DrawingBackend>(
-    area: &DrawingArea<DB, Shift>,
-    text: &str,
-    max_w: u32,
-) -> Vec<String> {
-    wrap_text(area, text, TICK_PX, max_w, 3)
 }
 
 /// Greedy wrap to `max_w` px at spaces and after hyphens, at most `max_lines` lines; the last
