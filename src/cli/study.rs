@@ -303,11 +303,7 @@ pub fn run_compare(
 }
 
 /// Runs `kickturn trade`.
-pub fn run_trade(
-    problem: &Path,
-    a: &StudyArgs,
-    figures: &StudyFigureArgs,
-) -> anyhow::Result<u8> {
+pub fn run_trade(problem: &Path, a: &StudyArgs, figures: &StudyFigureArgs) -> anyhow::Result<u8> {
     let opts = a.options()?;
     let mut outputs = study_outputs(a);
     outputs.extend(figure_outputs(figures));

@@ -353,10 +353,16 @@ fn profile(r: &FlightReport, h: &[Snapshot]) -> Result<Vec<FigureFile>, PlotErro
 /// keeps its own points and leaves the other's as gaps (NaN), and a jump across the ±180°
 /// meridian breaks a curve.
 fn ground_track(r: &FlightReport, h: &[Snapshot]) -> Result<Vec<FigureFile>, PlotError> {
-    let track: Vec<(f64, f64)> = h.iter().map(|s| (s.longitude_deg, s.latitude_deg)).collect();
+    let track: Vec<(f64, f64)> = h
+        .iter()
+        .map(|s| (s.longitude_deg, s.latitude_deg))
+        .collect();
     let iip: Vec<(f64, f64)> = h
         .iter()
-        .map(|s| s.vacuum_iip_deg.map_or((f64::NAN, f64::NAN), |(la, lo)| (lo, la)))
+        .map(|s| {
+            s.vacuum_iip_deg
+                .map_or((f64::NAN, f64::NAN), |(la, lo)| (lo, la))
+        })
         .collect();
     let mut x = Vec::with_capacity(2 * h.len() + 2);
     let mut y_track = Vec::with_capacity(x.capacity());
@@ -436,18 +442,16 @@ fn losses(c: &TimeAxis) -> Result<Vec<FigureFile>, PlotError> {
 fn loads(c: &TimeAxis) -> Result<Vec<FigureFile>, PlotError> {
     let q = col(c.h, |s| s.dynamic_pressure_pa / 1e3);
     let a = col(c.h, |s| s.axial_accel_g);
-    let ql: Vec<(&str, f64)> = c
-        .r
-        .max_dynamic_pressure_limit_pa
-        .map(|l| ("q limit", l / 1e3))
-        .into_iter()
-        .collect();
-    let al: Vec<(&str, f64)> = c
-        .r
-        .max_axial_accel_limit_g
-        .map(|l| ("g limit", l))
-        .into_iter()
-        .collect();
+    let ql: Vec<(&str, f64)> =
+        c.r.max_dynamic_pressure_limit_pa
+            .map(|l| ("q limit", l / 1e3))
+            .into_iter()
+            .collect();
+    let al: Vec<(&str, f64)> =
+        c.r.max_axial_accel_limit_g
+            .map(|l| ("g limit", l))
+            .into_iter()
+            .collect();
     let left = [Series {
         label: "dynamic pressure",
         y: &q,
@@ -619,7 +623,9 @@ pub fn compare_figures(r: &CompareReport) -> Result<Vec<FigureFile>, PlotError> 
             // Give the pair its own stem so the problems do not overwrite each other.
             let n = out.len();
             for f in &mut out[n - 2..] {
-                f.name = f.name.replacen("budget", &format!("compare_budget_{}", i + 1), 1);
+                f.name = f
+                    .name
+                    .replacen("budget", &format!("compare_budget_{}", i + 1), 1);
             }
         }
     }

@@ -225,7 +225,14 @@ fn engine_row(s: &mut String, name: &str, count: u32, dry_kg: f64, prop_kg: f64,
 fn vehicle_table(v: &Vehicle, solved_payload_kg: Option<f64>, s: &mut String) {
     let _ = writeln!(s, "<h2>Vehicle (input)</h2><table><tr><th>element</th><th>count</th><th>dry mass kg (each)</th><th>propellant kg (each)</th><th>vacuum thrust kN (each)</th><th>sea-level thrust kN (each)</th><th>vacuum Isp s</th><th>burn time s (full throttle)</th></tr>");
     if let Some(b) = &v.boosters {
-        engine_row(s, &b.name, b.count, b.dry_mass_kg, b.propellant_kg, &b.engine);
+        engine_row(
+            s,
+            &b.name,
+            b.count,
+            b.dry_mass_kg,
+            b.propellant_kg,
+            &b.engine,
+        );
     }
     for st in &v.stages {
         engine_row(s, &st.name, 1, st.dry_mass_kg, st.propellant_kg, &st.engine);
@@ -269,16 +276,34 @@ fn cutoff_tables(r: &FlightReport, f: &Flight, s: &mut String) {
         let _ = writeln!(s, "<h2>Cutoff state</h2><table>");
         for (name, value) in [
             ("time since liftoff, s", format!("{:.3}", a.t_s)),
-            ("geodetic altitude, km", format!("{:.3}", a.altitude_m / 1e3)),
+            (
+                "geodetic altitude, km",
+                format!("{:.3}", a.altitude_m / 1e3),
+            ),
             ("downrange, km", format!("{:.3}", a.downrange_m / 1e3)),
             ("geodetic latitude, deg", format!("{:.4}", a.latitude_deg)),
             ("longitude, deg east", format!("{:.4}", a.longitude_deg)),
-            ("Earth-relative speed, m/s", format!("{:.2}", a.speed_rel_mps)),
-            ("inertial speed, m/s", format!("{:.2}", a.speed_inertial_mps)),
-            ("Earth-relative flight-path angle, deg", format!("{:.4}", a.flight_path_rel_deg)),
-            ("inertial flight-path angle, deg", format!("{:.4}", a.flight_path_inertial_deg)),
+            (
+                "Earth-relative speed, m/s",
+                format!("{:.2}", a.speed_rel_mps),
+            ),
+            (
+                "inertial speed, m/s",
+                format!("{:.2}", a.speed_inertial_mps),
+            ),
+            (
+                "Earth-relative flight-path angle, deg",
+                format!("{:.4}", a.flight_path_rel_deg),
+            ),
+            (
+                "inertial flight-path angle, deg",
+                format!("{:.4}", a.flight_path_inertial_deg),
+            ),
             ("mass, kg", format!("{:.1}", a.mass_kg)),
-            ("propellant remaining, kg", format!("{:.1}", r.propellant_remaining_kg)),
+            (
+                "propellant remaining, kg",
+                format!("{:.1}", r.propellant_remaining_kg),
+            ),
         ] {
             let _ = writeln!(s, "<tr><td>{name}</td><td>{value}</td></tr>");
         }
@@ -294,12 +319,19 @@ fn cutoff_tables(r: &FlightReport, f: &Flight, s: &mut String) {
         ("perigee altitude, km", format!("{:.3}", o.perigee_alt_km)),
         (
             "apogee altitude, km",
-            o.apogee_alt_km.map_or("unbound".to_string(), |a| format!("{a:.3}")),
+            o.apogee_alt_km
+                .map_or("unbound".to_string(), |a| format!("{a:.3}")),
         ),
-        ("semi-major axis, km", format!("{:.3}", el.semi_major_axis_m / 1e3)),
+        (
+            "semi-major axis, km",
+            format!("{:.3}", el.semi_major_axis_m / 1e3),
+        ),
         ("eccentricity", format!("{:.6}", o.eccentricity)),
         ("inclination, deg", format!("{:.4}", o.inclination_deg)),
-        ("right ascension of the ascending node (inertial x axis = Greenwich at liftoff), deg", deg(el.raan_rad)),
+        (
+            "right ascension of the ascending node (inertial x axis = Greenwich at liftoff), deg",
+            deg(el.raan_rad),
+        ),
         ("argument of perigee, deg", deg(el.arg_perigee_rad)),
         ("true anomaly, deg", deg(el.true_anomaly_rad)),
     ];

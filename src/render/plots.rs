@@ -1003,7 +1003,11 @@ fn draw_breaks<DB: DrawingBackend>(
     let x_axis = chart.plotting_area().get_pixel_range().0.start;
     let y = y0 - 22;
     let mut xs: Vec<(i32, i32)> = vec![(x_axis - 8, x_axis + 8)];
-    for (i, _) in bars.iter().enumerate().filter(|(_, b)| !b.step && b.value.is_some()) {
+    for (i, _) in bars
+        .iter()
+        .enumerate()
+        .filter(|(_, b)| !b.step && b.value.is_some())
+    {
         let (a, _) = chart.backend_coord(&(i as f64 + 0.1, 0.0));
         let (b, _) = chart.backend_coord(&(i as f64 + 0.9, 0.0));
         xs.push((a, b));
@@ -1128,10 +1132,7 @@ fn wrap_text<DB: DrawingBackend>(
         }
     }
     lines.push(current);
-    lines
-        .iter()
-        .map(|l| fit_text(area, l, px, max_w))
-        .collect()
+    lines.iter().map(|l| fit_text(area, l, px, max_w)).collect()
 }
 
 /// The unit in the bracket that ends an axis title ("dynamic pressure [kPa]" → " kPa"), with a
@@ -1156,7 +1157,10 @@ fn draw_bands<DB: DrawingBackend>(
     f: &Frame,
 ) -> Result<(), String> {
     let area = chart.plotting_area();
-    let tints = [RGBColor(0, 114, 178).mix(0.07), RGBColor(213, 94, 0).mix(0.07)];
+    let tints = [
+        RGBColor(0, 114, 178).mix(0.07),
+        RGBColor(213, 94, 0).mix(0.07),
+    ];
     let style = font(NOTE_PX)
         .color(&GREY)
         .pos(Pos::new(HPos::Center, VPos::Bottom));
@@ -1173,7 +1177,13 @@ fn draw_bands<DB: DrawingBackend>(
         let room = (x1 - x0 - 6).max(0) as u32;
         if room >= 40 {
             let root = area.strip_coord_spec();
-            let text = fit_text(&root, b.label, NOTE_PX, room);
+            // A narrow band shows the label's part after ": " (the stage) or before it (the
+            // arc), whichever fits whole, before cutting.
+            let (head, tail) = b.label.split_once(": ").unwrap_or((b.label, b.label));
+            let text = [b.label, tail, head]
+                .into_iter()
+                .find(|t| text_width(&root, t, NOTE_PX) <= room)
+                .map_or_else(|| fit_text(&root, b.label, NOTE_PX, room), str::to_string);
             let (ox, oy) = area.get_base_pixel();
             let at = ((x0 + x1) / 2 - ox, y0 - 4 - oy);
             root.draw(&Text::new(text, at, style.clone()))
@@ -1269,7 +1279,12 @@ fn draw_legend<DB: DrawingBackend>(
         .collect();
     let line_h = LEGEND_PX as i32 + 4;
     let extra = |n: usize| (n.max(1) as i32 - 1) * line_h;
-    let bottom = top + PAD + lines.iter().map(|l| LEGEND_ROW + extra(l.len())).sum::<i32>();
+    let bottom = top
+        + PAD
+        + lines
+            .iter()
+            .map(|l| LEGEND_ROW + extra(l.len()))
+            .sum::<i32>();
     let corners = [(0, top), (right, bottom)];
     area.draw(&Rectangle::new(corners, WHITE.filled()))
         .map_err(err)?;
@@ -1555,7 +1570,7 @@ mod tests {
         for text in [
             "pitch kick",
             "upper stage ignition",
-            "target altitude = 200",
+            "target altitude 200 km",
             "time [s]",
         ] {
             assert!(svg.contains(text), "SVG lacks {text}");
@@ -1670,14 +1685,19 @@ mod tests {
         for text in [
             "axial acceleration [g]",
             "right axis",
-            "q limit = 35",
-            "g limit = 4.5",
+            "q limit 35 kPa",
+            "g limit 4.5 g",
         ] {
             assert!(svg.contains(text), "SVG lacks {text}");
         }
         assert!(
-            !svg.contains("q limit = 35."),
+            !svg.contains("q limit 35."),
             "limit value printed with noise digits"
+        );
+        assert_ne!(
+            limit_dash(0),
+            limit_dash(1),
+            "limits in distinct dash styles"
         );
     }
 
@@ -1750,6 +1770,52 @@ mod tests {
         for text in ["9400", "-1350", "+408", "8258", "ideal ΔV"] {
             assert!(svg.contains(text), "SVG lacks {text}");
         }
+    }
+
+    #[test]
+    fn a_budget_waterfall_starts_near_the_final_speed_with_one_precision() {
+        let bars = waterfall_bars(
+            ("ideal", 9594.6),
+            &[
+                ("gravity", -1695.7),
+                ("steering", -6.73),
+                ("rotation", 2.667),
+            ],
+            "final",
+        );
+        // Lowest step 7895 (9594.6 − 1695.7 − 6.73 + 2.667 = 7894.8): the axis starts at a
+        // round value below it, far above zero.
+        let y = bar_range(&bars);
+        assert_relative_eq!(y.start, 7000.0);
+        assert_eq!(bar_decimals(&bars, 4.0), 1);
+        assert_eq!(bars[2].value_text(1), "-6.7");
+        assert_eq!(bars[3].value_text(1), "+2.7");
+        // Large losses keep the zero line.
+        let deep = waterfall_bars(("ideal", 100.0), &[("loss", -90.0)], "end");
+        assert_relative_eq!(bar_range(&deep).start, 0.0);
+        let paths =
+            bar_chart("bars", "Bars", "kg", &[("a", -3.0), ("b", 5.0)], true).expect("bar chart");
+        assert!(svg_text(&paths).contains("+5.0"));
+    }
+
+    #[test]
+    fn long_legend_entries_wrap_and_units_come_from_the_axis() {
+        assert_eq!(axis_unit("dynamic pressure [kPa]"), " kPa");
+        assert_eq!(axis_unit("Mach"), "");
+        let x = [0.0, 1.0];
+        let y = [0.0, 1.0];
+        let series = [Series {
+            label: "flight-path angle (Earth-relative)",
+            y: &y,
+        }];
+        let paths = line_chart("wrap", "Wrap", "x", "y", &x, &series, &[], &[]).expect("chart");
+        let svg = svg_text(&paths);
+        assert!(svg.contains("flight-path angle (Earth-") && svg.contains("relative)"));
+        assert!(
+            !svg.contains("(Earth-relative)"),
+            "the entry is drawn on two lines"
+        );
+        assert!(!svg.contains('…'), "a wrapped legend is not cut");
     }
 
     #[test]

@@ -167,15 +167,25 @@ impl Environment {
     /// turned for the time of flight. `None` on the flat model, for an orbit whose perigee
     /// clears that sphere, or for an escape trajectory. For reports; not called while
     /// integrating.
-    pub fn vacuum_iip(&self, t_s: f64, r_m: &Vector3<f64>, v_mps: &Vector3<f64>) -> Option<Geodetic> {
+    pub fn vacuum_iip(
+        &self,
+        t_s: f64,
+        r_m: &Vector3<f64>,
+        v_mps: &Vector3<f64>,
+    ) -> Option<Geodetic> {
         let EarthModel::Wgs84 { .. } = self.earth else {
             return None;
         };
         // Ellipsoid radius at the present geocentric latitude φc:
         // R = a √((1 − e²) / (1 − e² cos² φc)) (the ellipse r(φc) in polar form).
         let r = r_m.norm();
-        let cos2 = if r > 0.0 { 1.0 - (r_m.z / r).powi(2) } else { 1.0 };
-        let radius = earth::WGS84_A_M * ((1.0 - earth::WGS84_E2) / (1.0 - earth::WGS84_E2 * cos2)).sqrt();
+        let cos2 = if r > 0.0 {
+            1.0 - (r_m.z / r).powi(2)
+        } else {
+            1.0
+        };
+        let radius =
+            earth::WGS84_A_M * ((1.0 - earth::WGS84_E2) / (1.0 - earth::WGS84_E2 * cos2)).sqrt();
         let hit = super::iip::vacuum_impact(r_m, v_mps, earth::WGS84_GM_M3_S2, radius)?;
         let theta = self.rotation_angle_rad(t_s + hit.time_of_flight_s);
         let g = earth::ecef_to_geodetic(&earth::eci_to_ecef(&hit.r_m, theta));
