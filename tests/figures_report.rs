@@ -209,3 +209,51 @@ fn compare_and_trade_write_figures_and_reports() {
     assert!(page.contains("trade factors") && page.contains("<figcaption>"));
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn a_sweep_family_draws_one_payload_curve_per_value_and_reports_them() {
+    let dir = scratch("family");
+    let (figs, html) = (dir.join("figs"), dir.join("sweep.html"));
+    let out = kickturn(&[
+        "sweep",
+        "problems/medium-2stage-leo200.json",
+        "--altitude",
+        "200:300:100",
+        "--family",
+        "inclination=51.6,60",
+        "--max-trajectories",
+        "2000",
+        "--plot",
+        &figs.to_string_lossy(),
+        "--report",
+        &html.to_string_lossy(),
+    ]);
+    ok(&out);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.contains("payload kg by altitude_km (rows) and inclination_deg (columns)"),
+        "{text}"
+    );
+    let all = svgs(&figs);
+    let family = svg_of(&all, "sweep_family");
+    for part in ["target inclination 51.6 deg", "target inclination 60 deg"] {
+        assert!(family.contains(part), "legend lacks {part}");
+    }
+    // The margin has its own axis, not the payload's.
+    assert!(svg_of(&all, "sweep_mass").contains("margin after reserves [kg]"));
+    let page = std::fs::read_to_string(&html).expect("sweep report");
+    assert_eq!(page.matches("<figure").count(), 3, "mass, losses, family");
+    for bad in ["inclination", "altitude=300", "spin=1,2", "inclination=1,x"] {
+        let out = kickturn(&[
+            "sweep",
+            "problems/medium-2stage-leo200.json",
+            "--altitude",
+            "200:300:100",
+            "--family",
+            bad,
+        ]);
+        assert_eq!(out.status.code(), Some(2), "--family {bad}");
+        assert!(String::from_utf8_lossy(&out.stderr).contains("--family"));
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}

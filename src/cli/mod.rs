@@ -131,6 +131,11 @@ pub struct SweepArgs {
     /// Write a self-contained HTML report (the table and the figures) to this file.
     #[arg(long, value_name = "FILE.html")]
     pub report: Option<PathBuf>,
+    /// Also sweep once per value of a second axis, for a family of payload curves (figure
+    /// `sweep_family`, a text table after the sweep's): AXIS=V1,V2,... or AXIS=FROM:TO:STEP with
+    /// AXIS one of azimuth (deg), inclination (deg), altitude (km), payload (kg), not the swept one.
+    #[arg(long, value_name = "AXIS=VALUES")]
+    pub family: Option<String>,
     /// Shared options.
     #[command(flatten)]
     pub study: StudyArgs,
@@ -324,7 +329,12 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
                 plot: a.plot.clone(),
                 report: a.report.clone(),
             };
-            study::run_sweep(&a.problem, axis, range, &a.study, &figures)
+            let family = a
+                .family
+                .as_deref()
+                .map(|f| study::parse_family(f, axis))
+                .transpose()?;
+            study::run_sweep(&a.problem, axis, range, &a.study, &figures, family)
         }
         Command::Compare(a) => study::run_compare(&a.problems, &a.study, &a.figures),
         Command::Trade(a) => study::run_trade(&a.problem, &a.study, &a.figures),

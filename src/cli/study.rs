@@ -186,6 +186,7 @@ pub fn run_sweep(
     range: &str,
     a: &StudyArgs,
     figures: &StudyFigureArgs,
+    family: Option<(Axis, Vec<f64>)>,
 ) -> anyhow::Result<u8> {
     let opts = a.options()?;
     let values =
@@ -216,22 +217,93 @@ pub fn run_sweep(
         |i, p| render::stream::point_line(i, PointLabel::Sweep, p),
         |i, p| Some(render::csv::points_stream_row(label, i, p)),
     )?;
-    let report =
-        SweepReport::run_streamed(&file, sha, axis, &values, &opts, &Progress::new(), &keep);
+    let report = SweepReport::run_streamed(
+        &file,
+        sha.clone(),
+        axis,
+        &values,
+        &opts,
+        &Progress::new(),
+        &keep,
+    );
     keep.close(report.points.len(), report.succeeded())?;
     if let Some(path) = &a.csv {
         let text = render::csv::points(label, &report.points);
         write_atomic(path, problem, text.as_bytes())?;
     }
+    // The family: the same sweep once per value of the second axis (each a full sweep).
+    let curves: Vec<(f64, Vec<Point>)> = match &family {
+        Some((fam_axis, fam_values)) => fam_values
+            .iter()
+            .map(|&v| {
+                let f = study::apply(&file, *fam_axis, v);
+                let r = SweepReport::run(&f, sha.clone(), axis, &values, &opts, &Progress::new());
+                (v, r.points)
+            })
+            .collect(),
+        None => Vec::new(),
+    };
+    let family_table = family
+        .as_ref()
+        .map(|(fa, _)| render::study::family(axis, *fa, &values, &curves))
+        .unwrap_or_default();
     write_study_figures(
         figures,
         problem,
         &format!("{}: sweep of {label}", file.name),
-        || render::study::sweep(&report, range),
-        || render::figures::sweep_figures(&file.name, axis, &report.points),
+        || render::study::sweep(&report, range) + &family_table,
+        || {
+            let mut figs = render::figures::sweep_figures(&file.name, axis, &report.points)?;
+            if let Some((fa, _)) = &family {
+                figs.extend(render::figures::family_figure(
+                    &file.name, axis, *fa, &curves,
+                )?);
+            }
+            Ok(figs)
+        },
     )?;
-    print(a.json, &report, || render::study::sweep(&report, range))?;
+    print(a.json, &report, || {
+        render::study::sweep(&report, range) + &family_table
+    })?;
     Ok(exit_code(report.succeeded()))
+}
+
+/// Parses `--family AXIS=V1,V2,...` (or `AXIS=FROM:TO:STEP`); the axis must differ from the
+/// swept one.
+pub fn parse_family(text: &str, swept: Axis) -> anyhow::Result<(Axis, Vec<f64>)> {
+    let Some((name, values)) = text.split_once('=') else {
+        bail!("--family: write AXIS=V1,V2,... (e.g. inclination=28.5,51.6), got `{text}`");
+    };
+    let axis = match name.trim() {
+        "azimuth" => Axis::Azimuth,
+        "inclination" => Axis::Inclination,
+        "altitude" => Axis::Altitude,
+        "payload" => Axis::Payload,
+        other => bail!(
+            "--family: `{other}` is not an axis; use azimuth, inclination, altitude or payload"
+        ),
+    };
+    if axis == swept {
+        bail!("--family: {name} is the swept axis; choose another");
+    }
+    let values = if values.contains(':') {
+        study::parse_range(values).map_err(|e| anyhow::anyhow!("--family: {e}"))?
+    } else {
+        values
+            .split(',')
+            .map(|v| {
+                v.trim()
+                    .parse::<f64>()
+                    .ok()
+                    .filter(|x| x.is_finite())
+                    .ok_or_else(|| anyhow::anyhow!("--family: `{v}` is not a number"))
+            })
+            .collect::<anyhow::Result<Vec<f64>>>()?
+    };
+    if values.is_empty() || values.len() > 12 {
+        bail!("--family: give 1 to 12 values, got {}", values.len());
+    }
+    Ok((axis, values))
 }
 
 fn axis_flag(a: Axis) -> &'static str {

@@ -384,14 +384,15 @@ fn ground_track(r: &FlightReport, h: &[Snapshot]) -> Result<Vec<FigureFile>, Plo
         y_track.push(f64::NAN);
         y_iip.push(f64::NAN);
     }
+    // The IIP first, so the (much shorter) ground track is drawn over it.
     let series = [
-        Series {
-            label: "ground track",
-            y: &y_track,
-        },
         Series {
             label: "vacuum impact point (IIP)",
             y: &y_iip,
+        },
+        Series {
+            label: "ground track",
+            y: &y_track,
         },
     ];
     chart(&ChartSpec {
@@ -669,6 +670,7 @@ pub fn study_captions(files: &[FigureFile]) -> Vec<(String, String)> {
                 "compare_payload" => "Payload of each compared problem (the file's payload, or the largest payload with --max-payload).".to_string(),
                 "trade" => "Change in payload (with --max-payload) or in margin after reserves for one step of each factor, from central differences of re-solved problems; the step is in the factor's own unit (see the table).".to_string(),
                 "sweep_mass" => "Payload (left axis) and margin after reserves (right axis) against the swept value.".to_string(),
+                "sweep_family" => "Payload against the swept value, one sweep per value of the --family axis (each point a full solve).".to_string(),
                 "sweep_losses" => "Losses and the Earth-rotation term against the swept value (Earth-relative bookkeeping).".to_string(),
                 s if s.starts_with("compare_budget_") => "ΔV budget of one compared problem (Earth-relative bookkeeping; the axis may start above zero, marked as broken).".to_string(),
                 _ => String::new(),
@@ -676,4 +678,57 @@ pub fn study_captions(files: &[FigureFile]) -> Vec<(String, String)> {
             (stem.to_string(), text)
         })
         .collect()
+}
+
+/// The family figure (`sweep_family`): payload against the swept value, one curve per value of
+/// the family axis (`--family`).
+pub fn family_figure(
+    name: &str,
+    axis: Axis,
+    family_axis: Axis,
+    curves: &[(f64, Vec<Point>)],
+) -> Result<Vec<FigureFile>, PlotError> {
+    let x: Vec<f64> = curves
+        .first()
+        .map(|(_, pts)| pts.iter().map(|p| p.value).collect())
+        .unwrap_or_default();
+    let ys: Vec<Vec<f64>> = curves
+        .iter()
+        .map(|(_, pts)| {
+            pts.iter()
+                .map(|p| p.report.as_ref().map_or(f64::NAN, |r| r.payload_kg))
+                .collect()
+        })
+        .collect();
+    let (fam_name, fam_unit) = axis_words(family_axis);
+    let labels: Vec<String> = curves
+        .iter()
+        .map(|(v, _)| format!("{fam_name} {} {fam_unit}", crate::app::show(*v)))
+        .collect();
+    let series: Vec<Series> = labels
+        .iter()
+        .zip(&ys)
+        .map(|(label, y)| Series { label, y })
+        .collect();
+    let (ax_name, ax_unit) = axis_words(axis);
+    line_chart(
+        "sweep_family",
+        &format!("{name}: payload against {ax_name}, one curve per {fam_name}"),
+        &format!("{ax_name} [{ax_unit}]"),
+        "payload [kg]",
+        &x,
+        &series,
+        &[],
+        &[],
+    )
+}
+
+/// An axis' name and unit for figure text.
+fn axis_words(a: Axis) -> (&'static str, &'static str) {
+    match a {
+        Axis::Azimuth => ("launch azimuth", "deg"),
+        Axis::Inclination => ("target inclination", "deg"),
+        Axis::Altitude => ("circular target altitude", "km"),
+        Axis::Payload => ("payload", "kg"),
+    }
 }
