@@ -156,7 +156,7 @@ fn ascent_end_s(r: &FlightReport) -> Option<f64> {
         .iter()
         .filter(|a| a.kind == ArcKind::Coast && a.t1_s - a.t0_s > 0.5 * total)
         .min_by(|a, b| a.t0_s.total_cmp(&b.t0_s))?;
-    (long.t0_s > 0.0).then(|| long.t0_s * 1.1)
+    (long.t0_s > 0.0).then_some(long.t0_s * 1.1)
 }
 
 /// One shaded band per burn arc, labelled with the arc's name.
