@@ -567,7 +567,7 @@ fn draw_sweep(name: &str, axis: Axis, pts: &[Point]) -> Result<Vec<FigureFile>, 
         "sweep_losses",
         &title("losses (Earth-relative)"),
         x_label,
-        "[m/s]",
+        "loss or gain [m/s]",
         &x,
         &[
             Series {

@@ -241,3 +241,40 @@ impl Environment {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_drop_from_rest_above_the_pad_lands_below_it_and_the_flat_model_has_no_iip() {
+        let env = Environment {
+            earth: EarthModel::Wgs84 {
+                j2: false,
+                rotation: true,
+            },
+            atmosphere: AtmosphereModel::Vacuum,
+        };
+        let above = Geodetic {
+            latitude_rad: 31.2_f64.to_radians(),
+            longitude_rad: -47.3_f64.to_radians(),
+            altitude_m: 10_000.0,
+        };
+        let (r, v) = env.pad_state(&above);
+        let g = env.vacuum_iip(0.0, &r, &v).expect("a drop lands");
+        // A 10 km drop lasts about √(2h/g) = 45 s; the Coriolis drift over it is metres
+        // (eastward deflection ω g t³ cos φ / 3 ≈ 2 m, from memory), far below 0.001° (~100 m).
+        assert!((g.latitude_rad - above.latitude_rad).to_degrees().abs() < 1e-3);
+        assert!((g.longitude_rad - above.longitude_rad).to_degrees().abs() < 1e-3);
+        assert!(
+            g.altitude_m.abs() < 50.0,
+            "on the surface: {}",
+            g.altitude_m
+        );
+        let flat = Environment {
+            earth: EarthModel::Flat { gravity_mps2: 9.8 },
+            atmosphere: AtmosphereModel::Vacuum,
+        };
+        assert!(flat.vacuum_iip(0.0, &r, &v).is_none());
+    }
+}
