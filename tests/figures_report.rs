@@ -257,3 +257,50 @@ fn a_sweep_family_draws_one_payload_curve_per_value_and_reports_them() {
     }
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn figure_format_picks_png_svg_or_pdf() {
+    let dir = scratch("formats");
+    let run = |formats: &str, sub: &str| {
+        let figs = dir.join(sub);
+        let out = kickturn(&[
+            "fly",
+            "problems/medium-2stage-leo200.json",
+            "--plot",
+            &figs.to_string_lossy(),
+            "--figure-format",
+            formats,
+        ]);
+        ok(&out);
+        let mut names: Vec<String> = std::fs::read_dir(&figs)
+            .map(|d| {
+                d.filter_map(Result::ok)
+                    .map(|e| e.file_name().to_string_lossy().to_string())
+                    .collect()
+            })
+            .unwrap_or_default();
+        names.sort();
+        (figs, names)
+    };
+    let (figs, names) = run("pdf", "pdf");
+    assert_eq!(names.len(), 10, "{names:?}");
+    assert!(names.iter().all(|n| n.ends_with(".pdf")), "{names:?}");
+    let pdf = std::fs::read(figs.join("loads.pdf")).expect("loads.pdf");
+    // Source: ISO 32000-1:2008, 7.5.2 "File header": a PDF starts with "%PDF-".
+    assert!(pdf.starts_with(b"%PDF-"));
+    assert!(pdf.len() > 5_000, "loads.pdf only {} bytes", pdf.len());
+    let (_, names) = run("svg", "svg");
+    assert!(names.len() == 10 && names.iter().all(|n| n.ends_with(".svg")));
+    let (_, names) = run("png,pdf", "both");
+    assert_eq!(names.len(), 20);
+    let out = kickturn(&[
+        "fly",
+        "problems/medium-2stage-leo200.json",
+        "--plot",
+        &dir.join("bad").to_string_lossy(),
+        "--figure-format",
+        "tiff",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let _ = std::fs::remove_dir_all(&dir);
+}

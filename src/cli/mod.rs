@@ -131,6 +131,14 @@ pub struct SweepArgs {
     /// Write a self-contained HTML report (the table and the figures) to this file.
     #[arg(long, value_name = "FILE.html")]
     pub report: Option<PathBuf>,
+    /// Formats of the `--plot` files, comma-separated: png, svg, pdf.
+    #[arg(
+        long,
+        value_name = "FORMATS",
+        value_delimiter = ',',
+        default_value = "png,svg"
+    )]
+    pub figure_format: Vec<FigureFormatArg>,
     /// Also sweep once per value of a second axis, for a family of payload curves (figure
     /// `sweep_family`, a text table after the sweep's): AXIS=V1,V2,... or AXIS=FROM:TO:STEP with
     /// AXIS one of azimuth (deg), inclination (deg), altitude (km), payload (kg), not the swept one.
@@ -150,6 +158,37 @@ pub struct StudyFigureArgs {
     /// Write a self-contained HTML report (the table and the figures) to this file.
     #[arg(long, value_name = "FILE.html")]
     pub report: Option<PathBuf>,
+    /// Formats of the `--plot` files, comma-separated: png, svg, pdf.
+    #[arg(
+        long,
+        value_name = "FORMATS",
+        value_delimiter = ',',
+        default_value = "png,svg"
+    )]
+    pub figure_format: Vec<FigureFormatArg>,
+}
+
+/// A figure file format on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum FigureFormatArg {
+    /// PNG, 1200×800 px.
+    Png,
+    /// SVG (vector).
+    Svg,
+    /// PDF (vector, converted from the SVG).
+    Pdf,
+}
+
+/// The renderer's formats for the command line's.
+fn figure_formats(f: &[FigureFormatArg]) -> Vec<render::plots::FigureFormat> {
+    use render::plots::FigureFormat;
+    f.iter()
+        .map(|x| match x {
+            FigureFormatArg::Png => FigureFormat::Png,
+            FigureFormatArg::Svg => FigureFormat::Svg,
+            FigureFormatArg::Pdf => FigureFormat::Pdf,
+        })
+        .collect()
 }
 
 /// Arguments of `compare`.
@@ -252,6 +291,14 @@ pub struct FlightOutputArgs {
     /// Write the figures (PNG and SVG) into this folder.
     #[arg(long, value_name = "DIR")]
     pub plot: Option<PathBuf>,
+    /// Formats of the `--plot` files, comma-separated: png, svg, pdf.
+    #[arg(
+        long,
+        value_name = "FORMATS",
+        value_delimiter = ',',
+        default_value = "png,svg"
+    )]
+    pub figure_format: Vec<FigureFormatArg>,
     /// Write a self-contained HTML report to this file.
     #[arg(long, value_name = "FILE.html")]
     pub report: Option<PathBuf>,
@@ -328,6 +375,7 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
             let figures = StudyFigureArgs {
                 plot: a.plot.clone(),
                 report: a.report.clone(),
+                figure_format: a.figure_format.clone(),
             };
             let family = a
                 .family
@@ -453,11 +501,11 @@ fn write_flight_outputs(
         write_atomic(path, input, text.as_bytes())?;
     }
     if let Some(dir) = &out.plot {
-        io::write_figures(
-            dir,
-            input,
-            &render::figures::flight_figures(report, flight)?,
+        let files = render::plots::select_formats(
+            render::figures::flight_figures(report, flight)?,
+            &figure_formats(&out.figure_format),
         )?;
+        io::write_figures(dir, input, &files)?;
     }
     if let Some(path) = &out.report {
         let page = render::html::page_with_vehicle(report, flight, extra.solve, extra.vehicle)?;

@@ -50,7 +50,11 @@ fn write_study_figures(
     }
     let figures = draw()?;
     if let Some(dir) = &f.plot {
-        write_figures(dir, input, &figures)?;
+        let files = render::plots::select_formats(
+            figures.clone(),
+            &super::figure_formats(&f.figure_format),
+        )?;
+        write_figures(dir, input, &files)?;
     }
     if let Some(path) = &f.report {
         let captions = render::figures::study_captions(&figures);

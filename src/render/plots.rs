@@ -294,6 +294,63 @@ pub fn bar_chart(
     render(stem, &figure)
 }
 
+/// The file formats a figure can be written in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FigureFormat {
+    /// Raster, 1200×800 px, text in the embedded font.
+    Png,
+    /// Vector; text drawn by the viewer's sans-serif font.
+    Svg,
+    /// Vector, converted from the SVG with the embedded font (svg2pdf, a crate of the typst
+    /// project), one page per figure.
+    Pdf,
+}
+
+/// Keeps the figures in `formats`: PNG and SVG files as drawn, and a `<stem>.pdf` made from each
+/// `<stem>.svg` when PDF is asked for. Order: as drawn, each PDF after its SVG.
+pub fn select_formats(
+    files: Vec<FigureFile>,
+    formats: &[FigureFormat],
+) -> Result<Vec<FigureFile>, PlotError> {
+    let mut out = Vec::new();
+    for f in files {
+        let is_svg = f.name.ends_with(".svg");
+        if is_svg && formats.contains(&FigureFormat::Pdf) {
+            let stem = f.name.trim_end_matches(".svg");
+            out.push(FigureFile {
+                name: format!("{stem}.pdf"),
+                bytes: svg_to_pdf(&f.bytes).map_err(|m| draw_error(&format!("{stem}.pdf"), m))?,
+            });
+        }
+        let keep = if is_svg {
+            formats.contains(&FigureFormat::Svg)
+        } else {
+            formats.contains(&FigureFormat::Png)
+        };
+        if keep {
+            out.push(f);
+        }
+    }
+    Ok(out)
+}
+
+/// Converts one of our SVGs to a one-page PDF, its text set in the embedded DejaVu Sans (the
+/// SVGs ask for `sans-serif`).
+fn svg_to_pdf(svg: &[u8]) -> Result<Vec<u8>, String> {
+    let mut options = svg2pdf::usvg::Options::default();
+    let db = options.fontdb_mut();
+    db.load_font_data(FONT.to_vec());
+    db.set_sans_serif_family("DejaVu Sans");
+    let text = std::str::from_utf8(svg).map_err(err)?;
+    let tree = svg2pdf::usvg::Tree::from_str(text, &options).map_err(err)?;
+    svg2pdf::to_pdf(
+        &tree,
+        svg2pdf::ConversionOptions::default(),
+        svg2pdf::PageOptions::default(),
+    )
+    .map_err(err)
+}
+
 // ---------------------------------------------------------------------------------------------
 // Output: one drawing routine, two backends.
 
