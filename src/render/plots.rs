@@ -929,14 +929,25 @@ impl Figure for WaterfallFigure<'_> {
         let body = draw_title(root, self.title)?;
         let n = self.bars.len().max(1);
         let slot = (plot_size(&body, false).0 / n as i32).max(8);
-        let names: Vec<Vec<String>> = self
-            .bars
-            .iter()
-            .map(|b| {
-                let lines = if self.connectors { 3 } else { 5 };
-                wrap_text(&body, &b.label, TICK_PX, (slot - 8).max(8) as u32, lines)
-            })
-            .collect();
+        // Bar names wrap onto up to five lines; where slots are narrow they are set smaller
+        // (down to 13 px) before any name is cut.
+        let wrap_all = |px: u32| -> Vec<Vec<String>> {
+            self.bars
+                .iter()
+                .map(|b| wrap_text(&body, &b.label, px, (slot - 8).max(8) as u32, 5))
+                .collect()
+        };
+        let whole = |names: &Vec<Vec<String>>| {
+            names
+                .iter()
+                .zip(&self.bars)
+                .all(|(n, b)| b.label.contains('…') || !n.concat().contains('…'))
+        };
+        let (name_px, names) = [TICK_PX, 17, 15, 13]
+            .into_iter()
+            .map(|px| (px, wrap_all(px)))
+            .find(|(_, n)| whole(n))
+            .unwrap_or_else(|| (13, wrap_all(13)));
         let lines = names.iter().map(Vec::len).max().unwrap_or(1) as u32;
         let has_data = self.bars.iter().any(|b| b.value.is_some());
         let y = match (has_data, self.connectors) {
@@ -945,8 +956,8 @@ impl Figure for WaterfallFigure<'_> {
             (true, false) => zero_range(&self.bars),
         };
         let broken = y.start > 0.0;
-        let chart = self.bar_chart(&body, n, lines, y, broken)?;
-        draw_bar_names(root, &chart, &names)?;
+        let chart = self.bar_chart(&body, n, lines * (name_px + 4), y, broken)?;
+        draw_bar_names(root, &chart, &names, name_px)?;
         if !has_data {
             return draw_no_data(chart.plotting_area());
         }
@@ -965,7 +976,7 @@ impl WaterfallFigure<'_> {
         &self,
         body: &'a DrawingArea<DB, Shift>,
         n: usize,
-        lines: u32,
+        names_px: u32,
         y: Range<f64>,
         broken: bool,
     ) -> Result<BarChart<'a, DB>, String> {
@@ -979,7 +990,7 @@ impl WaterfallFigure<'_> {
         let mut chart = ChartBuilder::on(body)
             .margin(MARGIN)
             .margin_right(RIGHT_MARGIN)
-            .x_label_area_size(16 + lines * (TICK_PX + 4))
+            .x_label_area_size(16 + names_px)
             .y_label_area_size(Y_AREA)
             .build_cartesian_2d(0.0..n as f64, y)
             .map_err(err)?;
@@ -1142,13 +1153,14 @@ fn draw_bar_names<DB: DrawingBackend>(
     root: &DrawingArea<DB, Shift>,
     chart: &BarChart<DB>,
     names: &[Vec<String>],
+    px: u32,
 ) -> Result<(), String> {
     let bottom = chart.plotting_area().get_pixel_range().1.end;
-    let style = font(TICK_PX).pos(Pos::new(HPos::Center, VPos::Top));
+    let style = font(px).pos(Pos::new(HPos::Center, VPos::Top));
     for (i, lines) in names.iter().enumerate() {
         let (x, _) = chart.backend_coord(&(i as f64 + 0.5, 0.0));
         for (k, line) in lines.iter().enumerate() {
-            let y = bottom + 8 + k as i32 * (TICK_PX as i32 + 4);
+            let y = bottom + 8 + k as i32 * (px as i32 + 4);
             root.draw(&Text::new(line.clone(), (x, y), style.clone()))
                 .map_err(err)?;
         }
@@ -1239,12 +1251,14 @@ fn draw_bands<DB: DrawingBackend>(
             let (head, tail) = b.label.split_once(": ").unwrap_or((b.label, b.label));
             let text = [b.label, tail, head]
                 .into_iter()
-                .find(|t| text_width(&root, t, NOTE_PX) <= room)
-                .map_or_else(|| fit_text(&root, b.label, NOTE_PX, room), str::to_string);
-            let (ox, oy) = area.get_base_pixel();
-            let at = ((x0 + x1) / 2 - ox, y0 - 4 - oy);
-            root.draw(&Text::new(text, at, style.clone()))
-                .map_err(err)?;
+                .find(|t| text_width(&root, t, NOTE_PX) <= room);
+            // A band too narrow for even its short name stays unlabelled rather than cut.
+            if let Some(text) = text {
+                let (ox, oy) = area.get_base_pixel();
+                let at = ((x0 + x1) / 2 - ox, y0 - 4 - oy);
+                root.draw(&Text::new(printable(text), at, style.clone()))
+                    .map_err(err)?;
+            }
         }
     }
     Ok(())
