@@ -92,6 +92,11 @@ fn flight_figures_cover_every_view_with_limits_in_units_and_an_ascent_close_up()
         "{:?}",
         all.iter().map(|a| &a.0).collect::<Vec<_>>()
     );
+    // No text is cut at the default size: titles shrink, legends and bar names wrap, and a
+    // burn band too narrow for its name stays unlabelled.
+    for (stem, text) in &all {
+        assert!(!text.contains('…'), "{stem}.svg has cut text");
+    }
     let loads = svg_of(&all, "loads");
     assert!(loads.contains("q limit 40 kPa"), "q limit with its unit");
     assert!(loads.contains("g limit 6 g0"), "g limit with its unit");
