@@ -286,6 +286,9 @@ fn fly_writes_figures_and_a_self_contained_html_report() {
         "budget_arcs",
         "budget",
         "losses",
+        "mass_throttle",
+        "mach",
+        "ground_track",
     ] {
         let png = std::fs::metadata(figs.join(format!("{stem}.png")))
             .map(|m| m.len())
@@ -299,7 +302,7 @@ fn fly_writes_figures_and_a_self_contained_html_report() {
     }
     let page = std::fs::read_to_string(&html).unwrap_or_default();
     assert!(page.starts_with("<!DOCTYPE html>"));
-    assert_eq!(page.matches("<svg").count(), 7, "seven inline figures");
+    assert_eq!(page.matches("<svg").count(), 10, "ten inline figures");
     assert!(page.contains("Preliminary design only"));
     assert!(
         !page.contains("http://") || page.contains("http://www.w3.org"),

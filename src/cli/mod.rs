@@ -139,9 +139,67 @@ pub struct SweepArgs {
     /// Write the sweep curves (PNG and SVG) into this folder.
     #[arg(long, value_name = "DIR")]
     pub plot: Option<PathBuf>,
+    /// Write a self-contained HTML report (the table and the figures) to this file.
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
+    /// Formats of the `--plot` files, comma-separated: png, svg, pdf.
+    #[arg(
+        long,
+        value_name = "FORMATS",
+        value_delimiter = ',',
+        default_value = "png,svg"
+    )]
+    pub figure_format: Vec<FigureFormatArg>,
+    /// Also sweep once per value of a second axis, for a family of payload curves (figure
+    /// `sweep_family`, a text table after the sweep's): AXIS=V1,V2,... or AXIS=FROM:TO:STEP with
+    /// AXIS one of azimuth (deg), inclination (deg), altitude (km), payload (kg), not the swept one.
+    #[arg(long, value_name = "AXIS=VALUES")]
+    pub family: Option<String>,
     /// Shared options.
     #[command(flatten)]
     pub study: StudyArgs,
+}
+
+/// Figure and report outputs of `compare` and `trade`.
+#[derive(Debug, clap::Args)]
+pub struct StudyFigureArgs {
+    /// Write the study's figures (PNG and SVG) into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub plot: Option<PathBuf>,
+    /// Write a self-contained HTML report (the table and the figures) to this file.
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
+    /// Formats of the `--plot` files, comma-separated: png, svg, pdf.
+    #[arg(
+        long,
+        value_name = "FORMATS",
+        value_delimiter = ',',
+        default_value = "png,svg"
+    )]
+    pub figure_format: Vec<FigureFormatArg>,
+}
+
+/// A figure file format on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum FigureFormatArg {
+    /// PNG, 1200×800 px.
+    Png,
+    /// SVG (vector).
+    Svg,
+    /// PDF (vector, converted from the SVG).
+    Pdf,
+}
+
+/// The renderer's formats for the command line's.
+fn figure_formats(f: &[FigureFormatArg]) -> Vec<render::plots::FigureFormat> {
+    use render::plots::FigureFormat;
+    f.iter()
+        .map(|x| match x {
+            FigureFormatArg::Png => FigureFormat::Png,
+            FigureFormatArg::Svg => FigureFormat::Svg,
+            FigureFormatArg::Pdf => FigureFormat::Pdf,
+        })
+        .collect()
 }
 
 /// Arguments of `compare`.
@@ -150,6 +208,9 @@ pub struct CompareArgs {
     /// Two or more problem files.
     #[arg(required = true, num_args = 2..)]
     pub problems: Vec<PathBuf>,
+    /// Figures and report.
+    #[command(flatten)]
+    pub figures: StudyFigureArgs,
     /// Shared options.
     #[command(flatten)]
     pub study: StudyArgs,
@@ -160,6 +221,9 @@ pub struct CompareArgs {
 pub struct TradeArgs {
     /// Problem file (JSON) with a `target`.
     pub problem: PathBuf,
+    /// Figures and report.
+    #[command(flatten)]
+    pub figures: StudyFigureArgs,
     /// Shared options.
     #[command(flatten)]
     pub study: StudyArgs,
@@ -238,6 +302,14 @@ pub struct FlightOutputArgs {
     /// Write the figures (PNG and SVG) into this folder.
     #[arg(long, value_name = "DIR")]
     pub plot: Option<PathBuf>,
+    /// Formats of the `--plot` files, comma-separated: png, svg, pdf.
+    #[arg(
+        long,
+        value_name = "FORMATS",
+        value_delimiter = ',',
+        default_value = "png,svg"
+    )]
+    pub figure_format: Vec<FigureFormatArg>,
     /// Write a self-contained HTML report to this file.
     #[arg(long, value_name = "FILE.html")]
     pub report: Option<PathBuf>,
@@ -400,10 +472,20 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
                 (_, _, _, Some(r)) => (Axis::Payload, r),
                 _ => bail!("sweep: give one of --azimuth, --inclination, --altitude, --payload"),
             };
-            study::run_sweep(&a.problem, axis, range, &a.study, a.plot.as_ref())
+            let figures = StudyFigureArgs {
+                plot: a.plot.clone(),
+                report: a.report.clone(),
+                figure_format: a.figure_format.clone(),
+            };
+            let family = a
+                .family
+                .as_deref()
+                .map(|f| study::parse_family(f, axis))
+                .transpose()?;
+            study::run_sweep(&a.problem, axis, range, &a.study, &figures, family)
         }
-        Command::Compare(a) => study::run_compare(&a.problems, &a.study),
-        Command::Trade(a) => study::run_trade(&a.problem, &a.study),
+        Command::Compare(a) => study::run_compare(&a.problems, &a.study, &a.figures),
+        Command::Trade(a) => study::run_trade(&a.problem, &a.study, &a.figures),
         Command::Dispersions(a) => dispersions::run(&a),
         Command::Schema => {
             let schema = kickturn::problem::json_schema();
@@ -502,7 +584,11 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
         Ok(r) => r,
         Err(e) => return app_error(&a.problem, e, a.out.json),
     };
-    write_flight_outputs(&a.out, &a.problem, &run.report, &run.flight, None)?;
+    let outputs = FlightOutputs {
+        vehicle: Some(&case.problem.vehicle),
+        solve: None,
+    };
+    write_flight_outputs(&a.out, &a.problem, &run.report, &run.flight, &outputs)?;
     if a.out.json {
         io::emit_report(&format!("{}\n", serde_json::to_string_pretty(&run.report)?))?;
     } else {
@@ -511,28 +597,34 @@ fn run_fly(a: &FlyArgs) -> anyhow::Result<u8> {
     Ok(exit_code(run.succeeded()))
 }
 
-/// Writes `--csv`, `--plot` and `--report` of a flight (with the solve's summary in the page when
-/// `solve` is given).
+/// What the HTML report adds to a flight: the input vehicle's table and the solve's summary.
+struct FlightOutputs<'a> {
+    vehicle: Option<&'a kickturn::vehicle::Vehicle>,
+    solve: Option<&'a app::solve::SolveReport>,
+}
+
+/// Writes `--csv`, `--plot` and `--report` of a flight (with the vehicle table and the solve's
+/// summary in the page when `extra` has them).
 fn write_flight_outputs(
     out: &FlightOutputArgs,
     input: &std::path::Path,
     report: &app::outcome::FlightReport,
     flight: &kickturn::sim::Flight,
-    solve: Option<&app::solve::SolveReport>,
+    extra: &FlightOutputs,
 ) -> anyhow::Result<()> {
     if let Some(path) = &out.csv {
         let text = render::csv::history(&flight.history);
         write_atomic(path, input, text.as_bytes())?;
     }
     if let Some(dir) = &out.plot {
-        io::write_figures(
-            dir,
-            input,
-            &render::figures::flight_figures(report, flight)?,
+        let files = render::plots::select_formats(
+            render::figures::flight_figures(report, flight)?,
+            &figure_formats(&out.figure_format),
         )?;
+        io::write_figures(dir, input, &files)?;
     }
     if let Some(path) = &out.report {
-        let page = render::html::page(report, flight, solve)?;
+        let page = render::html::page_with_vehicle(report, flight, extra.solve, extra.vehicle)?;
         write_atomic(path, input, page.as_bytes())?;
     }
     Ok(())

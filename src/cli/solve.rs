@@ -57,7 +57,11 @@ pub fn run(a: &SolveArgs) -> anyhow::Result<u8> {
         write_atomic(path, &a.problem, json.as_bytes())?;
     }
     let r = &run.report;
-    write_flight_outputs(&a.out, &a.problem, &r.flight, &run.flight, Some(r))?;
+    let outputs = super::FlightOutputs {
+        vehicle: Some(&case.problem.vehicle),
+        solve: Some(r),
+    };
+    write_flight_outputs(&a.out, &a.problem, &r.flight, &run.flight, &outputs)?;
     if a.out.json {
         super::io::emit_report(&format!("{}\n", serde_json::to_string_pretty(r)?))?;
     } else {

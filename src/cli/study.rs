@@ -22,7 +22,47 @@ use kickturn::render::stream::{PointLabel, StreamHeader};
 use super::exit_code;
 use super::io::{check_outputs, read_file, write_atomic, write_figures, OutputKind, Progress};
 use super::stream::LineFile;
-use super::StudyArgs;
+use super::{StudyArgs, StudyFigureArgs};
+
+/// `--plot` and `--report` of a study, for [`check_outputs`].
+fn figure_outputs(f: &StudyFigureArgs) -> Vec<(&'static str, &Path, OutputKind)> {
+    let mut v = Vec::new();
+    if let Some(p) = &f.plot {
+        v.push(("--plot", p.as_path(), OutputKind::Folder));
+    }
+    if let Some(p) = &f.report {
+        v.push(("--report", p.as_path(), OutputKind::File));
+    }
+    v
+}
+
+/// Writes a study's figures (`--plot`) and its HTML page (`--report`: `title`, the text
+/// `table` and the same figures with captions); draws nothing when neither is asked for.
+fn write_study_figures(
+    f: &StudyFigureArgs,
+    input: &Path,
+    title: &str,
+    table: impl FnOnce() -> String,
+    draw: impl FnOnce() -> Result<Vec<render::plots::FigureFile>, render::plots::PlotError>,
+) -> anyhow::Result<()> {
+    if f.plot.is_none() && f.report.is_none() {
+        return Ok(());
+    }
+    let figures = draw()?;
+    if let Some(dir) = &f.plot {
+        let files = render::plots::select_formats(
+            figures.clone(),
+            &super::figure_formats(&f.figure_format),
+        )?;
+        write_figures(dir, input, &files)?;
+    }
+    if let Some(path) = &f.report {
+        let captions = render::figures::study_captions(&figures);
+        let page = render::html::study_page(title, &table(), &figures, &captions);
+        write_atomic(path, input, page.as_bytes())?;
+    }
+    Ok(())
+}
 
 /// Prints `report` as JSON or as the text `table`.
 fn print<T: serde::Serialize>(
@@ -151,15 +191,14 @@ pub fn run_sweep(
     axis: Axis,
     range: &str,
     a: &StudyArgs,
-    plot: Option<&PathBuf>,
+    figures: &StudyFigureArgs,
+    family: Option<(Axis, Vec<f64>)>,
 ) -> anyhow::Result<u8> {
     let opts = a.options()?;
     let values =
         study::parse_range(range).map_err(|e| anyhow::anyhow!("--{}: {e}", axis_flag(axis)))?;
     let mut outputs = study_outputs(a);
-    if let Some(p) = plot {
-        outputs.push(("--plot", p.as_path(), OutputKind::Folder));
-    }
+    outputs.extend(figure_outputs(figures));
     check_outputs(&[problem], &outputs)?;
     super::io::check_json_stdout(a.json)?;
     let (file, sha) = read_valid(problem)?;
@@ -184,19 +223,93 @@ pub fn run_sweep(
         |i, p| render::stream::point_line(i, PointLabel::Sweep, p),
         |i, p| Some(render::csv::points_stream_row(label, i, p)),
     )?;
-    let report =
-        SweepReport::run_streamed(&file, sha, axis, &values, &opts, &Progress::new(), &keep);
+    let report = SweepReport::run_streamed(
+        &file,
+        sha.clone(),
+        axis,
+        &values,
+        &opts,
+        &Progress::new(),
+        &keep,
+    );
     keep.close(report.points.len(), report.succeeded())?;
     if let Some(path) = &a.csv {
         let text = render::csv::points(label, &report.points);
         write_atomic(path, problem, text.as_bytes())?;
     }
-    if let Some(dir) = plot {
-        let figures = render::figures::sweep_figures(&file.name, axis, &report.points)?;
-        write_figures(dir, problem, &figures)?;
-    }
-    print(a.json, &report, || render::study::sweep(&report, range))?;
+    // The family: the same sweep once per value of the second axis (each a full sweep).
+    let curves: Vec<(f64, Vec<Point>)> = match &family {
+        Some((fam_axis, fam_values)) => fam_values
+            .iter()
+            .map(|&v| {
+                let f = study::apply(&file, *fam_axis, v);
+                let r = SweepReport::run(&f, sha.clone(), axis, &values, &opts, &Progress::new());
+                (v, r.points)
+            })
+            .collect(),
+        None => Vec::new(),
+    };
+    let family_table = family
+        .as_ref()
+        .map(|(fa, _)| render::study::family(axis, *fa, &values, &curves))
+        .unwrap_or_default();
+    write_study_figures(
+        figures,
+        problem,
+        &format!("{}: sweep of {label}", file.name),
+        || render::study::sweep(&report, range) + &family_table,
+        || {
+            let mut figs = render::figures::sweep_figures(&file.name, axis, &report.points)?;
+            if let Some((fa, _)) = &family {
+                figs.extend(render::figures::family_figure(
+                    &file.name, axis, *fa, &curves,
+                )?);
+            }
+            Ok(figs)
+        },
+    )?;
+    print(a.json, &report, || {
+        render::study::sweep(&report, range) + &family_table
+    })?;
     Ok(exit_code(report.succeeded()))
+}
+
+/// Parses `--family AXIS=V1,V2,...` (or `AXIS=FROM:TO:STEP`); the axis must differ from the
+/// swept one.
+pub fn parse_family(text: &str, swept: Axis) -> anyhow::Result<(Axis, Vec<f64>)> {
+    let Some((name, values)) = text.split_once('=') else {
+        bail!("--family: write AXIS=V1,V2,... (e.g. inclination=28.5,51.6), got `{text}`");
+    };
+    let axis = match name.trim() {
+        "azimuth" => Axis::Azimuth,
+        "inclination" => Axis::Inclination,
+        "altitude" => Axis::Altitude,
+        "payload" => Axis::Payload,
+        other => bail!(
+            "--family: `{other}` is not an axis; use azimuth, inclination, altitude or payload"
+        ),
+    };
+    if axis == swept {
+        bail!("--family: {name} is the swept axis; choose another");
+    }
+    let values = if values.contains(':') {
+        study::parse_range(values).map_err(|e| anyhow::anyhow!("--family: {e}"))?
+    } else {
+        values
+            .split(',')
+            .map(|v| {
+                v.trim()
+                    .parse::<f64>()
+                    .ok()
+                    .filter(|x| x.is_finite())
+                    .ok_or_else(|| anyhow::anyhow!("--family: `{v}` is not a number"))
+            })
+            .collect::<anyhow::Result<Vec<f64>>>()?
+    };
+    if values.is_empty() || values.len() > 12 {
+        bail!("--family: give 1 to 12 values, got {}", values.len());
+    }
+    Ok((axis, values))
 }
 
 fn axis_flag(a: Axis) -> &'static str {
@@ -209,13 +322,19 @@ fn axis_flag(a: Axis) -> &'static str {
 }
 
 /// Runs `kickturn compare`.
-pub fn run_compare(files: &[PathBuf], a: &StudyArgs) -> anyhow::Result<u8> {
+pub fn run_compare(
+    files: &[PathBuf],
+    a: &StudyArgs,
+    figures: &StudyFigureArgs,
+) -> anyhow::Result<u8> {
     let opts = a.options()?;
     if files.len() < 2 {
         bail!("compare: give at least two problem files");
     }
     let inputs: Vec<&Path> = files.iter().map(PathBuf::as_path).collect();
-    check_outputs(&inputs, &study_outputs(a))?;
+    let mut outputs = study_outputs(a);
+    outputs.extend(figure_outputs(figures));
+    check_outputs(&inputs, &outputs)?;
     super::io::check_json_stdout(a.json)?;
     let read = files
         .iter()
@@ -257,6 +376,13 @@ pub fn run_compare(files: &[PathBuf], a: &StudyArgs) -> anyhow::Result<u8> {
         let text = render::csv::compare(&report);
         write_atomic(path, &files[0], text.as_bytes())?;
     }
+    write_study_figures(
+        figures,
+        &files[0],
+        "comparison of solved ascents",
+        || render::study::compare(&report),
+        || render::figures::compare_figures(&report),
+    )?;
     print(a.json, &report, || render::study::compare(&report))?;
     Ok(exit_code(report.succeeded()))
 }
@@ -291,9 +417,11 @@ fn unique_names(
 }
 
 /// Runs `kickturn trade`.
-pub fn run_trade(problem: &Path, a: &StudyArgs) -> anyhow::Result<u8> {
+pub fn run_trade(problem: &Path, a: &StudyArgs, figures: &StudyFigureArgs) -> anyhow::Result<u8> {
     let opts = a.options()?;
-    check_outputs(&[problem], &study_outputs(a))?;
+    let mut outputs = study_outputs(a);
+    outputs.extend(figure_outputs(figures));
+    check_outputs(&[problem], &outputs)?;
     super::io::check_json_stdout(a.json)?;
     let (file, sha) = read_valid(problem)?;
     let traded = study::traded(&file);
@@ -347,6 +475,13 @@ pub fn run_trade(problem: &Path, a: &StudyArgs) -> anyhow::Result<u8> {
     if let Some(path) = &a.csv {
         write_atomic(path, problem, render::csv::trade(&report).as_bytes())?;
     }
+    write_study_figures(
+        figures,
+        problem,
+        &format!("{}: trade factors", report.problem),
+        || render::study::trade(&report),
+        || render::figures::trade_figures(&report),
+    )?;
     print(a.json, &report, || render::study::trade(&report))?;
     Ok(exit_code(report.succeeded()))
 }

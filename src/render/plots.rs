@@ -99,6 +99,65 @@ pub struct Marker<'a> {
     pub label: &'a str,
 }
 
+/// A shaded span of the x axis (a stage's burn on time plots), labelled at its foot.
+pub struct Band<'a> {
+    /// Start, in the x axis unit.
+    pub from: f64,
+    /// End, in the x axis unit.
+    pub to: f64,
+    /// Text written at the foot of the span when it is wide enough.
+    pub label: &'a str,
+}
+
+/// Every part of a line chart, for [`chart`]: [`line_chart`] and [`dual_axis_chart`] are this
+/// with no shading. Limits are `(label, value)` pairs; their legend reads `label value unit`,
+/// the unit taken from the bracket of the axis title they are drawn against (`[kPa]`).
+#[derive(Default)]
+pub struct ChartSpec<'a> {
+    /// File stem (`<stem>.png`, `<stem>.svg`).
+    pub stem: &'a str,
+    /// Title.
+    pub title: &'a str,
+    /// X axis title with its unit.
+    pub x_label: &'a str,
+    /// Left y axis title with its unit.
+    pub y_label: &'a str,
+    /// Right y axis title; `Some` draws the right axis for the `right` series.
+    pub right_label: Option<&'a str>,
+    /// X values shared by every series.
+    pub x: &'a [f64],
+    /// Series on the left axis.
+    pub left: &'a [Series<'a>],
+    /// Series on the right axis.
+    pub right: &'a [Series<'a>],
+    /// Horizontal limit lines on the left axis.
+    pub left_limits: &'a [(&'a str, f64)],
+    /// Horizontal limit lines on the right axis.
+    pub right_limits: &'a [(&'a str, f64)],
+    /// Vertical event markers.
+    pub markers: &'a [Marker<'a>],
+    /// Shaded spans behind the curves.
+    pub bands: &'a [Band<'a>],
+}
+
+/// Draws the chart `spec` describes as `<stem>.png` and `<stem>.svg`.
+pub fn chart(spec: &ChartSpec) -> Result<Vec<FigureFile>, PlotError> {
+    let figure = LineFigure {
+        title: spec.title,
+        x_label: spec.x_label,
+        y_label: spec.y_label,
+        right_label: spec.right_label,
+        x: spec.x,
+        left: spec.left,
+        right: spec.right,
+        left_limits: spec.left_limits,
+        right_limits: spec.right_limits,
+        markers: spec.markers,
+        bands: spec.bands,
+    };
+    render(spec.stem, &figure)
+}
+
 /// One drawn file: its name (`<stem>.png` or `<stem>.svg`) and its bytes.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct FigureFile {
@@ -147,6 +206,7 @@ pub fn line_chart(
         left_limits: limits,
         right_limits: &[],
         markers,
+        bands: &[],
     };
     render(stem, &figure)
 }
@@ -178,6 +238,7 @@ pub fn dual_axis_chart(
         left_limits,
         right_limits,
         markers,
+        bands: &[],
     };
     render(stem, &figure)
 }
@@ -198,112 +259,96 @@ pub fn waterfall(
         title,
         y_label,
         bars: waterfall_bars(start, steps, end_label),
+        connectors: true,
     };
     render(stem, &figure)
 }
 
-/// Bars from zero, one per label (positive and negative coloured apart), values printed on the
-/// bars: e.g. rank correlations of the contributors. Draws `<stem>.png` and `.svg`.
-pub fn bars(
+/// Bars from zero, one per `(label, value)`, the value printed on each (same decimals for all).
+/// `signed` colours negative bars as losses and positive ones as gains (a trade's payload
+/// changes); otherwise every bar has one colour (payload per problem). The axis always includes
+/// zero. A non-finite value is shown as "n/a".
+pub fn bar_chart(
     stem: &str,
     title: &str,
     y_label: &str,
-    labels: &[&str],
-    values: &[f64],
+    bars: &[(&str, f64)],
+    signed: bool,
 ) -> Result<Vec<FigureFile>, PlotError> {
+    let bars = bars
+        .iter()
+        .map(|&(label, v)| Bar {
+            label: label.into(),
+            from: 0.0,
+            to: if usable(v) { v } else { 0.0 },
+            value: usable(v).then_some(v),
+            step: signed,
+        })
+        .collect();
     let figure = WaterfallFigure {
         title,
         y_label,
-        bars: labels
-            .iter()
-            .zip(values)
-            .map(|(l, v)| Bar {
-                label: (*l).to_string(),
-                from: 0.0,
-                to: if usable(*v) { *v } else { 0.0 },
-                value: usable(*v).then_some(*v),
-                step: true,
-            })
-            .collect(),
+        bars,
+        connectors: false,
     };
     render(stem, &figure)
 }
 
-/// A scatter of (x, y) points with both axes through zero marked; non-finite points are skipped.
-/// Draws `<stem>.png` and `.svg`.
-pub fn scatter(
-    stem: &str,
-    title: &str,
-    x_label: &str,
-    y_label: &str,
-    x: &[f64],
-    y: &[f64],
+/// The file formats a figure can be written in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FigureFormat {
+    /// Raster, 1200×800 px, text in the embedded font.
+    Png,
+    /// Vector; text drawn by the viewer's sans-serif font.
+    Svg,
+    /// Vector, converted from the SVG with the embedded font (svg2pdf, a crate of the typst
+    /// project), one page per figure.
+    Pdf,
+}
+
+/// Keeps the figures in `formats`: PNG and SVG files as drawn, and a `<stem>.pdf` made from each
+/// `<stem>.svg` when PDF is asked for. Order: as drawn, each PDF after its SVG.
+pub fn select_formats(
+    files: Vec<FigureFile>,
+    formats: &[FigureFormat],
 ) -> Result<Vec<FigureFile>, PlotError> {
-    let figure = ScatterFigure {
-        title,
-        x_label,
-        y_label,
-        points: x
-            .iter()
-            .zip(y)
-            .filter(|(a, b)| usable(**a) && usable(**b))
-            .map(|(a, b)| (*a, *b))
-            .collect(),
-    };
-    render(stem, &figure)
-}
-
-struct ScatterFigure<'a> {
-    title: &'a str,
-    x_label: &'a str,
-    y_label: &'a str,
-    points: Vec<Xy>,
-}
-
-impl Figure for ScatterFigure<'_> {
-    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), String> {
-        let body = draw_title(root, self.title)?;
-        let xr = Bounds::of(self.points.iter().map(|p| p.0).chain([0.0])).padded(0.05, 0.0);
-        let yr = Bounds::of(self.points.iter().map(|p| p.1).chain([0.0])).padded(0.05, 0.0);
-        let (xt, yt) = (tick_format(xr.clone()), tick_format(yr.clone()));
-        let mut chart = ChartBuilder::on(&body)
-            .margin(MARGIN)
-            .margin_right(RIGHT_MARGIN)
-            .x_label_area_size(X_AREA)
-            .y_label_area_size(Y_AREA)
-            .build_cartesian_2d(xr.clone(), yr.clone())
-            .map_err(err)?;
-        chart
-            .configure_mesh()
-            .x_label_formatter(&xt)
-            .y_label_formatter(&yt)
-            .x_desc(self.x_label)
-            .y_desc(self.y_label)
-            .axis_desc_style(font(DESC_PX))
-            .label_style(font(TICK_PX))
-            .bold_line_style(BLACK.mix(0.12))
-            .light_line_style(TRANSPARENT)
-            .draw()
-            .map_err(err)?;
-        let axis = GREY.stroke_width(1);
-        chart
-            .draw_series([
-                PathElement::new(vec![(xr.start, 0.0), (xr.end, 0.0)], axis),
-                PathElement::new(vec![(0.0, yr.start), (0.0, yr.end)], axis),
-            ])
-            .map_err(err)?;
-        if self.points.is_empty() {
-            return draw_no_data(chart.plotting_area());
+    let mut out = Vec::new();
+    for f in files {
+        let is_svg = f.name.ends_with(".svg");
+        if is_svg && formats.contains(&FigureFormat::Pdf) {
+            let stem = f.name.trim_end_matches(".svg");
+            out.push(FigureFile {
+                name: format!("{stem}.pdf"),
+                bytes: svg_to_pdf(&f.bytes).map_err(|m| draw_error(&format!("{stem}.pdf"), m))?,
+            });
         }
-        chart
-            .draw_series(
-                self.points
-                    .iter()
-                    .map(|p| Circle::new(*p, 4, PALETTE[0].mix(0.6).filled())),
-            )
-            .map_err(err)?;
-        Ok(())
+        let keep = if is_svg {
+            formats.contains(&FigureFormat::Svg)
+        } else {
+            formats.contains(&FigureFormat::Png)
+        };
+        if keep {
+            out.push(f);
+        }
     }
+    Ok(out)
+}
+
+/// Converts one of our SVGs to a one-page PDF, its text set in the embedded DejaVu Sans (the
+/// SVGs ask for `sans-serif`).
+fn svg_to_pdf(svg: &[u8]) -> Result<Vec<u8>, String> {
+    let mut options = svg2pdf::usvg::Options::default();
+    let db = options.fontdb_mut();
+    db.load_font_data(FONT.to_vec());
+    db.set_sans_serif_family("DejaVu Sans");
+    let text = std::str::from_utf8(svg).map_err(err)?;
+    let tree = svg2pdf::usvg::Tree::from_str(text, &options).map_err(err)?;
+    svg2pdf::to_pdf(
+        &tree,
+        svg2pdf::ConversionOptions::default(),
+        svg2pdf::PageOptions::default(),
+    )
+    .map_err(err)
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -397,6 +442,7 @@ struct LineFigure<'a> {
     left_limits: &'a [(&'a str, f64)],
     right_limits: &'a [(&'a str, f64)],
     markers: &'a [Marker<'a>],
+    bands: &'a [Band<'a>],
 }
 
 /// Axis ranges and event-label placement of one line chart.
@@ -452,6 +498,7 @@ impl Figure for LineFigure<'_> {
         if !frame.has_data {
             return draw_no_data(chart.plotting_area());
         }
+        draw_bands(&chart, self.bands, &frame)?;
         self.draw_limits(&chart, &frame)?;
         self.draw_curves(&chart, &left, &right, &frame)?;
         draw_event_labels(root, &chart, &frame)
@@ -484,9 +531,16 @@ impl LineFigure<'_> {
                     false,
                 ));
             }
+            let unit = axis_unit(if heading == "left axis" {
+                self.y_label
+            } else {
+                self.right_label.unwrap_or("")
+            });
             for (i, &(label, y)) in limits.iter().enumerate().filter(|(_, l)| usable(l.1)) {
-                let text = format!("{label} = {}", fmt_num(y));
-                entries.push(LegendEntry::line(text, pal(l_off + i), true));
+                let text = format!("{label} {}{unit}", fmt_num(y));
+                let mut entry = LegendEntry::line(text, pal(l_off + i), true);
+                entry.dash = limit_dash(l_off - off[2] + i);
+                entries.push(entry);
             }
         }
         entries
@@ -511,7 +565,11 @@ impl LineFigure<'_> {
         let band_px = if rows == 0 { 0 } else { rows * NOTE_ROW + 8 };
         let top = (f64::from(band_px) / f64::from(plot_h)).min(0.45);
         let left = y_range(left, self.left_limits, top);
-        let right = y_range(right, self.right_limits, top);
+        let mut right = y_range(right, self.right_limits, top);
+        if !self.left_limits.is_empty() && !self.right_limits.is_empty() {
+            // Limits often top their axes; a taller right axis keeps the two lines apart.
+            right.end += 0.15 * (right.end - right.start);
+        }
         let has_data = true;
         Frame {
             x,
@@ -538,7 +596,8 @@ impl LineFigure<'_> {
             for (i, &(_, y)) in limits.iter().enumerate().filter(|(_, l)| usable(l.1)) {
                 let line = vec![(f.x.start + phase * f64::from(k % 2), y), (f.x.end, y)];
                 let style = pal(start + i).stroke_width(2);
-                area.draw(&DashedPathElement::new(line, DASH, DASH, style))
+                let (on, off) = limit_dash(start - off[2] + i);
+                area.draw(&DashedPathElement::new(line, on, off, style))
                     .map_err(err)?;
                 k += 1;
             }
@@ -801,6 +860,8 @@ struct WaterfallFigure<'a> {
     title: &'a str,
     y_label: &'a str,
     bars: Vec<Bar>,
+    /// A waterfall: running-total connectors and a possibly broken axis; else plain bars from 0.
+    connectors: bool,
 }
 
 /// One waterfall bar from `from` to `to` (m/s); `value` is `None` for a non-finite input.
@@ -821,11 +882,12 @@ impl Bar {
         }
     }
 
-    fn value_text(&self) -> String {
+    /// The bar's value with `decimals` places (the same for every bar of a chart).
+    fn value_text(&self, decimals: usize) -> String {
         match self.value {
             None => "n/a".to_string(),
-            Some(v) if self.step && v >= 0.0 => format!("+{}", fmt_num(v)),
-            Some(v) => fmt_num(v),
+            Some(v) if self.step && v >= 0.0 => format!("+{v:.decimals$}"),
+            Some(v) => format!("{v:.decimals$}"),
         }
     }
 }
@@ -867,25 +929,44 @@ impl Figure for WaterfallFigure<'_> {
         let body = draw_title(root, self.title)?;
         let n = self.bars.len().max(1);
         let slot = (plot_size(&body, false).0 / n as i32).max(8);
-        let names: Vec<Vec<String>> = self
-            .bars
-            .iter()
-            .map(|b| wrap_words(&body, &b.label, (slot - 8).max(8) as u32))
-            .collect();
+        // Bar names wrap onto up to five lines; where slots are narrow they are set smaller
+        // (down to 13 px) before any name is cut.
+        let wrap_all = |px: u32| -> Vec<Vec<String>> {
+            self.bars
+                .iter()
+                .map(|b| wrap_text(&body, &b.label, px, (slot - 8).max(8) as u32, 5))
+                .collect()
+        };
+        let whole = |names: &Vec<Vec<String>>| {
+            names
+                .iter()
+                .zip(&self.bars)
+                .all(|(n, b)| b.label.contains('…') || !n.concat().contains('…'))
+        };
+        let (name_px, names) = [TICK_PX, 17, 15, 13]
+            .into_iter()
+            .map(|px| (px, wrap_all(px)))
+            .find(|(_, n)| whole(n))
+            .unwrap_or_else(|| (13, wrap_all(13)));
         let lines = names.iter().map(Vec::len).max().unwrap_or(1) as u32;
         let has_data = self.bars.iter().any(|b| b.value.is_some());
-        let y = if has_data {
-            bar_range(&self.bars)
-        } else {
-            0.0..1.0
+        let y = match (has_data, self.connectors) {
+            (false, _) => 0.0..1.0,
+            (true, true) => bar_range(&self.bars),
+            (true, false) => zero_range(&self.bars),
         };
-        let chart = self.bar_chart(&body, n, lines, y)?;
-        draw_bar_names(root, &chart, &names)?;
+        let broken = y.start > 0.0;
+        let chart = self.bar_chart(&body, n, lines * (name_px + 4), y, broken)?;
+        draw_bar_names(root, &chart, &names, name_px)?;
         if !has_data {
             return draw_no_data(chart.plotting_area());
         }
-        draw_bars(chart.plotting_area(), &self.bars)?;
-        draw_bar_values(root, &chart, &self.bars, slot)
+        draw_bars(chart.plotting_area(), &self.bars, self.connectors)?;
+        if broken {
+            draw_breaks(root, &chart, &self.bars)?;
+        }
+        let digits = if self.connectors { 4.0 } else { 2.0 };
+        draw_bar_values(root, &chart, &self.bars, slot, digits)
     }
 }
 
@@ -895,15 +976,21 @@ impl WaterfallFigure<'_> {
         &self,
         body: &'a DrawingArea<DB, Shift>,
         n: usize,
-        lines: u32,
+        names_px: u32,
         y: Range<f64>,
+        broken: bool,
     ) -> Result<BarChart<'a, DB>, String> {
         let y_ticks = tick_format(y.clone());
-        let y_label = fit_text(body, self.y_label, DESC_PX, plot_size(body, false).1 as u32);
+        let y_title = if broken {
+            format!("{} (axis from {})", self.y_label, fmt_num(y.start))
+        } else {
+            self.y_label.to_string()
+        };
+        let y_label = fit_text(body, &y_title, DESC_PX, plot_size(body, false).1 as u32);
         let mut chart = ChartBuilder::on(body)
             .margin(MARGIN)
             .margin_right(RIGHT_MARGIN)
-            .x_label_area_size(16 + lines * (TICK_PX + 4))
+            .x_label_area_size(16 + names_px)
             .y_label_area_size(Y_AREA)
             .build_cartesian_2d(0.0..n as f64, y)
             .map_err(err)?;
@@ -923,24 +1010,113 @@ impl WaterfallFigure<'_> {
     }
 }
 
-/// Value range with the zero line, room above for the value labels and below for negative bars.
+/// Value range, room above for the value labels and below for negative bars. The axis starts
+/// at zero unless every step and the total stay high above it (a budget whose losses are a small
+/// part of the ideal ΔV): then it starts a little below the lowest step, at a round value, and
+/// the full bars are drawn broken ([`draw_breaks`]), so that small steps are not slivers.
 fn bar_range(bars: &[Bar]) -> Range<f64> {
     let b = Bounds::of(bars.iter().flat_map(|b| [0.0, b.from, b.to]));
     let span = if b.hi > b.lo { b.hi - b.lo } else { 1.0 };
     let below = if b.lo < 0.0 { 0.08 * span } else { 0.0 };
+    // Steps span from..to; a full bar after the first counts by its top only.
+    let low_steps = Bounds::of(
+        bars.iter()
+            .skip(1)
+            .filter(|b| b.value.is_some())
+            .flat_map(|b| [if b.step { b.from } else { b.to }, b.to]),
+    );
+    if b.lo >= 0.0 && !low_steps.is_empty() && low_steps.lo > 0.4 * b.hi {
+        let pad = 0.15 * (b.hi - low_steps.lo).max(0.02 * b.hi);
+        let floor = round_down(low_steps.lo - pad);
+        if floor > 0.0 {
+            return floor..b.hi + 0.1 * (b.hi - floor);
+        }
+    }
     b.lo - below..b.hi + 0.1 * span
 }
 
-fn draw_bars<DB: DrawingBackend>(area: &PlotArea<DB>, bars: &[Bar]) -> Result<(), String> {
+/// `v` rounded down to one or two significant digits of a 1-2-5 step (7613 → 7000, 1480 → 1000).
+fn round_down(v: f64) -> f64 {
+    if !(v > 0.0 && v.is_finite()) {
+        return 0.0;
+    }
+    let step = 10f64.powf(v.log10().floor());
+    (v / step).floor() * step
+}
+
+/// Decimal places for every value label of a chart: `digits` + 1 significant digits of the
+/// largest value (a waterfall asks for 4: 9595.3 → 1 place, so a 6.7 m/s term keeps a digit;
+/// plain bars for 2: 74.96 → 74.9), at most three.
+fn bar_decimals(bars: &[Bar], digits: f64) -> usize {
+    let top = bars
+        .iter()
+        .filter_map(|b| b.value)
+        .map(f64::abs)
+        .fold(0.0, f64::max);
+    if top > 0.0 && top.is_finite() {
+        (digits - top.log10().floor()).clamp(0.0, 3.0) as usize
+    } else {
+        0
+    }
+}
+
+/// A broken-axis mark: a white gap with slanted edges across each full bar and the axis line
+/// near the foot, since those bars do not start at the axis' first value.
+fn draw_breaks<DB: DrawingBackend>(
+    root: &DrawingArea<DB, Shift>,
+    chart: &BarChart<DB>,
+    bars: &[Bar],
+) -> Result<(), String> {
+    let y0 = chart.plotting_area().get_pixel_range().1.end;
+    let x_axis = chart.plotting_area().get_pixel_range().0.start;
+    let y = y0 - 22;
+    let mut xs: Vec<(i32, i32)> = vec![(x_axis - 8, x_axis + 8)];
+    for (i, _) in bars
+        .iter()
+        .enumerate()
+        .filter(|(_, b)| !b.step && b.value.is_some())
+    {
+        let (a, _) = chart.backend_coord(&(i as f64 + 0.1, 0.0));
+        let (b, _) = chart.backend_coord(&(i as f64 + 0.9, 0.0));
+        xs.push((a, b));
+    }
+    for (a, b) in xs {
+        let gap = [(a, y + 4), (b, y - 4), (b, y - 12), (a, y - 4)];
+        root.draw(&Polygon::new(gap.to_vec(), WHITE.filled()))
+            .map_err(err)?;
+        for dy in [0, -8] {
+            let line = vec![(a, y + 4 + dy), (b, y - 4 + dy)];
+            root.draw(&PathElement::new(line, BLACK.stroke_width(1)))
+                .map_err(err)?;
+        }
+    }
+    Ok(())
+}
+
+/// Value range of plain bars: zero and every bar, room above for the value labels.
+fn zero_range(bars: &[Bar]) -> Range<f64> {
+    let b = Bounds::of(bars.iter().flat_map(|b| [0.0, b.to]));
+    let span = if b.hi > b.lo { b.hi - b.lo } else { 1.0 };
+    let below = if b.lo < 0.0 { 0.1 * span } else { 0.0 };
+    b.lo - below..b.hi + 0.1 * span
+}
+
+fn draw_bars<DB: DrawingBackend>(
+    area: &PlotArea<DB>,
+    bars: &[Bar],
+    connectors: bool,
+) -> Result<(), String> {
     for (i, bar) in bars.iter().enumerate() {
         let x = i as f64;
         let (lo, hi) = (bar.from.min(bar.to), bar.from.max(bar.to));
+        // A full bar on a broken axis starts at the axis' first value.
+        let lo = lo.max(area.get_y_range().start);
         if bar.value.is_some() {
             let corners = [(x + 0.18, lo), (x + 0.82, hi)];
             area.draw(&Rectangle::new(corners, bar.color().filled()))
                 .map_err(err)?;
         }
-        if i + 1 < bars.len() {
+        if connectors && i + 1 < bars.len() {
             // Connector: the running total carried to the next bar.
             let line = vec![(x + 0.82, bar.to), (x + 1.18, bar.to)];
             area.draw(&PathElement::new(line, GREY.stroke_width(1)))
@@ -957,9 +1133,11 @@ fn draw_bar_values<DB: DrawingBackend>(
     chart: &BarChart<DB>,
     bars: &[Bar],
     slot: i32,
+    digits: f64,
 ) -> Result<(), String> {
+    let decimals = bar_decimals(bars, digits);
     for (i, bar) in bars.iter().enumerate() {
-        let text = bar.value_text();
+        let text = bar.value_text(decimals);
         // Shrink the value text only if it is wider than its bar slot.
         let width = text_width(root, &text, TICK_PX).max(1) as i32;
         let px = (TICK_PX as i32 * (slot - 6) / width).clamp(11, TICK_PX as i32) as u32;
@@ -975,13 +1153,14 @@ fn draw_bar_names<DB: DrawingBackend>(
     root: &DrawingArea<DB, Shift>,
     chart: &BarChart<DB>,
     names: &[Vec<String>],
+    px: u32,
 ) -> Result<(), String> {
     let bottom = chart.plotting_area().get_pixel_range().1.end;
-    let style = font(TICK_PX).pos(Pos::new(HPos::Center, VPos::Top));
+    let style = font(px).pos(Pos::new(HPos::Center, VPos::Top));
     for (i, lines) in names.iter().enumerate() {
         let (x, _) = chart.backend_coord(&(i as f64 + 0.5, 0.0));
         for (k, line) in lines.iter().enumerate() {
-            let y = bottom + 8 + k as i32 * (TICK_PX as i32 + 4);
+            let y = bottom + 8 + k as i32 * (px as i32 + 4);
             root.draw(&Text::new(line.clone(), (x, y), style.clone()))
                 .map_err(err)?;
         }
@@ -989,32 +1168,100 @@ fn draw_bar_names<DB: DrawingBackend>(
     Ok(())
 }
 
-/// Greedy word wrap to `max_w` px, at most three lines; the last line is cut with "…" if needed.
-fn wrap_words<DB: DrawingBackend>(
+/// Greedy wrap to `max_w` px at spaces and after hyphens, at most `max_lines` lines; the last
+/// line is cut with "…" if it still does not fit.
+fn wrap_text<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     text: &str,
+    px: u32,
     max_w: u32,
+    max_lines: usize,
 ) -> Vec<String> {
+    // Pieces: (text, joined to the previous piece without a space).
+    let mut pieces: Vec<(String, bool)> = Vec::new();
+    for word in text.split_whitespace() {
+        let parts: Vec<&str> = word.split_inclusive('-').collect();
+        for (k, part) in parts.iter().enumerate() {
+            pieces.push(((*part).to_string(), k > 0));
+        }
+    }
     let mut lines: Vec<String> = Vec::new();
     let mut current = String::new();
-    for word in text.split_whitespace() {
-        let candidate = if current.is_empty() {
-            word.to_string()
-        } else {
-            format!("{current} {word}")
+    for (piece, glued) in pieces {
+        let candidate = match (current.is_empty(), glued) {
+            (true, _) => piece.clone(),
+            (false, true) => format!("{current}{piece}"),
+            (false, false) => format!("{current} {piece}"),
         };
-        if current.is_empty() || text_width(area, &candidate, TICK_PX) <= max_w || lines.len() == 2
-        {
+        let fits = text_width(area, &candidate, px) <= max_w;
+        if current.is_empty() || fits || lines.len() + 1 >= max_lines.max(1) {
             current = candidate;
         } else {
-            lines.push(std::mem::replace(&mut current, word.to_string()));
+            lines.push(std::mem::replace(&mut current, piece));
         }
     }
     lines.push(current);
-    lines
-        .iter()
-        .map(|l| fit_text(area, l, TICK_PX, max_w))
-        .collect()
+    lines.iter().map(|l| fit_text(area, l, px, max_w)).collect()
+}
+
+/// The unit in the bracket that ends an axis title ("dynamic pressure [kPa]" → " kPa"), with a
+/// leading space; empty when the title has none.
+fn axis_unit(axis_title: &str) -> String {
+    match (axis_title.rfind('['), axis_title.rfind(']')) {
+        (Some(a), Some(b)) if a < b => format!(" {}", &axis_title[a + 1..b]),
+        _ => String::new(),
+    }
+}
+
+/// Dash and gap lengths (px) of the `i`-th limit line: dashed, dotted, long dash, so that two
+/// limits at the same height still read apart.
+fn limit_dash(i: usize) -> (i32, i32) {
+    [(DASH, DASH), (3, 5), (22, 8)][i % 3]
+}
+
+/// Shades every second band lightly behind the curves and writes its label at its foot.
+fn draw_bands<DB: DrawingBackend>(
+    chart: &Dual<DB>,
+    bands: &[Band],
+    f: &Frame,
+) -> Result<(), String> {
+    let area = chart.plotting_area();
+    let tints = [
+        RGBColor(0, 114, 178).mix(0.07),
+        RGBColor(213, 94, 0).mix(0.07),
+    ];
+    let style = font(NOTE_PX)
+        .color(&GREY)
+        .pos(Pos::new(HPos::Center, VPos::Bottom));
+    for (i, b) in bands.iter().enumerate() {
+        let (lo, hi) = (b.from.max(f.x.start), b.to.min(f.x.end));
+        if !(usable(lo) && usable(hi) && hi > lo) {
+            continue;
+        }
+        let corners = [(lo, f.left.start), (hi, f.left.end)];
+        area.draw(&Rectangle::new(corners, tints[i % 2].filled()))
+            .map_err(err)?;
+        let (x0, y0) = chart.backend_coord(&(lo, f.left.start));
+        let (x1, _) = chart.backend_coord(&(hi, f.left.start));
+        let room = (x1 - x0 - 6).max(0) as u32;
+        if room >= 40 {
+            let root = area.strip_coord_spec();
+            // A narrow band shows the label's part after ": " (the stage) or before it (the
+            // arc), whichever fits whole, before cutting.
+            let (head, tail) = b.label.split_once(": ").unwrap_or((b.label, b.label));
+            let text = [b.label, tail, head]
+                .into_iter()
+                .find(|t| text_width(&root, t, NOTE_PX) <= room);
+            // A band too narrow for even its short name stays unlabelled rather than cut.
+            if let Some(text) = text {
+                let (ox, oy) = area.get_base_pixel();
+                let at = ((x0 + x1) / 2 - ox, y0 - 4 - oy);
+                root.draw(&Text::new(printable(text), at, style.clone()))
+                    .map_err(err)?;
+            }
+        }
+    }
+    Ok(())
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -1027,8 +1274,14 @@ fn draw_title<DB: DrawingBackend>(
 ) -> Result<DrawingArea<DB, Shift>, String> {
     root.fill(&WHITE).map_err(err)?;
     let (w, _) = root.dim_in_pixel();
-    let text = fit_text(root, title, TITLE_PX, w.saturating_sub(2 * MARGIN));
-    let style = font(TITLE_PX).pos(Pos::new(HPos::Center, VPos::Center));
+    // A long title is set smaller (down to the axis-title size) before it is cut.
+    let room = w.saturating_sub(2 * MARGIN);
+    let px = (DESC_PX..=TITLE_PX)
+        .rev()
+        .find(|&px| text_width(root, &printable(title), px) <= room)
+        .unwrap_or(DESC_PX);
+    let text = fit_text(root, title, px, room);
+    let style = font(px).pos(Pos::new(HPos::Center, VPos::Center));
     let at = (w as i32 / 2, TITLE_BAND as i32 / 2 + 4);
     root.draw(&Text::new(text, at, style)).map_err(err)?;
     Ok(root.split_vertically(TITLE_BAND).1)
@@ -1039,6 +1292,8 @@ struct LegendEntry {
     text: String,
     color: Option<RGBColor>,
     dashed: bool,
+    /// Dash and gap lengths of a dashed swatch, px.
+    dash: (i32, i32),
 }
 
 impl LegendEntry {
@@ -1047,6 +1302,7 @@ impl LegendEntry {
             text,
             color: Some(color),
             dashed,
+            dash: (9, 6),
         }
     }
 
@@ -1055,6 +1311,7 @@ impl LegendEntry {
             text: text.to_string(),
             color: None,
             dashed: false,
+            dash: (9, 6),
         }
     }
 }
@@ -1085,18 +1342,30 @@ fn draw_legend<DB: DrawingBackend>(
 ) -> Result<(), String> {
     let right = area.dim_in_pixel().0 as i32 - MARGIN as i32;
     let top = MARGIN as i32;
-    let bottom = top + PAD + LEGEND_ROW * entries.len() as i32;
+    let max_text = (right - SWATCH - 3 * PAD).max(10) as u32;
+    // A long entry wraps onto a second line (cut only beyond that), so a legend keeps its words.
+    let lines: Vec<Vec<String>> = entries
+        .iter()
+        .map(|e| wrap_text(area, &e.text, LEGEND_PX, max_text, 2))
+        .collect();
+    let line_h = LEGEND_PX as i32 + 4;
+    let extra = |n: usize| (n.max(1) as i32 - 1) * line_h;
+    let bottom = top
+        + PAD
+        + lines
+            .iter()
+            .map(|l| LEGEND_ROW + extra(l.len()))
+            .sum::<i32>();
     let corners = [(0, top), (right, bottom)];
     area.draw(&Rectangle::new(corners, WHITE.filled()))
         .map_err(err)?;
     area.draw(&Rectangle::new(corners, GREY.mix(0.6).stroke_width(1)))
         .map_err(err)?;
-    let max_text = (right - SWATCH - 3 * PAD).max(10) as u32;
-    for (i, entry) in entries.iter().enumerate() {
-        let y = top + PAD / 2 + LEGEND_ROW * i as i32 + LEGEND_ROW / 2;
+    let mut y = top + PAD / 2 + LEGEND_ROW / 2;
+    for (entry, text) in entries.iter().zip(&lines) {
         let text_x = match entry.color {
             Some(color) => {
-                draw_swatch(area, (PAD, y), color, entry.dashed)?;
+                draw_swatch(area, (PAD, y), color, entry.dashed.then_some(entry.dash))?;
                 2 * PAD + SWATCH
             }
             None => PAD,
@@ -1105,9 +1374,12 @@ fn draw_legend<DB: DrawingBackend>(
         let style = font(LEGEND_PX)
             .color(&color)
             .pos(Pos::new(HPos::Left, VPos::Center));
-        let text = fit_text(area, &entry.text, LEGEND_PX, max_text);
-        area.draw(&Text::new(text, (text_x, y), style))
-            .map_err(err)?;
+        for (k, line) in text.iter().enumerate() {
+            let at = (text_x, y + k as i32 * line_h);
+            area.draw(&Text::new(line.clone(), at, style.clone()))
+                .map_err(err)?;
+        }
+        y += LEGEND_ROW + extra(text.len());
     }
     Ok(())
 }
@@ -1116,12 +1388,12 @@ fn draw_swatch<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     (x, y): (i32, i32),
     color: RGBColor,
-    dashed: bool,
+    dash: Option<(i32, i32)>,
 ) -> Result<(), String> {
     let line = vec![(x, y), (x + SWATCH, y)];
     let style = color.stroke_width(3);
-    if dashed {
-        area.draw(&DashedPathElement::new(line, 9, 6, style))
+    if let Some((on, off)) = dash {
+        area.draw(&DashedPathElement::new(line, on, off, style))
             .map_err(err)
     } else {
         area.draw(&PathElement::new(line, style)).map_err(err)
@@ -1271,6 +1543,96 @@ impl Bounds {
     }
 }
 
+/// Bars from zero, one per label (positive and negative coloured apart), values printed on the
+/// bars: e.g. rank correlations of the contributors. Draws `<stem>.png` and `.svg`.
+pub fn bars(
+    stem: &str,
+    title: &str,
+    y_label: &str,
+    labels: &[&str],
+    values: &[f64],
+) -> Result<Vec<FigureFile>, PlotError> {
+    let pairs: Vec<(&str, f64)> = labels.iter().copied().zip(values.iter().copied()).collect();
+    bar_chart(stem, title, y_label, &pairs, true)
+}
+
+/// A scatter of (x, y) points with both axes through zero marked; non-finite points are skipped.
+/// Draws `<stem>.png` and `.svg`.
+pub fn scatter(
+    stem: &str,
+    title: &str,
+    x_label: &str,
+    y_label: &str,
+    x: &[f64],
+    y: &[f64],
+) -> Result<Vec<FigureFile>, PlotError> {
+    let figure = ScatterFigure {
+        title,
+        x_label,
+        y_label,
+        points: x
+            .iter()
+            .zip(y)
+            .filter(|(a, b)| usable(**a) && usable(**b))
+            .map(|(a, b)| (*a, *b))
+            .collect(),
+    };
+    render(stem, &figure)
+}
+
+struct ScatterFigure<'a> {
+    title: &'a str,
+    x_label: &'a str,
+    y_label: &'a str,
+    points: Vec<Xy>,
+}
+
+impl Figure for ScatterFigure<'_> {
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), String> {
+        let body = draw_title(root, self.title)?;
+        let xr = Bounds::of(self.points.iter().map(|p| p.0).chain([0.0])).padded(0.05, 0.0);
+        let yr = Bounds::of(self.points.iter().map(|p| p.1).chain([0.0])).padded(0.05, 0.0);
+        let (xt, yt) = (tick_format(xr.clone()), tick_format(yr.clone()));
+        let mut chart = ChartBuilder::on(&body)
+            .margin(MARGIN)
+            .margin_right(RIGHT_MARGIN)
+            .x_label_area_size(X_AREA)
+            .y_label_area_size(Y_AREA)
+            .build_cartesian_2d(xr.clone(), yr.clone())
+            .map_err(err)?;
+        chart
+            .configure_mesh()
+            .x_label_formatter(&xt)
+            .y_label_formatter(&yt)
+            .x_desc(self.x_label)
+            .y_desc(self.y_label)
+            .axis_desc_style(font(DESC_PX))
+            .label_style(font(TICK_PX))
+            .bold_line_style(BLACK.mix(0.12))
+            .light_line_style(TRANSPARENT)
+            .draw()
+            .map_err(err)?;
+        let axis = GREY.stroke_width(1);
+        chart
+            .draw_series([
+                PathElement::new(vec![(xr.start, 0.0), (xr.end, 0.0)], axis),
+                PathElement::new(vec![(0.0, yr.start), (0.0, yr.end)], axis),
+            ])
+            .map_err(err)?;
+        if self.points.is_empty() {
+            return draw_no_data(chart.plotting_area());
+        }
+        chart
+            .draw_series(
+                self.points
+                    .iter()
+                    .map(|p| Circle::new(*p, 4, PALETTE[0].mix(0.6).filled())),
+            )
+            .map_err(err)?;
+        Ok(())
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -1369,7 +1731,7 @@ mod tests {
         for text in [
             "pitch kick",
             "upper stage ignition",
-            "target altitude = 200",
+            "target altitude 200 km",
             "time [s]",
         ] {
             assert!(svg.contains(text), "SVG lacks {text}");
@@ -1484,14 +1846,19 @@ mod tests {
         for text in [
             "axial acceleration [g]",
             "right axis",
-            "q limit = 35",
-            "g limit = 4.5",
+            "q limit 35 kPa",
+            "g limit 4.5 g",
         ] {
             assert!(svg.contains(text), "SVG lacks {text}");
         }
         assert!(
-            !svg.contains("q limit = 35."),
+            !svg.contains("q limit 35."),
             "limit value printed with noise digits"
+        );
+        assert_ne!(
+            limit_dash(0),
+            limit_dash(1),
+            "limits in distinct dash styles"
         );
     }
 
@@ -1567,6 +1934,52 @@ mod tests {
     }
 
     #[test]
+    fn a_budget_waterfall_starts_near_the_final_speed_with_one_precision() {
+        let bars = waterfall_bars(
+            ("ideal", 9594.6),
+            &[
+                ("gravity", -1695.7),
+                ("steering", -6.73),
+                ("rotation", 2.667),
+            ],
+            "final",
+        );
+        // Lowest step 7895 (9594.6 − 1695.7 − 6.73 + 2.667 = 7894.8): the axis starts at a
+        // round value below it, far above zero.
+        let y = bar_range(&bars);
+        assert_relative_eq!(y.start, 7000.0);
+        assert_eq!(bar_decimals(&bars, 4.0), 1);
+        assert_eq!(bars[2].value_text(1), "-6.7");
+        assert_eq!(bars[3].value_text(1), "+2.7");
+        // Large losses keep the zero line.
+        let deep = waterfall_bars(("ideal", 100.0), &[("loss", -90.0)], "end");
+        assert_relative_eq!(bar_range(&deep).start, 0.0);
+        let paths =
+            bar_chart("bars", "Bars", "kg", &[("a", -3.0), ("b", 5.0)], true).expect("bar chart");
+        assert!(svg_text(&paths).contains("+5.0"));
+    }
+
+    #[test]
+    fn long_legend_entries_wrap_and_units_come_from_the_axis() {
+        assert_eq!(axis_unit("dynamic pressure [kPa]"), " kPa");
+        assert_eq!(axis_unit("Mach"), "");
+        let x = [0.0, 1.0];
+        let y = [0.0, 1.0];
+        let series = [Series {
+            label: "flight-path angle (Earth-relative)",
+            y: &y,
+        }];
+        let paths = line_chart("wrap", "Wrap", "x", "y", &x, &series, &[], &[]).expect("chart");
+        let svg = svg_text(&paths);
+        assert!(svg.contains("flight-path angle (Earth-") && svg.contains("relative)"));
+        assert!(
+            !svg.contains("(Earth-relative)"),
+            "the entry is drawn on two lines"
+        );
+        assert!(!svg.contains('…'), "a wrapped legend is not cut");
+    }
+
+    #[test]
     fn waterfall_bars_carry_the_running_total() {
         let bars = waterfall_bars(
             ("start", 100.0),
@@ -1581,8 +1994,9 @@ mod tests {
         }
         assert_relative_eq!(bars[1].from, 100.0);
         assert!(bars[2].value.is_none());
-        assert_eq!(bars[2].value_text(), "n/a");
-        assert_eq!(bars[3].value_text(), "+5");
+        assert_eq!(bars[2].value_text(0), "n/a");
+        assert_eq!(bars[3].value_text(0), "+5");
+        assert_eq!(bars[1].value_text(1), "-30.0");
         assert_eq!(bars[1].color(), LOSS);
         assert_eq!(bars[3].color(), GAIN);
     }

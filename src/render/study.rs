@@ -169,3 +169,46 @@ pub fn trade(r: &TradeReport) -> String {
     let _ = writeln!(s, "CAUTION: {}", CAUTION);
     s
 }
+
+/// The payload (kg) of a family of sweeps: one row per swept value, one column per family value
+/// (`--family`); a point that did not solve shows its status.
+pub fn family(
+    axis: crate::app::study::Axis,
+    family_axis: crate::app::study::Axis,
+    values: &[f64],
+    curves: &[(f64, Vec<crate::app::study::Point>)],
+) -> String {
+    use std::fmt::Write as _;
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "\npayload kg by {} (rows) and {} (columns)",
+        axis.label(),
+        family_axis.label()
+    );
+    let _ = write!(s, "  {:>16}", axis.label());
+    for (v, _) in curves {
+        let _ = write!(s, " {:>16}", crate::app::show(*v));
+    }
+    let _ = writeln!(s);
+    for (i, x) in values.iter().enumerate() {
+        let _ = write!(s, "  {:>16}", crate::app::show(*x));
+        for (_, pts) in curves {
+            let cell = pts.get(i).map_or(String::from("-"), |p| match &p.report {
+                Some(r) if p.status == crate::app::study::PointStatus::Converged => {
+                    format!("{:.1}", r.payload_kg)
+                }
+                // Solved but not converged (e.g. the budget ended the search): flagged.
+                Some(r) => format!("{:.1}*", r.payload_kg),
+                None => format!("{:?}", p.status).to_lowercase(),
+            });
+            let _ = write!(s, " {cell:>16}");
+        }
+        let _ = writeln!(s);
+    }
+    let _ = writeln!(
+        s,
+        "  * solved without convergence (see its status in a sweep of that value)"
+    );
+    s
+}

@@ -169,6 +169,37 @@ impl Environment {
         }
     }
 
+    /// Vacuum instantaneous impact point of the inertial state (`r_m`, `v_mps`) at time `t_s`:
+    /// geodetic latitude and Earth-fixed longitude (rad) where the free-flight conic meets the
+    /// sphere through the ellipsoid surface below the vehicle ([`super::iip`]), the Earth having
+    /// turned for the time of flight. `None` on the flat model, for an orbit whose perigee
+    /// clears that sphere, or for an escape trajectory. For reports; not called while
+    /// integrating.
+    pub fn vacuum_iip(
+        &self,
+        t_s: f64,
+        r_m: &Vector3<f64>,
+        v_mps: &Vector3<f64>,
+    ) -> Option<Geodetic> {
+        let EarthModel::Wgs84 { .. } = self.earth else {
+            return None;
+        };
+        // Ellipsoid radius at the present geocentric latitude φc:
+        // R = a √((1 − e²) / (1 − e² cos² φc)) (the ellipse r(φc) in polar form).
+        let r = r_m.norm();
+        let cos2 = if r > 0.0 {
+            1.0 - (r_m.z / r).powi(2)
+        } else {
+            1.0
+        };
+        let radius =
+            earth::WGS84_A_M * ((1.0 - earth::WGS84_E2) / (1.0 - earth::WGS84_E2 * cos2)).sqrt();
+        let hit = super::iip::vacuum_impact(r_m, v_mps, earth::WGS84_GM_M3_S2, radius)?;
+        let theta = self.rotation_angle_rad(t_s + hit.time_of_flight_s);
+        let g = earth::ecef_to_geodetic(&earth::eci_to_ecef(&hit.r_m, theta));
+        Some(g)
+    }
+
     /// Local conditions at time `t_s`, position `r_m`, inertial velocity `v_mps`. No allocation.
     /// The time is not used by the models offered: in the inertial frame the rotating Earth's
     /// geodetic latitude, height and local frame depend on `r_m` alone (see `local_wgs84`).
@@ -216,5 +247,42 @@ impl Environment {
             centrifugal_mps2: -omega.cross(&w_x_r),
             air: self.air(m.altitude_m),
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_drop_from_rest_above_the_pad_lands_below_it_and_the_flat_model_has_no_iip() {
+        let env = Environment {
+            earth: EarthModel::Wgs84 {
+                j2: false,
+                rotation: true,
+            },
+            atmosphere: AtmosphereModel::Vacuum,
+        };
+        let above = Geodetic {
+            latitude_rad: 31.2_f64.to_radians(),
+            longitude_rad: -47.3_f64.to_radians(),
+            altitude_m: 10_000.0,
+        };
+        let (r, v) = env.pad_state(&above);
+        let g = env.vacuum_iip(0.0, &r, &v).expect("a drop lands");
+        // A 10 km drop lasts about √(2h/g) = 45 s; the Coriolis drift over it is metres
+        // (eastward deflection ω g t³ cos φ / 3 ≈ 2 m, from memory), far below 0.001° (~100 m).
+        assert!((g.latitude_rad - above.latitude_rad).to_degrees().abs() < 1e-3);
+        assert!((g.longitude_rad - above.longitude_rad).to_degrees().abs() < 1e-3);
+        assert!(
+            g.altitude_m.abs() < 50.0,
+            "on the surface: {}",
+            g.altitude_m
+        );
+        let flat = Environment {
+            earth: EarthModel::Flat { gravity_mps2: 9.8 },
+            atmosphere: AtmosphereModel::Vacuum,
+        };
+        assert!(flat.vacuum_iip(0.0, &r, &v).is_none());
     }
 }

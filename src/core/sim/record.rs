@@ -58,6 +58,11 @@ pub struct Snapshot {
     pub steering_loss_rel_mps: f64,
     /// Cumulative back-pressure loss, m/s.
     pub back_pressure_loss_mps: f64,
+    /// Vacuum instantaneous impact point (geodetic latitude, Earth-fixed longitude), deg: where
+    /// the vehicle would land if thrust and air stopped now (`Environment::vacuum_iip`); `None`
+    /// once the conic clears the Earth. Kept out of the reports' JSON (figures draw it).
+    #[serde(skip)]
+    pub vacuum_iip_deg: Option<(f64, f64)>,
 }
 
 fn angle_deg(a: &Vector3<f64>, b: &Vector3<f64>) -> f64 {
@@ -122,5 +127,9 @@ pub fn snapshot(p: &FlightModel, mode: &Mode, law: &dyn ActiveLaw, t: f64, y: &S
         drag_loss_rel_mps: y[ix::DRAG_R],
         steering_loss_rel_mps: y[ix::STEER_R],
         back_pressure_loss_mps: y[ix::PRESS],
+        vacuum_iip_deg: p
+            .environment
+            .vacuum_iip(t, &r, &v)
+            .map(|g| (g.latitude_rad.to_degrees(), g.longitude_rad.to_degrees())),
     }
 }
