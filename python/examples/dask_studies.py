@@ -24,7 +24,8 @@ if __name__ == "__main__":  # worker processes import this file: start the clust
         )
         trade = kickturn.dask.trade(client, PROBLEM)
 
-    pd.set_option("display.width", 120)
+    pd.set_option("display.width", 160)
+    pd.set_option("display.max_columns", None)
     print(sweep[["swept_altitude_km", "status", "margin_kg", "gravity_loss_mps", "trajectories"]])
     print(grid[["swept_altitude_km", "swept_payload_kg", "status", "margin_kg"]])
     print(trade[["parameter", "step", "factor", "unit"]])
