@@ -77,15 +77,7 @@ fn app_error(py: Python<'_>, e: app::Error, file: Option<&str>) -> PyErr {
         }
         app::Error::Unreachable(u) => {
             // The object `--json` prints for an unreachable inclination.
-            let info = serde_json::json!({
-                "tool": app::tool_version(),
-                "status": "unreachable_inclination",
-                "message": text,
-                "field": u.field,
-                "inclination_deg": u.inclination_deg,
-                "site_geocentric_latitude_deg": u.latitude_deg,
-                "plane_change_mps": u.plane_change_mps,
-            });
+            let info = app::unreachable_document(&u, &text, &message);
             raise(py, "UnreachableError", (message, info.to_string()))
         }
         app::Error::Option { option, reason } => option_error(py, format!("{option}: {reason}")),

@@ -25,6 +25,26 @@ use crate::core::problem::{self, validate, Problem, ProblemFile};
 
 pub use crate::core::observe::{Observer, Silent};
 
+/// The document of a target inclination out of reach (what `--json` prints, and the `info` of
+/// the Python package's `UnreachableError`): `message` is the error, `located` the same with the
+/// problem's path in front.
+pub fn unreachable_document(
+    u: &UnreachableInclination,
+    message: &str,
+    located: &str,
+) -> serde_json::Value {
+    serde_json::json!({
+        "tool": tool_version(),
+        "status": "unreachable_inclination",
+        "message": message,
+        "error": { "kind": "unreachable_inclination", "field": u.field, "message": located },
+        "field": u.field,
+        "inclination_deg": u.inclination_deg,
+        "site_geocentric_latitude_deg": u.latitude_deg,
+        "plane_change_mps": u.plane_change_mps,
+    })
+}
+
 /// Tool name and version, as every document states it.
 pub fn tool_version() -> String {
     format!("kickturn {}", env!("CARGO_PKG_VERSION"))

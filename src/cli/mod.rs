@@ -512,20 +512,15 @@ fn app_error(problem: &std::path::Path, e: app::Error, json: bool) -> anyhow::Re
     eprintln!("error: {}: {e}", problem.display());
     if json {
         let message = format!("{}: {e}", problem.display());
-        let mut obj = serde_json::json!({
-            "tool": app::tool_version(),
-            "status": "error",
-            "message": e.to_string(),
-            "error": error_object("run", None, &message),
-        });
-        if let app::Error::Unreachable(u) = &e {
-            obj["error"] = error_object("unreachable_inclination", Some(u.field), &message);
-            obj["status"] = "unreachable_inclination".into();
-            obj["field"] = u.field.into();
-            obj["inclination_deg"] = u.inclination_deg.into();
-            obj["site_geocentric_latitude_deg"] = u.latitude_deg.into();
-            obj["plane_change_mps"] = u.plane_change_mps.into();
-        }
+        let obj = match &e {
+            app::Error::Unreachable(u) => app::unreachable_document(u, &e.to_string(), &message),
+            _ => serde_json::json!({
+                "tool": app::tool_version(),
+                "status": "error",
+                "message": e.to_string(),
+                "error": error_object("run", None, &message),
+            }),
+        };
         io::emit(&format!("{}\n", serde_json::to_string_pretty(&obj)?))?;
     }
     Ok(EXIT_NOT_REACHED)
