@@ -136,20 +136,9 @@ pub struct SweepArgs {
     /// Payload range FROM:TO:STEP, kg.
     #[arg(long, value_name = "FROM:TO:STEP")]
     pub payload: Option<String>,
-    /// Write the sweep curves (PNG and SVG) into this folder.
-    #[arg(long, value_name = "DIR")]
-    pub plot: Option<PathBuf>,
-    /// Write a self-contained HTML report (the table and the figures) to this file.
-    #[arg(long, value_name = "FILE.html")]
-    pub report: Option<PathBuf>,
-    /// Formats of the `--plot` files, comma-separated: png, svg, pdf.
-    #[arg(
-        long,
-        value_name = "FORMATS",
-        value_delimiter = ',',
-        default_value = "png,svg"
-    )]
-    pub figure_format: Vec<FigureFormatArg>,
+    /// Figure and report outputs (the sweep curves, and with `--family` the family).
+    #[command(flatten)]
+    pub figures: StudyFigureArgs,
     /// Also sweep once per value of a second axis, for a family of payload curves (figure
     /// `sweep_family`, a text table after the sweep's): AXIS=V1,V2,... or AXIS=FROM:TO:STEP with
     /// AXIS one of azimuth (deg), inclination (deg), altitude (km), payload (kg), not the swept one.
@@ -160,7 +149,7 @@ pub struct SweepArgs {
     pub study: StudyArgs,
 }
 
-/// Figure and report outputs of `compare` and `trade`.
+/// Figure and report outputs of `sweep`, `compare` and `trade`.
 #[derive(Debug, clap::Args)]
 pub struct StudyFigureArgs {
     /// Write the study's figures (PNG and SVG) into this folder.
@@ -472,17 +461,12 @@ fn run(cli: Cli) -> anyhow::Result<u8> {
                 (_, _, _, Some(r)) => (Axis::Payload, r),
                 _ => bail!("sweep: give one of --azimuth, --inclination, --altitude, --payload"),
             };
-            let figures = StudyFigureArgs {
-                plot: a.plot.clone(),
-                report: a.report.clone(),
-                figure_format: a.figure_format.clone(),
-            };
             let family = a
                 .family
                 .as_deref()
                 .map(|f| study::parse_family(f, axis))
                 .transpose()?;
-            study::run_sweep(&a.problem, axis, range, &a.study, &figures, family)
+            study::run_sweep(&a.problem, axis, range, &a.study, &a.figures, family)
         }
         Command::Compare(a) => study::run_compare(&a.problems, &a.study, &a.figures),
         Command::Trade(a) => study::run_trade(&a.problem, &a.study, &a.figures),
