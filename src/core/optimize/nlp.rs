@@ -24,6 +24,10 @@ use super::targeting::{Eval, Q_SCALE_PA, SHORTFALL_WEIGHT};
 use super::{inner, Ctx, SolveOptions};
 use crate::core::problem::params::Param;
 
+/// Switching-function scale, s: a pinned switch (an ignition held at a jettison) is met within
+/// the constraint tolerance times this, 10 µs.
+const SWITCH_SCALE_S: f64 = 10.0;
+
 /// Objective unit as a fraction of the liftoff mass.
 const OBJECTIVE_UNIT: f64 = 1e-3;
 
@@ -175,7 +179,16 @@ impl<'a> Ascent<'a> {
         } else {
             e.propellant_used_kg
         } / self.unit_kg;
-        Values { f, eq, ineq }
+        Values {
+            f,
+            eq,
+            ineq,
+            switch: if self.ctx.spec.kinks {
+                e.switches.iter().map(|s| s / SWITCH_SCALE_S).collect()
+            } else {
+                Vec::new()
+            },
+        }
     }
 }
 
@@ -196,6 +209,7 @@ impl Program for Ascent<'_> {
                         f: f64::NAN,
                         eq: Vec::new(),
                         ineq: Vec::new(),
+                        switch: Vec::new(),
                     };
                 }
                 self.values(&self.eval(x))
@@ -318,6 +332,7 @@ pub fn search(prog: &Ascent, starts: Vec<Start>, o: &SolveOptions) -> Found {
                 values: prog.values(&eval),
                 x: x.clone(),
                 lambda_eq: Vec::new(),
+                pins: Vec::new(),
                 lambda_ineq: Vec::new(),
                 at_bounds: Vec::new(),
                 status: Status::EvaluationLimit,

@@ -158,6 +158,7 @@ impl Refine<'_> {
             f: e.propellant_used_kg / self.unit_kg,
             eq: r[..n].to_vec(),
             ineq,
+            switch: Vec::new(),
         }
     }
 }

@@ -139,6 +139,13 @@ fn directional(base: &Values, pert: &Values, out: &Outcome) -> f64 {
     for (l, (a, b)) in out.lambda_ineq.iter().zip(base.ineq.iter().zip(&pert.ineq)) {
         d += l * (b - a);
     }
+    // A pinned switching function is a constraint of the optimum too (it stays on its kink).
+    let me = out.lambda_eq.len().saturating_sub(out.pins.len());
+    for (l, &k) in out.lambda_eq[me..].iter().zip(&out.pins) {
+        if let (Some(a), Some(b)) = (base.switch.get(k), pert.switch.get(k)) {
+            d += l * (b - a);
+        }
+    }
     d
 }
 

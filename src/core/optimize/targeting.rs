@@ -57,6 +57,11 @@ pub struct Eval {
     pub payload_kg: f64,
     /// Evaluated in the payload mode (objective: largest payload).
     pub payload_mode: bool,
+    /// Switching functions, s: for each jettison and each ignition that follows a coast (see
+    /// [`switch_count`]), jettison time minus ignition time (NaN when either did not happen).
+    /// The propellant has a kink where one changes sign: the jettisoned mass is carried through
+    /// the start of the burn on one side and not on the other.
+    pub switches: Vec<f64>,
 }
 
 impl Eval {
@@ -64,6 +69,34 @@ impl Eval {
     pub fn max_abs(&self) -> f64 {
         self.residuals.iter().fold(0.0, |m, r| m.max(r.abs()))
     }
+}
+
+/// The arcs whose start is an ignition after a coast.
+fn ignitions(p: &Problem) -> impl Iterator<Item = usize> + '_ {
+    use crate::core::steering::Arc;
+    let arcs = &p.program.arcs;
+    (1..arcs.len()).filter(move |&k| {
+        matches!(arcs[k], Arc::Burn { .. }) && matches!(arcs[k - 1], Arc::Coast { .. })
+    })
+}
+
+/// Number of switching functions of a problem ([`Eval::switches`]).
+pub fn switch_count(p: &Problem) -> usize {
+    p.vehicle.jettisons.len() * ignitions(p).count()
+}
+
+/// The switching functions of a flight ([`Eval::switches`]), s.
+fn switches(p: &Problem, f: &Flight) -> Vec<f64> {
+    let ign: Vec<usize> = ignitions(p).collect();
+    let mut out = Vec::with_capacity(switch_count(p));
+    for j in 0..p.vehicle.jettisons.len() {
+        let tj = f.jettison_times_s.get(j).copied().unwrap_or(f64::NAN);
+        for &k in &ign {
+            let tk = f.arcs.get(k).map_or(f64::NAN, |a| a.t0_s);
+            out.push(tj - tk);
+        }
+    }
+    out
 }
 
 /// Number of residuals for a target (with a held dynamic-pressure limit or not).
@@ -178,5 +211,6 @@ pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>, energy_equality: 
         max_q_alpha_pa_deg: f.max_q_alpha.map_or(0.0, |m| m.value),
         payload_kg: p.vehicle.payload_kg,
         payload_mode: energy_equality,
+        switches: switches(p, &f),
     }
 }

@@ -207,6 +207,9 @@ pub struct Flight {
     pub max_q_alpha: Option<Extremum>,
     /// Propellant left in the current and later stages, kg.
     pub propellant_remaining_kg: f64,
+    /// Time of each jettison (vehicle order), s; NaN for one not jettisoned. The optimizer
+    /// watches where a conditional jettison crosses an ignition: the propellant has a kink there.
+    pub jettison_times_s: Vec<f64>,
     /// Time history (empty unless recorded).
     pub history: Vec<Snapshot>,
     /// Integrator work.
@@ -419,6 +422,7 @@ impl<'a> Flyer<'a> {
             max_axial_accel: None,
             max_q_alpha: None,
             propellant_remaining_kg: 0.0,
+            jettison_times_s: vec![f64::NAN; n_j],
             history: Vec::new(),
             stats: SimStats::default(),
         };
@@ -1068,6 +1072,7 @@ impl<'a> Flyer<'a> {
         self.y[ix::M] -= j.mass_kg;
         self.mode.other_mass_kg -= j.mass_kg;
         self.flags.jettisoned[i] = true;
+        self.out.jettison_times_s[i] = self.t;
     }
 
     fn cutoff(&mut self) {
