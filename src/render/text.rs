@@ -261,6 +261,10 @@ pub fn render(r: &FlightReport) -> String {
         r.site,
         super::table::angle_0_360(r.azimuth_deg, 3)
     );
+    if !r.earth.is_wgs84() {
+        // WGS-84 is the default, named in the notes; another model is said at the top.
+        let _ = writeln!(s, "Earth model: {}", r.earth.describe());
+    }
     verdict(r, &mut s);
     budget_table(&r.budget, &mut s);
     budget_table(&r.budget_inertial, &mut s);
