@@ -137,6 +137,26 @@ impl EarthSummary {
         self.model == "wgs84"
     }
 
+    /// How reports name the height of a point: `geodetic altitude` (WGS-84, and the flat
+    /// model's z) or `altitude above the sphere`.
+    pub fn altitude_label(&self) -> &'static str {
+        if self.model == "sphere" {
+            "altitude above the sphere"
+        } else {
+            "geodetic altitude"
+        }
+    }
+
+    /// How reports name the latitude: `geodetic latitude`, or on the sphere `latitude`
+    /// (geocentric and geodetic latitude coincide there).
+    pub fn latitude_label(&self) -> &'static str {
+        if self.model == "sphere" {
+            "latitude"
+        } else {
+            "geodetic latitude"
+        }
+    }
+
     /// A line naming the model and its constants, e.g. `spherical Earth: radius 6371.000 km,
     /// GM 3.986004418e14 m³/s², rotation 7.292115e-5 rad/s, no J2`.
     pub fn describe(&self) -> String {

@@ -251,7 +251,7 @@ fn altitude_speed(c: &TimeAxis) -> Result<Vec<FigureFile>, PlotError> {
         "altitude_speed",
         "altitude and speed",
         Axes {
-            left_label: "geodetic altitude [km]",
+            left_label: &format!("{} [km]", c.r.earth.altitude_label()),
             right_label: Some("speed [km/s]"),
             left: &left,
             right: &right,
@@ -338,7 +338,7 @@ fn profile(r: &FlightReport, h: &[Snapshot]) -> Result<Vec<FigureFile>, PlotErro
         "profile",
         &format!("{}: altitude against downrange", r.vehicle),
         "downrange [km]",
-        "geodetic altitude [km]",
+        &format!("{} [km]", r.earth.altitude_label()),
         &down,
         &[Series {
             label: "trajectory",
@@ -399,7 +399,7 @@ fn ground_track(r: &FlightReport, h: &[Snapshot]) -> Result<Vec<FigureFile>, Plo
         stem: "ground_track",
         title: &format!("{}: ground track and vacuum impact point", r.vehicle),
         x_label: "longitude [deg east]",
-        y_label: "geodetic latitude [deg]",
+        y_label: &format!("{} [deg]", r.earth.latitude_label()),
         x: &x,
         left: &series,
         ..ChartSpec::default()

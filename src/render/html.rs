@@ -277,11 +277,14 @@ fn cutoff_tables(r: &FlightReport, f: &Flight, s: &mut String) {
         for (name, value) in [
             ("time since liftoff, s", format!("{:.3}", a.t_s)),
             (
-                "geodetic altitude, km",
+                &format!("{}, km", r.earth.altitude_label()),
                 format!("{:.3}", a.altitude_m / 1e3),
             ),
             ("downrange, km", format!("{:.3}", a.downrange_m / 1e3)),
-            ("geodetic latitude, deg", format!("{:.4}", a.latitude_deg)),
+            (
+                &format!("{}, deg", r.earth.latitude_label()),
+                format!("{:.4}", a.latitude_deg),
+            ),
             ("longitude, deg east", format!("{:.4}", a.longitude_deg)),
             (
                 "Earth-relative speed, m/s",

@@ -217,7 +217,12 @@ fn extremes(r: &FlightReport, s: &mut String) {
 
 fn events(r: &FlightReport, s: &mut String) {
     use super::table::{Align, Table};
-    let _ = writeln!(s, "\nEvents (altitude geodetic; γ Earth-relative)");
+    let alt = if r.earth.model != "sphere" {
+        "altitude geodetic"
+    } else {
+        r.earth.altitude_label()
+    };
+    let _ = writeln!(s, "\nEvents ({alt}; γ Earth-relative)");
     let r_ = Align::Right;
     let mut t = Table::new(&[
         ("t s", r_),
