@@ -646,7 +646,21 @@ fn sphere(m: &ModelFile, s: &SphereFile) -> R<EarthModel> {
              or choose \"earth\": \"wgs84\"",
         );
     }
-    let radius_m = range(&format!("{P}.radius_m"), s.radius_m, 1e5, 1e8, true)?;
+    let radius_m = range(&format!("{P}.radius_m"), s.radius_m, 1e5, 1e8, true).map_err(|e| {
+        if (1e2..1e5).contains(&s.radius_m) {
+            ProblemError::invalid(
+                format!("{P}.radius_m"),
+                format!(
+                    "{} is below 100 000 m; is it in km? The field is in metres ({} km = {} m)",
+                    s.radius_m,
+                    s.radius_m,
+                    s.radius_m * 1e3
+                ),
+            )
+        } else {
+            e
+        }
+    })?;
     let gm_m3_s2 = positive(&format!("{P}.gm_m3_s2"), s.gm_m3_s2)?;
     let rotation_rad_s = match (s.rotation_rad_s, m.earth_rotation) {
         (Some(w), Some(false)) if w != 0.0 => {
