@@ -464,4 +464,125 @@ mod tests {
         };
         assert!(flat.vacuum_iip(0.0, &r, &v).is_none());
     }
+
+    fn sphere(radius_m: f64, gm_m3_s2: f64, rotation_rad_s: f64) -> Environment {
+        Environment {
+            earth: EarthModel::Spherical {
+                radius_m,
+                gm_m3_s2,
+                rotation_rad_s,
+            },
+            atmosphere: AtmosphereModel::Vacuum,
+        }
+    }
+
+    fn site(lat_deg: f64, lon_deg: f64, alt_m: f64) -> Geodetic {
+        Geodetic {
+            latitude_rad: lat_deg.to_radians(),
+            longitude_rad: lon_deg.to_radians(),
+            altitude_m: alt_m,
+        }
+    }
+
+    #[test]
+    fn a_sphere_of_the_wgs84_radius_and_rate_gives_the_spherical_rotation_gain() {
+        // Source: domain brief §3(d) [der]: due-east gain on a sphere, ω_E a cos φ =
+        // 465.101 cos φ: 408.74 m/s at 28.5°, 402.79 at 30°, 328.88 at 45° (the ellipsoid's
+        // ω_E N cos φ is larger: 409.05, 403.13, 329.43, so a sphere that used N would fail).
+        let env = sphere(
+            earth::WGS84_A_M,
+            earth::WGS84_GM_M3_S2,
+            earth::WGS84_OMEGA_RAD_S,
+        );
+        for (lat_deg, want) in [(28.5, 408.74), (30.0, 402.79), (45.0, 328.88)] {
+            for s in [site(lat_deg, -80.0, 0.0), site(-lat_deg, 33.0, 0.0)] {
+                let (r, v) = env.pad_state(&s);
+                assert!((v.norm() - want).abs() < 0.005, "{lat_deg}: {}", v.norm());
+                assert!((env.surface_rotation_speed_mps(&s) - want).abs() < 0.005);
+                // On the sphere the pad lies at radius R + h and its latitude is geocentric.
+                assert!((r.norm() - earth::WGS84_A_M).abs() < 1e-6);
+                let g = env.geodetic(0.0, &r);
+                assert!((g.latitude_rad - s.latitude_rad).abs() < 1e-14);
+                assert!((g.longitude_rad - s.longitude_rad).abs() < 1e-14);
+                assert!(g.altitude_m.abs() < 1e-6);
+                assert!(
+                    (env.geocentric_latitude_rad(s.latitude_rad) - s.latitude_rad).abs() < 1e-15
+                );
+            }
+        }
+        // Not rotating: no pad speed.
+        let still = sphere(earth::WGS84_A_M, earth::WGS84_GM_M3_S2, 0.0);
+        assert!(still.pad_state(&site(28.5, 0.0, 0.0)).1.norm() < 1e-12);
+    }
+
+    #[test]
+    fn sphere_gravity_is_the_point_mass_and_its_vertical_is_radial() {
+        // Source: Newton's point-mass field |g| = μ/r² along −r̂ (Bate, Mueller & White 1971,
+        // §1.3); altitude |r| − R and radial vertical by definition of the spherical model. A
+        // lunar-sized body (GM 4.9048695e12 m³/s², R 1737.4 km, from memory; any values serve)
+        // so that a stray WGS-84 constant would show.
+        let (mu, radius) = (4.904_869_5e12, 1_737_400.0);
+        let env = sphere(radius, mu, 0.0);
+        let r = Vector3::new(1.2e6, -0.7e6, 1.1e6);
+        let loc = env.local(0.0, &r, &Vector3::zeros());
+        let rn = r.norm();
+        assert!((loc.gravity_mps2.norm() - mu / (rn * rn)).abs() < 1e-12);
+        assert!((loc.gravity_mps2.normalize() + r / rn).norm() < 1e-14);
+        assert!((loc.up - r / rn).norm() < 1e-15);
+        assert!((loc.altitude_m - (rn - radius)).abs() < 1e-9);
+        assert!(loc.east.dot(&loc.up).abs() < 1e-15 && loc.north.dot(&loc.up).abs() < 1e-15);
+        assert!((loc.north - loc.up.cross(&loc.east)).norm() < 1e-15);
+        assert!((env.radial_altitude_m(&r) - (rn - radius)).abs() < 1e-9);
+        assert!((env.specific_energy_j_kg(&r, &Vector3::zeros()) + mu / rn).abs() < 1e-9);
+        assert!(
+            (env.gm_m3_s2() - mu).abs() < 1e-3 && (env.reference_radius_m() - radius).abs() < 1e-9
+        );
+        // A drop from rest above a slowly turning sphere lands below on the surface: a 50 km
+        // fall lasts √(2h/g) ≈ 250 s, and the Coriolis drift ω g t³ cos φ / 3 (from memory)
+        // is about 8 m at ω = 1e-6 rad/s, 5e-6 rad of arc. (A drop from rest on a sphere that
+        // does not turn is a radial fall, which has no plane: `None`, as documented in `iip`.)
+        let turning = sphere(radius, mu, 1e-6);
+        let above = site(12.0, 34.0, 50_000.0);
+        let (r0, v0) = turning.pad_state(&above);
+        let hit = turning.vacuum_iip(0.0, &r0, &v0).expect("a drop lands");
+        assert!((hit.latitude_rad - above.latitude_rad).abs() < 1e-5);
+        assert!((hit.longitude_rad - above.longitude_rad).abs() < 1e-5);
+        assert!(hit.altitude_m.abs() < 1e-6);
+    }
+
+    #[test]
+    fn on_the_equator_the_sphere_of_the_wgs84_radius_is_the_ellipsoid_without_j2() {
+        // Source: on the equator the WGS-84 normal is radial and the geodetic height is p − a
+        // (N(0) = a; domain brief §1), so without J2 the two models see the same altitude, frame
+        // and gravity there. Off the equator they differ: at 45° geocentric the ellipsoid lies
+        // about 10.7 km inside the sphere of radius a (R(φc) = a √((1 − e²)/(1 − e² cos² φc)),
+        // the ellipse in polar form), so the geodetic height is that much larger.
+        let wgs = Environment {
+            earth: EarthModel::Wgs84 {
+                j2: false,
+                rotation: true,
+            },
+            atmosphere: AtmosphereModel::Us1976,
+        };
+        let sph = Environment {
+            earth: EarthModel::Spherical {
+                radius_m: earth::WGS84_A_M,
+                gm_m3_s2: earth::WGS84_GM_M3_S2,
+                rotation_rad_s: earth::WGS84_OMEGA_RAD_S,
+            },
+            atmosphere: AtmosphereModel::Us1976,
+        };
+        let r = Vector3::new(4.0e6, 5.5e6, 0.0);
+        let v = Vector3::new(-6.0e3, 4.0e3, 0.0);
+        let (a, b) = (wgs.local(0.0, &r, &v), sph.local(0.0, &r, &v));
+        assert!((a.altitude_m - b.altitude_m).abs() < 1e-6);
+        assert!((a.up - b.up).norm() < 1e-15 && (a.north - b.north).norm() < 1e-15);
+        assert!((a.gravity_mps2 - b.gravity_mps2).norm() < 1e-12);
+        assert!((a.v_rel_mps - b.v_rel_mps).norm() < 1e-12);
+        assert!((a.air.density_kg_m3 - b.air.density_kg_m3).abs() < 1e-15);
+        let c = std::f64::consts::FRAC_1_SQRT_2;
+        let r45 = Vector3::new(7.0e6 * c, 0.0, 7.0e6 * c);
+        let dh = wgs.local(0.0, &r45, &v).altitude_m - sph.local(0.0, &r45, &v).altitude_m;
+        assert!((dh - 10_700.0).abs() < 100.0, "{dh}");
+    }
 }
