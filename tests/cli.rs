@@ -452,6 +452,67 @@ fn an_escape_trajectory_is_not_an_orbit() {
 }
 
 #[test]
+fn a_solve_on_a_spherical_earth_measures_the_orbit_above_the_sphere() {
+    // The medium demo with `"earth": {"sphere": ...}` of the mean Earth radius 6371 km (a
+    // textbook value; any radius serves) and the WGS-84 GM. A 200 km circular target is then
+    // met at r = R + 200 km with the circular speed v = √(μ/r) (vis-viva with a = r; Bate,
+    // Mueller & White 1971, ch. 1): 7788.49 m/s, where apsides measured above the WGS-84
+    // equatorial radius (7.137 km higher) would give 4.2 m/s less.
+    let dir = std::env::temp_dir().join(format!("kickturn-sphere-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let mut v: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json")).expect("demo"),
+    )
+    .expect("json");
+    let (radius, mu) = (6_371_000.0, 3.986_004_418e14);
+    v["model"] =
+        serde_json::json!({ "earth": { "sphere": { "radius_m": radius, "gm_m3_s2": mu } } });
+    let path = dir.join("sphere.json");
+    std::fs::write(&path, v.to_string()).expect("written");
+    let out = kickturn(&["solve", &path.to_string_lossy(), "--json"]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let r = json_of(&out);
+    assert_eq!(r["status"], "orbit");
+    assert_eq!(r["earth"]["model"], "sphere");
+    assert_eq!(r["earth"]["radius_m"], radius);
+    assert_eq!(r["earth"]["j2"], false);
+    let num = |x: &serde_json::Value| x.as_f64().unwrap_or(f64::NAN);
+    let o = &r["orbit"];
+    for key in ["perigee_alt_km", "apogee_alt_km", "insertion_alt_km"] {
+        assert!((num(&o[key]) - 200.0).abs() < 0.1, "{key}: {}", o[key]);
+    }
+    let r_c = radius + 1e3 * num(&o["insertion_alt_km"]);
+    let v_c = (mu / r_c).sqrt();
+    assert!((v_c - 7788.49).abs() < 0.1, "{v_c}");
+    assert!(
+        (num(&o["insertion_speed_mps"]) - v_c).abs() < 0.05,
+        "{}",
+        o["insertion_speed_mps"]
+    );
+    assert!(r["conventions"][0]
+        .as_str()
+        .unwrap_or("")
+        .contains("6371.000 km"));
+    // The text report names the model at the top and measures the events above the sphere.
+    let out = kickturn(&["fly", &path.to_string_lossy()]);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.lines()
+            .nth(1)
+            .unwrap_or("")
+            .starts_with("Earth model: spherical Earth: radius 6371.000 km"),
+        "{text}"
+    );
+    assert!(text.contains("Events (altitude above the sphere;"));
+    std::fs::remove_dir_all(&dir).expect("cleanup");
+}
+
+#[test]
 fn names_with_markup_and_control_characters_give_well_formed_figures_and_pages() {
     // Issue 10: a vehicle name with markup and control characters made every SVG invalid XML.
     // XML 1.0 (5th ed.) §2.2 allows no control characters but tab, CR and LF.

@@ -6,6 +6,8 @@
 //! 3. Bookkeeping properties of the demo problems: closure, agreement of the two bookkeepings
 //!    without Earth rotation, mirror symmetry about the equator, invariance in longitude.
 //! 4. Self-convergence of every budget term under a 100× tighter integrator tolerance.
+//! 5. The spherical Earth: a coast to the closed-form apoapsis, and agreement with WGS-84 (no J2)
+//!    on the equator.
 //!
 //! Tolerances. Closed forms are checked to 1e-6 relative (or 1e-6 m/s absolute for terms whose
 //! exact value is 0). The default integrator tolerance (Dormand–Prince 5(4), rtol 1e-9,
@@ -531,4 +533,151 @@ fn demo_budget_converges_with_tolerance() {
             fb.stats.accepted_steps
         );
     }
+}
+
+// ---------------------------------------------------------------------------------------------
+// 5. Spherical Earth
+// ---------------------------------------------------------------------------------------------
+
+/// A spherical, non-rotating, airless Earth of radius `radius_m` and parameter `gm_m3_s2`.
+fn still_sphere(radius_m: f64, gm_m3_s2: f64) -> kickturn::physics::environment::Environment {
+    kickturn::physics::environment::Environment {
+        earth: EarthModel::Spherical {
+            radius_m,
+            gm_m3_s2,
+            rotation_rad_s: 0.0,
+        },
+        atmosphere: AtmosphereModel::Vacuum,
+    }
+}
+
+/// A coast to apogee on a non-rotating airless sphere from a climbing state: energy and angular
+/// momentum are conserved, the coast ends at the closed-form apoapsis r_a = a(1 + e) with speed
+/// h/r_a after the Kepler time of flight, and the report measures the apsides above the sphere.
+#[test]
+fn a_coast_on_a_sphere_reaches_the_closed_form_apoapsis() {
+    // Source: two-body relations of Bate, Mueller & White, Fundamentals of Astrodynamics (1971),
+    // ch. 1 and 4: ε = v²/2 − μ/r, a = −μ/(2ε), h = |r × v|, e = √(1 + 2εh²/μ²), r_a = a(1 + e);
+    // Kepler's equation M = E − e sin E, n = √(μ/a³), cos E = (1 − r/a)/e. Constants: Curtis,
+    // Orbital Mechanics for Engineering Students, ch. 2 (R = 6378 km, μ = 398600 km³/s²), and a
+    // lunar-sized body (GM 4.9048695e12 m³/s², R 1737.4 km, from memory; any values serve, the
+    // check is closed-form, and a stray WGS-84 constant would show).
+    let cases = [
+        (6_378e3, 398_600e9, 300e3, 1_000.0, 7_500.0),
+        (1_737.4e3, 4.904_869_5e12, 50e3, 100.0, 1_650.0),
+    ];
+    for (radius, mu, h0, v_up, v_hor) in cases {
+        let mut p = problem(
+            100.0,
+            &[stage(100.0, 800.0, 20_000.0, 300.0)],
+            json!([pitch_up_burn_to_depletion()]),
+        );
+        p.program.arcs = vec![Arc::Coast(CoastEnd::ToApogee)];
+        p.environment = still_sphere(radius, mu);
+        let r0 = Vector3::new(0.0, radius + h0, 0.0);
+        let v0 = Vector3::new(-v_hor, v_up, 0.0);
+        let f = fly_from(&p, 0.0, r0, v0);
+        assert_eq!(f.end, EndReason::Completed);
+        let (r1, v1) = final_rv(&f);
+        let (rn0, v2) = (r0.norm(), v0.norm_squared());
+        let energy = 0.5 * v2 - mu / rn0;
+        let a = -mu / (2.0 * energy);
+        let h = r0.cross(&v0).norm();
+        let e = (1.0 + 2.0 * energy * h * h / (mu * mu)).sqrt();
+        let r_a = a * (1.0 + e);
+        let e0 = ((1.0 - rn0 / a) / e).acos(); // climbing: E in (0, π)
+        let tof = (PI - (e0 - e * e0.sin())) / (mu / a.powi(3)).sqrt();
+        println!(
+            "sphere R {radius} μ {mu:e}: r_a {:.6} vs {r_a:.6} m, |v| {:.6} vs {:.6} m/s, t {:.6} vs {tof:.6} s",
+            r1.norm(),
+            v1.norm(),
+            h / r_a,
+            f.t1_s
+        );
+        assert_relative_eq!(r1.norm(), r_a, max_relative = 1e-9);
+        assert_relative_eq!(v1.norm(), h / r_a, max_relative = 1e-7);
+        assert_relative_eq!(f.t1_s, tof, max_relative = 1e-6);
+        let env = &p.environment;
+        assert_relative_eq!(
+            env.specific_energy_j_kg(&r1, &v1),
+            energy,
+            max_relative = 1e-9
+        );
+        assert_relative_eq!(r1.cross(&v1).norm(), h, max_relative = 1e-9);
+        // The report's apsides are above the sphere, with the sphere's μ.
+        let o = kickturn::app::outcome::orbit_summary(env, &f.y1);
+        let apogee_km = o.apogee_alt_km.expect("bound orbit");
+        assert!(
+            (apogee_km - (r_a - radius) / 1e3).abs() < 1e-5,
+            "{apogee_km}"
+        );
+        let r_p = a * (1.0 - e);
+        assert!((o.perigee_alt_km - (r_p - radius) / 1e3).abs() < 1e-5);
+        assert!((o.eccentricity - e).abs() < 1e-9);
+    }
+}
+
+/// A sphere with the WGS-84 equatorial radius, GM and rate, flown due east from the equator,
+/// flies the same ascent as the WGS-84 ellipsoid without J2 (measured: the final states agree to
+/// 1e-15 m; the tolerances leave room for reordered floating-point operations). Off the equator
+/// the two differ (see the unit tests of `environment`).
+#[test]
+fn an_equatorial_ascent_on_the_sphere_of_radius_a_matches_wgs84_without_j2() {
+    // Source: on the equator the ellipsoid normal is radial and the geodetic height is p − a
+    // (N(0) = a; domain brief §1), and the plane of motion stays equatorial for a due-east
+    // heading, so without J2 both models integrate the same equations; the pad speed is
+    // ω_E a = 465.101 m/s in both (domain brief §3(d)).
+    let (_, mut p) = demo_problems()
+        .into_iter()
+        .find(|(n, _)| n.starts_with("medium"))
+        .expect("the medium demo");
+    p.site.geodetic.latitude_rad = 0.0;
+    p.azimuth_rad = FRAC_PI_2;
+    for arc in &mut p.program.arcs {
+        if let Arc::Burn {
+            steering: Steering::LinearTangent(lt),
+            ..
+        } = arc
+        {
+            lt.heading_rad = Some(FRAC_PI_2);
+        }
+    }
+    let wgs = {
+        let mut q = p.clone();
+        q.environment.earth = EarthModel::Wgs84 {
+            j2: false,
+            rotation: true,
+        };
+        q
+    };
+    let sph = {
+        let mut q = p.clone();
+        q.environment.earth = EarthModel::Spherical {
+            radius_m: 6_378_137.0,
+            gm_m3_s2: 3.986_004_418e14,
+            rotation_rad_s: 7.292_115e-5,
+        };
+        q
+    };
+    let (fa, fb) = (fly_from_pad(&wgs), fly_from_pad(&sph));
+    assert_eq!(fa.end, fb.end);
+    let ((ra, va), (rb, vb)) = (final_rv(&fa), final_rv(&fb));
+    println!(
+        "equator: |Δr| {:.3e} m, |Δv| {:.3e} m/s, Δm {:.3e} kg, Δt {:.3e} s",
+        (ra - rb).norm(),
+        (va - vb).norm(),
+        fa.y1[6] - fb.y1[6],
+        fa.t1_s - fb.t1_s
+    );
+    assert_relative_eq!(
+        Vector3::new(fa.y0[3], fa.y0[4], fa.y0[5]).norm(),
+        465.101,
+        epsilon = 5e-4
+    );
+    assert!((ra - rb).norm() < 1e-2 && (va - vb).norm() < 1e-5);
+    assert!((fa.y1[6] - fb.y1[6]).abs() < 1e-6 && (fa.t1_s - fb.t1_s).abs() < 1e-6);
+    let oa = kickturn::app::outcome::orbit_summary(&wgs.environment, &fa.y1);
+    let ob = kickturn::app::outcome::orbit_summary(&sph.environment, &fb.y1);
+    assert!((oa.perigee_alt_km - ob.perigee_alt_km).abs() < 1e-6);
+    assert!((oa.insertion_alt_km - ob.insertion_alt_km).abs() < 1e-6);
 }

@@ -8,7 +8,7 @@ use serde::Serialize;
 
 use crate::core::budget::{arc_budgets, budget, ArcBudget, Bookkeeping, Budget};
 use crate::core::optimize::targeting;
-use crate::core::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
+use crate::core::physics::environment::{EarthModel, Environment};
 use crate::core::physics::orbit::Elements;
 use crate::core::problem::Problem;
 use crate::core::sim::{EndReason, EventRecord, Extremum, Flight, SimStats};
@@ -37,16 +37,17 @@ pub enum Status {
     NoStageLeft,
 }
 
-/// Osculating two-body orbit at cutoff; apsis altitudes are radius − 6378.137 km.
+/// Osculating two-body orbit at cutoff (the model's GM); apsis altitudes are radius − R, R the
+/// reference radius (6378.137 km on WGS-84, the sphere's radius on the spherical model).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct OrbitSummary {
-    /// Perigee altitude (r_p − a_WGS84), km.
+    /// Perigee altitude (r_p − R), km.
     pub perigee_alt_km: f64,
-    /// Apogee altitude (r_a − a_WGS84), km; null when unbound.
+    /// Apogee altitude (r_a − R), km; null when unbound.
     pub apogee_alt_km: Option<f64>,
     /// Inclination, deg.
     pub inclination_deg: f64,
-    /// Altitude at cutoff (r − a_WGS84), km.
+    /// Altitude at cutoff (r − R), km.
     pub insertion_alt_km: f64,
     /// Inertial speed at cutoff, m/s.
     pub insertion_speed_mps: f64,
@@ -100,6 +101,84 @@ fn deviation(o: &OrbitSummary, t: &TargetSummary) -> TargetDeviation {
         met: dp.abs() <= APSIS_TOL_KM
             && da.is_some_and(|a| a.abs() <= APSIS_TOL_KM)
             && di.is_none_or(|i| i.abs() <= INCLINATION_TOL_DEG),
+    }
+}
+
+/// The Earth model a flight was flown over, for reports.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct EarthSummary {
+    /// `wgs84`, `sphere` or `flat` (closed-form checks).
+    pub model: &'static str,
+    /// Reference radius of the orbit altitudes, m (WGS-84: the equatorial radius).
+    pub radius_m: f64,
+    /// Gravitational parameter of the orbit elements, m³/s².
+    pub gm_m3_s2: f64,
+    /// Rotation rate, rad/s (0 when not rotating).
+    pub rotation_rad_s: f64,
+    /// J2 term in the gravity.
+    pub j2: bool,
+}
+
+impl EarthSummary {
+    /// The summary of `env`'s Earth model.
+    pub fn of(env: &Environment) -> Self {
+        EarthSummary {
+            model: env.earth.key(),
+            radius_m: env.reference_radius_m(),
+            gm_m3_s2: env.gm_m3_s2(),
+            rotation_rad_s: env.omega_rad_s().z,
+            j2: matches!(env.earth, EarthModel::Wgs84 { j2: true, .. }),
+        }
+    }
+
+    /// True for the WGS-84 ellipsoid (the default, named by the conventions; the `--json`
+    /// documents of a WGS-84 flight carry no `earth` key, so that they read as before).
+    pub fn is_wgs84(&self) -> bool {
+        self.model == "wgs84"
+    }
+
+    /// How reports name the height of a point: `geodetic altitude` (WGS-84, and the flat
+    /// model's z) or `altitude above the sphere`.
+    pub fn altitude_label(&self) -> &'static str {
+        if self.model == "sphere" {
+            "altitude above the sphere"
+        } else {
+            "geodetic altitude"
+        }
+    }
+
+    /// How reports name the latitude: `geodetic latitude`, or on the sphere `latitude`
+    /// (geocentric and geodetic latitude coincide there).
+    pub fn latitude_label(&self) -> &'static str {
+        if self.model == "sphere" {
+            "latitude"
+        } else {
+            "geodetic latitude"
+        }
+    }
+
+    /// A line naming the model and its constants, e.g. `spherical Earth: radius 6371.000 km,
+    /// GM 3.986004418e14 m³/s², rotation 7.292115e-5 rad/s, no J2`.
+    pub fn describe(&self) -> String {
+        let rotation = if self.rotation_rad_s == 0.0 {
+            "not rotating".to_string()
+        } else {
+            format!("rotation {:e} rad/s", self.rotation_rad_s)
+        };
+        match self.model {
+            "sphere" => format!(
+                "spherical Earth: radius {:.3} km, GM {:e} m³/s², {rotation}, no J2 \
+                 (point-mass gravity)",
+                self.radius_m / 1e3,
+                self.gm_m3_s2
+            ),
+            "flat" => "flat Earth (closed-form check model)".to_string(),
+            _ => format!(
+                "WGS-84 ellipsoid: GM {:e} m³/s², {rotation}, {}",
+                self.gm_m3_s2,
+                if self.j2 { "J2" } else { "no J2" }
+            ),
+        }
     }
 }
 
@@ -162,13 +241,17 @@ pub struct FlightReport {
     pub events: Vec<EventRecord>,
     /// Integrator work.
     pub stats: SimStats,
+    /// The Earth model flown (omitted from the JSON for the default WGS-84 ellipsoid, which the
+    /// conventions name).
+    #[serde(skip_serializing_if = "EarthSummary::is_wgs84")]
+    pub earth: EarthSummary,
     /// Conventions used in this report.
-    pub conventions: Vec<&'static str>,
+    pub conventions: Vec<String>,
     /// Safety caution.
     pub caution: &'static str,
 }
 
-/// Conventions stated in every report.
+/// Conventions stated in every report of a WGS-84 flight (see [`conventions`]).
 pub const CONVENTIONS: [&str; 5] = [
     "apsis and insertion altitudes are radius minus 6378.137 km (WGS-84 equatorial radius)",
     "orbital elements are osculating two-body elements (GM = 3.986004418e14) at cutoff",
@@ -177,28 +260,57 @@ pub const CONVENTIONS: [&str; 5] = [
     "orbit.flight_path_angle_deg is measured from the plane normal to the geocentric radius; event and history flight-path angles from the local (ellipsoid) horizontal",
 ];
 
-/// Osculating orbit of the final state.
-pub fn orbit_summary(y: &crate::core::sim::dynamics::State) -> OrbitSummary {
+/// The conventions stated in a report of a flight over `env`'s Earth: [`CONVENTIONS`] for
+/// WGS-84 (and the flat check model), the same statements for the sphere's radius and GM.
+pub fn conventions(env: &Environment) -> Vec<String> {
+    match env.earth {
+        EarthModel::Spherical {
+            radius_m, gm_m3_s2, ..
+        } => vec![
+            format!(
+                "apsis and insertion altitudes are radius minus {:.3} km (the spherical Earth's \
+                 radius)",
+                radius_m / 1e3
+            ),
+            format!(
+                "orbital elements are osculating two-body elements (GM = {gm_m3_s2:e}) at cutoff"
+            ),
+            format!(
+                "{}; event-table altitudes are heights above the sphere and latitudes \
+                 geocentric; flight-path angles are Earth-relative unless named inertial",
+                EarthSummary::of(env).describe()
+            ),
+            CONVENTIONS[3].to_string(),
+            "orbit.flight_path_angle_deg, event and history flight-path angles are measured from \
+             the plane normal to the radius (the sphere's local horizontal)"
+                .to_string(),
+        ],
+        EarthModel::Wgs84 { .. } | EarthModel::Flat { .. } => {
+            CONVENTIONS.iter().map(|c| c.to_string()).collect()
+        }
+    }
+}
+
+/// Osculating orbit of the final state over `env`'s Earth (its GM and reference radius).
+pub fn orbit_summary(env: &Environment, y: &crate::core::sim::dynamics::State) -> OrbitSummary {
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);
-    let el = Elements::from_state(&r, &v, WGS84_GM_M3_S2);
+    let (mu, r_ref) = (env.gm_m3_s2(), env.reference_radius_m());
+    let el = Elements::from_state(&r, &v, mu);
     let sin_g = r.dot(&v) / (r.norm() * v.norm()).max(1e-12);
     OrbitSummary {
-        perigee_alt_km: el.perigee_alt_m() / 1e3,
+        perigee_alt_km: (el.perigee_radius_m - r_ref) / 1e3,
         apogee_alt_km: el
             .apogee_radius_m
             .is_finite()
-            .then(|| el.apogee_alt_m() / 1e3),
+            .then(|| (el.apogee_radius_m - r_ref) / 1e3),
         inclination_deg: el.inclination_rad.to_degrees(),
-        insertion_alt_km: (r.norm() - WGS84_A_M) / 1e3,
+        insertion_alt_km: (r.norm() - r_ref) / 1e3,
         insertion_speed_mps: v.norm(),
         flight_path_angle_deg: sin_g.clamp(-1.0, 1.0).asin().to_degrees(),
         eccentricity: el.eccentricity,
-        v_infinity_mps: (el.eccentricity >= 1.0).then(|| {
-            (v.norm_squared() - 2.0 * WGS84_GM_M3_S2 / r.norm())
-                .max(0.0)
-                .sqrt()
-        }),
+        v_infinity_mps: (el.eccentricity >= 1.0)
+            .then(|| (v.norm_squared() - 2.0 * mu / r.norm()).max(0.0).sqrt()),
     }
 }
 
@@ -223,7 +335,7 @@ impl FlightReport {
     /// Builds the report of flight `f` of problem `p`.
     pub fn new(p: &Problem, f: &Flight) -> Self {
         let env = &p.environment;
-        let orbit = orbit_summary(&f.y1);
+        let orbit = orbit_summary(env, &f.y1);
         let target = p.target.map(|t| TargetSummary {
             perigee_alt_km: t.perigee_alt_m / 1e3,
             apogee_alt_km: t.apogee_alt_m / 1e3,
@@ -259,7 +371,8 @@ impl FlightReport {
             max_q_alpha_limit_pa_deg: p.limits.max_q_alpha_pa_deg,
             events: f.events.clone(),
             stats: f.stats,
-            conventions: CONVENTIONS.to_vec(),
+            earth: EarthSummary::of(env),
+            conventions: conventions(env),
             caution: CAUTION,
         }
     }

@@ -251,7 +251,7 @@ fn altitude_speed(c: &TimeAxis) -> Result<Vec<FigureFile>, PlotError> {
         "altitude_speed",
         "altitude and speed",
         Axes {
-            left_label: "geodetic altitude [km]",
+            left_label: &format!("{} [km]", c.r.earth.altitude_label()),
             right_label: Some("speed [km/s]"),
             left: &left,
             right: &right,
@@ -338,7 +338,7 @@ fn profile(r: &FlightReport, h: &[Snapshot]) -> Result<Vec<FigureFile>, PlotErro
         "profile",
         &format!("{}: altitude against downrange", r.vehicle),
         "downrange [km]",
-        "geodetic altitude [km]",
+        &format!("{} [km]", r.earth.altitude_label()),
         &down,
         &[Series {
             label: "trajectory",
@@ -399,7 +399,7 @@ fn ground_track(r: &FlightReport, h: &[Snapshot]) -> Result<Vec<FigureFile>, Plo
         stem: "ground_track",
         title: &format!("{}: ground track and vacuum impact point", r.vehicle),
         x_label: "longitude [deg east]",
-        y_label: "geodetic latitude [deg]",
+        y_label: &format!("{} [deg]", r.earth.latitude_label()),
         x: &x,
         left: &series,
         ..ChartSpec::default()
@@ -754,7 +754,7 @@ pub fn trade_figures(r: &TradeReport) -> Result<Vec<FigureFile>, PlotError> {
     let labels: Vec<String> = r
         .factors
         .iter()
-        .map(|f| format!("{} (+{})", f.name, crate::app::show(f.step)))
+        .map(|f| format!("{} (+{})", trade_bar_name(f), crate::app::show(f.step)))
         .collect();
     let bars: Vec<(&str, f64)> = r
         .factors
@@ -769,6 +769,23 @@ pub fn trade_figures(r: &TradeReport) -> Result<Vec<FigureFile>, PlotError> {
         &bars,
         true,
     )
+}
+
+/// A trade factor's name under its bar: the table's name without the qualifiers the table
+/// spells out ("(all configurations)", "(jettisoned)", "(reserves.residuals_kg)"), and "each"
+/// for "each booster", so that the names fit the narrow bar slots of a long trade (15 bars on
+/// the small demo) without being cut.
+fn trade_bar_name(f: &crate::app::study::TradeFactor) -> String {
+    use crate::app::study::Traded;
+    match f.param {
+        Traded::Drag => "drag coefficient".to_string(),
+        Traded::Reserve => "last-stage reserve".to_string(),
+        Traded::Jettison { .. } => f.name.trim_end_matches(" (jettisoned)").to_string(),
+        Traded::BoosterDryMass | Traded::BoosterPropellant | Traded::BoosterThrust => {
+            f.name.replace(" (each booster)", " (each)")
+        }
+        _ => f.name.clone(),
+    }
 }
 
 /// Captions of the study figures, by file stem.

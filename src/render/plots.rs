@@ -930,11 +930,12 @@ impl Figure for WaterfallFigure<'_> {
         let n = self.bars.len().max(1);
         let slot = (plot_size(&body, false).0 / n as i32).max(8);
         // Bar names wrap onto up to five lines; where slots are narrow they are set smaller
-        // (down to 13 px) before any name is cut.
-        let wrap_all = |px: u32| -> Vec<Vec<String>> {
+        // (down to 13 px), then given a sixth and a seventh line, before any name is cut (a
+        // trade of 15 factors: "Azalea second stage vacuum thrust (+0.9)" needs six).
+        let wrap_all = |(px, lines): (u32, usize)| -> Vec<Vec<String>> {
             self.bars
                 .iter()
-                .map(|b| wrap_text(&body, &b.label, px, (slot - 8).max(8) as u32, 5))
+                .map(|b| wrap_text(&body, &b.label, px, (slot - 8).max(8) as u32, lines))
                 .collect()
         };
         let whole = |names: &Vec<Vec<String>>| {
@@ -943,11 +944,11 @@ impl Figure for WaterfallFigure<'_> {
                 .zip(&self.bars)
                 .all(|(n, b)| b.label.contains('…') || !n.concat().contains('…'))
         };
-        let (name_px, names) = [TICK_PX, 17, 15, 13]
+        let (name_px, names) = [(TICK_PX, 5), (17, 5), (15, 5), (13, 5), (13, 6), (13, 7)]
             .into_iter()
-            .map(|px| (px, wrap_all(px)))
+            .map(|fit| (fit.0, wrap_all(fit)))
             .find(|(_, n)| whole(n))
-            .unwrap_or_else(|| (13, wrap_all(13)));
+            .unwrap_or_else(|| (13, wrap_all((13, 7))));
         let lines = names.iter().map(Vec::len).max().unwrap_or(1) as u32;
         let has_data = self.bars.iter().any(|b| b.value.is_some());
         let y = match (has_data, self.connectors) {
@@ -2084,6 +2085,38 @@ mod tests {
         let steps = [(long.as_str(), -1.0)];
         waterfall("long-bars", &long, &long, (&long, 10.0), &steps, &long)
             .expect("long-label waterfall");
+    }
+
+    #[test]
+    fn fifteen_trade_bars_keep_their_names_whole() {
+        // The small demo's trade: 15 bars in 1200 px; the longest names need six lines at the
+        // smallest size (they were cut with "…" at five).
+        let names = [
+            "Azalea first stage dry mass (+20)",
+            "Azalea first stage propellant (+200)",
+            "Azalea first stage vacuum Isp (+1)",
+            "Azalea first stage vacuum thrust (+4.2)",
+            "Azalea second stage dry mass (+6)",
+            "Azalea second stage propellant (+45)",
+            "Azalea second stage vacuum Isp (+1)",
+            "Azalea second stage vacuum thrust (+0.9)",
+            "Azalea kick stage dry mass (+2.5)",
+            "Azalea kick stage propellant (+8)",
+            "Azalea kick stage vacuum Isp (+1)",
+            "Azalea kick stage vacuum thrust (+0.12)",
+            "drag coefficient (+5)",
+            "payload fairing mass (+1.2)",
+            "last-stage reserve (+1)",
+        ];
+        let bars: Vec<(&str, f64)> = names
+            .iter()
+            .enumerate()
+            .map(|(i, n)| (*n, i as f64 - 7.0))
+            .collect();
+        let paths = bar_chart("trade", "Trade", "margin change [kg]", &bars, true).expect("bars");
+        let svg = svg_text(&paths);
+        assert!(!svg.contains('…'), "a bar name was cut");
+        assert!(svg.contains("(+0.9)") && svg.contains("coefficient"));
     }
 
     #[test]

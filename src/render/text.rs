@@ -217,7 +217,12 @@ fn extremes(r: &FlightReport, s: &mut String) {
 
 fn events(r: &FlightReport, s: &mut String) {
     use super::table::{Align, Table};
-    let _ = writeln!(s, "\nEvents (altitude geodetic; γ Earth-relative)");
+    let alt = if r.earth.model != "sphere" {
+        "altitude geodetic"
+    } else {
+        r.earth.altitude_label()
+    };
+    let _ = writeln!(s, "\nEvents ({alt}; γ Earth-relative)");
     let r_ = Align::Right;
     let mut t = Table::new(&[
         ("t s", r_),
@@ -261,6 +266,10 @@ pub fn render(r: &FlightReport) -> String {
         r.site,
         super::table::angle_0_360(r.azimuth_deg, 3)
     );
+    if !r.earth.is_wgs84() {
+        // WGS-84 is the default, named in the notes; another model is said at the top.
+        let _ = writeln!(s, "Earth model: {}", r.earth.describe());
+    }
     verdict(r, &mut s);
     budget_table(&r.budget, &mut s);
     budget_table(&r.budget_inertial, &mut s);

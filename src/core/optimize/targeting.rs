@@ -11,7 +11,6 @@
 
 use nalgebra::Vector3;
 
-use crate::core::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
 use crate::core::physics::orbit::Elements;
 use crate::core::problem::{Insertion, Problem, Target};
 use crate::core::sim::{fly, EndReason, Flight, FlyOptions};
@@ -124,12 +123,14 @@ pub fn residuals(p: &Problem, t: &Target, f: &Flight) -> (Vec<f64>, f64) {
     let y = &f.y1;
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);
-    let el = Elements::from_state(&r, &v, WGS84_GM_M3_S2);
+    let el = Elements::from_state(&r, &v, env.gm_m3_s2());
     let gamma = env.flight_path_angle_rad(&r, &v);
     let alt = env.radial_altitude_m(&r);
     let mut res = match t.insertion {
         Insertion::Perigee => vec![(alt - t.perigee_alt_m) / R_SCALE_M, gamma / ANGLE_SCALE_RAD],
-        Insertion::Free => vec![(el.perigee_radius_m - WGS84_A_M - t.perigee_alt_m) / R_SCALE_M],
+        Insertion::Free => {
+            vec![(el.perigee_radius_m - env.reference_radius_m() - t.perigee_alt_m) / R_SCALE_M]
+        }
         Insertion::State {
             alt_m,
             flight_path_rad,
@@ -190,7 +191,7 @@ pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>, energy_equality: 
     let y = &f.y1;
     let r = Vector3::new(y[0], y[1], y[2]);
     let v = Vector3::new(y[3], y[4], y[5]);
-    let el = Elements::from_state(&r, &v, WGS84_GM_M3_S2);
+    let el = Elements::from_state(&r, &v, p.environment.gm_m3_s2());
     let finite = residuals.iter().all(|x| x.is_finite());
     Eval {
         residuals: if finite {
@@ -201,7 +202,7 @@ pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>, energy_equality: 
         propellant_used_kg: p.vehicle.propellant_loaded_kg() - f.propellant_remaining_kg,
         reached: (shortfall == 0.0 || energy_equality) && matches!(f.end, EndReason::Completed),
         apogee_alt_m: if el.apogee_radius_m.is_finite() {
-            el.apogee_radius_m - WGS84_A_M
+            el.apogee_radius_m - p.environment.reference_radius_m()
         } else {
             f64::INFINITY
         },

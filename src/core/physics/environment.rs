@@ -1,11 +1,18 @@
 //! The environment seen by the vehicle at one instant: altitude, local frame, gravity, air and the
-//! Earth-relative velocity, for either the rotating WGS-84 Earth or a flat-Earth check model.
+//! Earth-relative velocity, for the rotating WGS-84 Earth, a spherical Earth (radius and GM as
+//! inputs, the textbook model) or a flat-Earth check model.
 //!
 //! Frames. `Wgs84`: the state is in an Earth-centred inertial frame that coincides with the
 //! Earth-fixed frame at t = 0 (Greenwich angle θ_g0 = 0, so θ = ω_E·t). The air co-rotates with
 //! the Earth: `v_rel = v − ω_E × r`. Altitude is geodetic (WGS-84 ellipsoid), the local vertical is
-//! the ellipsoid normal. `Flat`: x east, y north, z up, uniform gravity −g ẑ, no rotation; used to
+//! the ellipsoid normal. `Spherical`: the same frames about a sphere of radius R; gravity is the
+//! point mass `g = −μ r/r³` (no J2), the altitude is `|r| − R`, the local vertical is radial and
+//! the latitude is geocentric (on a sphere geodetic and geocentric latitude coincide).
+//! `Flat`: x east, y north, z up, uniform gravity −g ẑ, no rotation; used to
 //! reproduce closed-form solutions (Culler & Fried 1957, Bryson & Ho 1975).
+//!
+//! Orbit quantities (energy, elements, apsis altitudes) use [`Environment::gm_m3_s2`] and
+//! [`Environment::reference_radius_m`]: the WGS-84 GM and equatorial radius, or the sphere's.
 
 use nalgebra::Vector3;
 
@@ -22,11 +29,71 @@ pub enum EarthModel {
         /// Rotate the Earth (and its atmosphere) at ω_E.
         rotation: bool,
     },
+    /// Sphere of radius `radius_m`, point-mass gravity of parameter `gm_m3_s2` (no J2), turning
+    /// at `rotation_rad_s` about the z axis (0: not rotating). Geocentric latitude = geodetic.
+    Spherical {
+        /// Radius R of the sphere, m (apsis altitudes are measured above it).
+        radius_m: f64,
+        /// Gravitational parameter μ = GM, m³/s².
+        gm_m3_s2: f64,
+        /// Rotation rate ω about the z axis, rad/s (the WGS-84 rate by default in the file).
+        rotation_rad_s: f64,
+    },
     /// Flat Earth, uniform gravity of this magnitude (m/s²), no rotation; for closed-form checks.
     Flat {
         /// Gravity magnitude, m/s².
         gravity_mps2: f64,
     },
+}
+
+impl EarthModel {
+    /// Gravitational parameter μ of the central body, m³/s²: the WGS-84 GM or the sphere's. The
+    /// flat check model has no central body; its flights are reported against the WGS-84 value.
+    pub fn gm_m3_s2(&self) -> f64 {
+        match *self {
+            EarthModel::Spherical { gm_m3_s2, .. } => gm_m3_s2,
+            EarthModel::Wgs84 { .. } | EarthModel::Flat { .. } => earth::WGS84_GM_M3_S2,
+        }
+    }
+
+    /// Reference radius of orbit altitudes, m: the WGS-84 equatorial radius a, or the sphere's
+    /// radius (apsis altitude = apsis radius − this; flat: the WGS-84 value, as for GM).
+    pub fn reference_radius_m(&self) -> f64 {
+        match *self {
+            EarthModel::Spherical { radius_m, .. } => radius_m,
+            EarthModel::Wgs84 { .. } | EarthModel::Flat { .. } => earth::WGS84_A_M,
+        }
+    }
+
+    /// Gravitational acceleration at `r_m` (m), m/s²: WGS-84 point mass (+ J2), the sphere's
+    /// point mass `−μ r/r³`, or the flat model's uniform `−g ẑ`.
+    pub fn gravity_mps2(&self, r_m: &Vector3<f64>) -> Vector3<f64> {
+        match *self {
+            EarthModel::Wgs84 { j2, .. } => earth::gravity(r_m, j2),
+            EarthModel::Spherical { gm_m3_s2, .. } => point_mass_gravity(r_m, gm_m3_s2),
+            EarthModel::Flat { gravity_mps2 } => Vector3::new(0.0, 0.0, -gravity_mps2),
+        }
+    }
+
+    /// Short name of the model for reports: `wgs84`, `sphere` or `flat`.
+    pub fn key(&self) -> &'static str {
+        match self {
+            EarthModel::Wgs84 { .. } => "wgs84",
+            EarthModel::Spherical { .. } => "sphere",
+            EarthModel::Flat { .. } => "flat",
+        }
+    }
+}
+
+/// Point-mass gravity `g = −μ r/r³` (m/s²) at `r_m` (m) for μ = `mu_m3_s2` (Newton; any text,
+/// e.g. Bate, Mueller & White 1971 §1.3). Zero at r = 0, like [`earth::gravity`].
+fn point_mass_gravity(r_m: &Vector3<f64>, mu_m3_s2: f64) -> Vector3<f64> {
+    let r2 = r_m.norm_squared();
+    if r2 == 0.0 {
+        return Vector3::zeros();
+    }
+    let inv_r = 1.0 / r2.sqrt();
+    -(mu_m3_s2 * inv_r * inv_r * inv_r) * r_m
 }
 
 /// Atmosphere model.
@@ -56,9 +123,9 @@ pub struct Environment {
 /// are not here (the right-hand side never needs the angles): see [`Environment::geodetic`].
 #[derive(Debug, Clone, Copy)]
 pub struct Local {
-    /// Altitude above the ellipsoid (flat: z), m.
+    /// Altitude above the ellipsoid (sphere: |r| − R; flat: z), m.
     pub altitude_m: f64,
-    /// Local vertical (ellipsoid normal), unit.
+    /// Local vertical (ellipsoid normal; sphere: radial), unit.
     pub up: Vector3<f64>,
     /// Local east, unit.
     pub east: Vector3<f64>,
@@ -88,6 +155,7 @@ impl Environment {
             EarthModel::Wgs84 { rotation: true, .. } => {
                 Vector3::new(0.0, 0.0, earth::WGS84_OMEGA_RAD_S)
             }
+            EarthModel::Spherical { rotation_rad_s, .. } => Vector3::new(0.0, 0.0, rotation_rad_s),
             _ => Vector3::zeros(),
         }
     }
@@ -97,22 +165,62 @@ impl Environment {
         self.omega_rad_s().z * t_s
     }
 
-    /// Specific mechanical energy, J/kg: `v²/2 − μ/r` (point-mass potential, WGS-84 GM), or
+    /// Gravitational parameter μ used for orbits, m³/s² (see [`EarthModel::gm_m3_s2`]).
+    pub fn gm_m3_s2(&self) -> f64 {
+        self.earth.gm_m3_s2()
+    }
+
+    /// Reference radius of orbit altitudes, m: the WGS-84 equatorial radius or the sphere's
+    /// radius (see [`EarthModel::reference_radius_m`]).
+    pub fn reference_radius_m(&self) -> f64 {
+        self.earth.reference_radius_m()
+    }
+
+    /// Specific mechanical energy, J/kg: `v²/2 − μ/r` (point-mass potential, the model's GM), or
     /// `v²/2 + g z` on the flat check model.
     pub fn specific_energy_j_kg(&self, r_m: &Vector3<f64>, v_mps: &Vector3<f64>) -> f64 {
         match self.earth {
-            EarthModel::Wgs84 { .. } => {
-                0.5 * v_mps.norm_squared() - earth::WGS84_GM_M3_S2 / r_m.norm()
+            EarthModel::Wgs84 { .. } | EarthModel::Spherical { .. } => {
+                0.5 * v_mps.norm_squared() - self.gm_m3_s2() / r_m.norm()
             }
             EarthModel::Flat { gravity_mps2 } => 0.5 * v_mps.norm_squared() + gravity_mps2 * r_m.z,
         }
     }
 
-    /// Orbital altitude `|r| − a` (m; the report convention) or `z` on the flat model.
+    /// Orbital altitude `|r| − R` (m; R the reference radius, the report convention) or `z` on
+    /// the flat model.
     pub fn radial_altitude_m(&self, r_m: &Vector3<f64>) -> f64 {
         match self.earth {
-            EarthModel::Wgs84 { .. } => r_m.norm() - earth::WGS84_A_M,
+            EarthModel::Wgs84 { .. } | EarthModel::Spherical { .. } => {
+                r_m.norm() - self.reference_radius_m()
+            }
             EarthModel::Flat { .. } => r_m.z,
+        }
+    }
+
+    /// Geocentric latitude (rad) of a point on the surface at geodetic latitude
+    /// `geodetic_lat_rad`: tan φ' = (1 − e²) tan φ on the WGS-84 ellipsoid; the same angle on
+    /// the sphere (and the flat model).
+    pub fn geocentric_latitude_rad(&self, geodetic_lat_rad: f64) -> f64 {
+        match self.earth {
+            EarthModel::Wgs84 { .. } => ((1.0 - earth::WGS84_E2) * geodetic_lat_rad.tan()).atan(),
+            EarthModel::Spherical { .. } | EarthModel::Flat { .. } => geodetic_lat_rad,
+        }
+    }
+
+    /// Inertial speed of the pad at `site` due to the Earth's rotation, m/s (the eastward speed
+    /// the launch-azimuth correction subtracts): ω_E (N + h) cos φ on WGS-84 (always the WGS-84
+    /// rate, as the azimuth correction has always used), ω (R + h) cos φ on the sphere at its own
+    /// rate, 0 on the flat model.
+    pub fn surface_rotation_speed_mps(&self, site: &Geodetic) -> f64 {
+        match self.earth {
+            EarthModel::Wgs84 { .. } => earth::surface_rotation_speed_mps(site),
+            EarthModel::Spherical {
+                radius_m,
+                rotation_rad_s,
+                ..
+            } => rotation_rad_s * (radius_m + site.altitude_m) * site.latitude_rad.cos().abs(),
+            EarthModel::Flat { .. } => 0.0,
         }
     }
 
@@ -120,7 +228,7 @@ impl Environment {
     /// against the horizontal plane), rad.
     pub fn flight_path_angle_rad(&self, r_m: &Vector3<f64>, v_mps: &Vector3<f64>) -> f64 {
         let up = match self.earth {
-            EarthModel::Wgs84 { .. } => r_m / r_m.norm().max(1e-9),
+            EarthModel::Wgs84 { .. } | EarthModel::Spherical { .. } => r_m / r_m.norm().max(1e-9),
             EarthModel::Flat { .. } => Vector3::z(),
         };
         (up.dot(v_mps) / v_mps.norm().max(1e-9))
@@ -149,6 +257,15 @@ impl Environment {
                 let r = earth::geodetic_to_ecef(site);
                 (r, self.omega_rad_s().cross(&r))
             }
+            EarthModel::Spherical { radius_m, .. } => {
+                // r = (R + h)(cos φ cos λ, cos φ sin λ, sin φ): the ECEF position on the sphere,
+                // which is the inertial one at t = 0 (θ_g0 = 0).
+                let (sin_lat, cos_lat) = site.latitude_rad.sin_cos();
+                let (sin_lon, cos_lon) = site.longitude_rad.sin_cos();
+                let r = (radius_m + site.altitude_m)
+                    * Vector3::new(cos_lat * cos_lon, cos_lat * sin_lon, sin_lat);
+                (r, self.omega_rad_s().cross(&r))
+            }
             EarthModel::Flat { .. } => (Vector3::new(0.0, 0.0, site.altitude_m), Vector3::zeros()),
         }
     }
@@ -161,6 +278,10 @@ impl Environment {
             EarthModel::Wgs84 { .. } => {
                 earth::ecef_to_geodetic(&earth::eci_to_ecef(r_m, self.rotation_angle_rad(t_s)))
             }
+            EarthModel::Spherical { radius_m, .. } => spherical_coordinates(
+                &earth::eci_to_ecef(r_m, self.rotation_angle_rad(t_s)),
+                radius_m,
+            ),
             EarthModel::Flat { .. } => Geodetic {
                 latitude_rad: 0.0,
                 longitude_rad: 0.0,
@@ -171,19 +292,30 @@ impl Environment {
 
     /// Vacuum instantaneous impact point of the inertial state (`r_m`, `v_mps`) at time `t_s`:
     /// geodetic latitude and Earth-fixed longitude (rad) where the free-flight conic meets the
-    /// sphere through the ellipsoid surface below the vehicle ([`super::iip`]), the Earth having
-    /// turned for the time of flight. `None` on the flat model, for an orbit whose perigee
-    /// clears that sphere, or for an escape trajectory. For reports; not called while
-    /// integrating.
+    /// sphere through the ellipsoid surface below the vehicle ([`super::iip`]; on the spherical
+    /// model the sphere itself), the Earth having turned for the time of flight. `None` on the
+    /// flat model, for an orbit whose perigee clears that sphere, or for an escape trajectory.
+    /// For reports; not called while integrating.
     pub fn vacuum_iip(
         &self,
         t_s: f64,
         r_m: &Vector3<f64>,
         v_mps: &Vector3<f64>,
     ) -> Option<Geodetic> {
-        let EarthModel::Wgs84 { .. } = self.earth else {
-            return None;
-        };
+        match self.earth {
+            EarthModel::Wgs84 { .. } => {}
+            EarthModel::Spherical {
+                radius_m, gm_m3_s2, ..
+            } => {
+                let hit = super::iip::vacuum_impact(r_m, v_mps, gm_m3_s2, radius_m)?;
+                let theta = self.rotation_angle_rad(t_s + hit.time_of_flight_s);
+                return Some(spherical_coordinates(
+                    &earth::eci_to_ecef(&hit.r_m, theta),
+                    radius_m,
+                ));
+            }
+            EarthModel::Flat { .. } => return None,
+        }
         // Ellipsoid radius at the present geocentric latitude φc:
         // R = a √((1 − e²) / (1 − e² cos² φc)) (the ellipse r(φc) in polar form).
         let r = r_m.norm();
@@ -206,6 +338,9 @@ impl Environment {
     pub fn local(&self, _t_s: f64, r_m: &Vector3<f64>, v_mps: &Vector3<f64>) -> Local {
         match self.earth {
             EarthModel::Wgs84 { j2, .. } => self.local_wgs84(r_m, v_mps, j2),
+            EarthModel::Spherical {
+                radius_m, gm_m3_s2, ..
+            } => self.local_spherical(r_m, v_mps, radius_m, gm_m3_s2),
             EarthModel::Flat { gravity_mps2 } => Local {
                 altitude_m: r_m.z,
                 up: Vector3::z(),
@@ -250,6 +385,50 @@ impl Environment {
     }
 }
 
+impl Environment {
+    /// Local conditions on the spherical model: up = r̂, latitude geocentric (sin φ = z/r,
+    /// cos φ = p/r), the same east and north as on WGS-84 (domain brief §1), altitude |r| − R,
+    /// point-mass gravity.
+    fn local_spherical(&self, r: &Vector3<f64>, v: &Vector3<f64>, radius_m: f64, mu: f64) -> Local {
+        let omega = self.omega_rad_s();
+        let p = (r.x * r.x + r.y * r.y).sqrt();
+        let rn = r.norm();
+        let (cos_az, sin_az) = if p > 0.0 {
+            (r.x / p, r.y / p)
+        } else {
+            (1.0, 0.0)
+        };
+        let (sin_lat, cos_lat) = if rn > 0.0 {
+            (r.z / rn, p / rn)
+        } else {
+            (0.0, 1.0)
+        };
+        let altitude_m = rn - radius_m;
+        let w_x_r = omega.cross(r);
+        Local {
+            altitude_m,
+            up: Vector3::new(cos_lat * cos_az, cos_lat * sin_az, sin_lat),
+            east: Vector3::new(-sin_az, cos_az, 0.0),
+            north: Vector3::new(-sin_lat * cos_az, -sin_lat * sin_az, cos_lat),
+            gravity_mps2: point_mass_gravity(r, mu),
+            v_rel_mps: v - w_x_r,
+            centrifugal_mps2: -omega.cross(&w_x_r),
+            air: self.air(altitude_m),
+        }
+    }
+}
+
+/// Latitude (geocentric = geodetic on a sphere), longitude (rad) and height above a sphere of
+/// radius `radius_m` (m) of an Earth-fixed position (m).
+fn spherical_coordinates(r_ecef_m: &Vector3<f64>, radius_m: f64) -> Geodetic {
+    let p = r_ecef_m.x.hypot(r_ecef_m.y);
+    Geodetic {
+        latitude_rad: r_ecef_m.z.atan2(p),
+        longitude_rad: r_ecef_m.y.atan2(r_ecef_m.x),
+        altitude_m: p.hypot(r_ecef_m.z) - radius_m,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -284,5 +463,126 @@ mod tests {
             atmosphere: AtmosphereModel::Vacuum,
         };
         assert!(flat.vacuum_iip(0.0, &r, &v).is_none());
+    }
+
+    fn sphere(radius_m: f64, gm_m3_s2: f64, rotation_rad_s: f64) -> Environment {
+        Environment {
+            earth: EarthModel::Spherical {
+                radius_m,
+                gm_m3_s2,
+                rotation_rad_s,
+            },
+            atmosphere: AtmosphereModel::Vacuum,
+        }
+    }
+
+    fn site(lat_deg: f64, lon_deg: f64, alt_m: f64) -> Geodetic {
+        Geodetic {
+            latitude_rad: lat_deg.to_radians(),
+            longitude_rad: lon_deg.to_radians(),
+            altitude_m: alt_m,
+        }
+    }
+
+    #[test]
+    fn a_sphere_of_the_wgs84_radius_and_rate_gives_the_spherical_rotation_gain() {
+        // Source: domain brief §3(d) [der]: due-east gain on a sphere, ω_E a cos φ =
+        // 465.101 cos φ: 408.74 m/s at 28.5°, 402.79 at 30°, 328.88 at 45° (the ellipsoid's
+        // ω_E N cos φ is larger: 409.05, 403.13, 329.43, so a sphere that used N would fail).
+        let env = sphere(
+            earth::WGS84_A_M,
+            earth::WGS84_GM_M3_S2,
+            earth::WGS84_OMEGA_RAD_S,
+        );
+        for (lat_deg, want) in [(28.5, 408.74), (30.0, 402.79), (45.0, 328.88)] {
+            for s in [site(lat_deg, -80.0, 0.0), site(-lat_deg, 33.0, 0.0)] {
+                let (r, v) = env.pad_state(&s);
+                assert!((v.norm() - want).abs() < 0.005, "{lat_deg}: {}", v.norm());
+                assert!((env.surface_rotation_speed_mps(&s) - want).abs() < 0.005);
+                // On the sphere the pad lies at radius R + h and its latitude is geocentric.
+                assert!((r.norm() - earth::WGS84_A_M).abs() < 1e-6);
+                let g = env.geodetic(0.0, &r);
+                assert!((g.latitude_rad - s.latitude_rad).abs() < 1e-14);
+                assert!((g.longitude_rad - s.longitude_rad).abs() < 1e-14);
+                assert!(g.altitude_m.abs() < 1e-6);
+                assert!(
+                    (env.geocentric_latitude_rad(s.latitude_rad) - s.latitude_rad).abs() < 1e-15
+                );
+            }
+        }
+        // Not rotating: no pad speed.
+        let still = sphere(earth::WGS84_A_M, earth::WGS84_GM_M3_S2, 0.0);
+        assert!(still.pad_state(&site(28.5, 0.0, 0.0)).1.norm() < 1e-12);
+    }
+
+    #[test]
+    fn sphere_gravity_is_the_point_mass_and_its_vertical_is_radial() {
+        // Source: Newton's point-mass field |g| = μ/r² along −r̂ (Bate, Mueller & White 1971,
+        // §1.3); altitude |r| − R and radial vertical by definition of the spherical model. A
+        // lunar-sized body (GM 4.9048695e12 m³/s², R 1737.4 km, from memory; any values serve)
+        // so that a stray WGS-84 constant would show.
+        let (mu, radius) = (4.904_869_5e12, 1_737_400.0);
+        let env = sphere(radius, mu, 0.0);
+        let r = Vector3::new(1.2e6, -0.7e6, 1.1e6);
+        let loc = env.local(0.0, &r, &Vector3::zeros());
+        let rn = r.norm();
+        assert!((loc.gravity_mps2.norm() - mu / (rn * rn)).abs() < 1e-12);
+        assert!((loc.gravity_mps2.normalize() + r / rn).norm() < 1e-14);
+        assert!((loc.up - r / rn).norm() < 1e-15);
+        assert!((loc.altitude_m - (rn - radius)).abs() < 1e-9);
+        assert!(loc.east.dot(&loc.up).abs() < 1e-15 && loc.north.dot(&loc.up).abs() < 1e-15);
+        assert!((loc.north - loc.up.cross(&loc.east)).norm() < 1e-15);
+        assert!((env.radial_altitude_m(&r) - (rn - radius)).abs() < 1e-9);
+        assert!((env.specific_energy_j_kg(&r, &Vector3::zeros()) + mu / rn).abs() < 1e-9);
+        assert!(
+            (env.gm_m3_s2() - mu).abs() < 1e-3 && (env.reference_radius_m() - radius).abs() < 1e-9
+        );
+        // A drop from rest above a slowly turning sphere lands below on the surface: a 50 km
+        // fall lasts √(2h/g) ≈ 250 s, and the Coriolis drift ω g t³ cos φ / 3 (from memory)
+        // is about 8 m at ω = 1e-6 rad/s, 5e-6 rad of arc. (A drop from rest on a sphere that
+        // does not turn is a radial fall, which has no plane: `None`, as documented in `iip`.)
+        let turning = sphere(radius, mu, 1e-6);
+        let above = site(12.0, 34.0, 50_000.0);
+        let (r0, v0) = turning.pad_state(&above);
+        let hit = turning.vacuum_iip(0.0, &r0, &v0).expect("a drop lands");
+        assert!((hit.latitude_rad - above.latitude_rad).abs() < 1e-5);
+        assert!((hit.longitude_rad - above.longitude_rad).abs() < 1e-5);
+        assert!(hit.altitude_m.abs() < 1e-6);
+    }
+
+    #[test]
+    fn on_the_equator_the_sphere_of_the_wgs84_radius_is_the_ellipsoid_without_j2() {
+        // Source: on the equator the WGS-84 normal is radial and the geodetic height is p − a
+        // (N(0) = a; domain brief §1), so without J2 the two models see the same altitude, frame
+        // and gravity there. Off the equator they differ: at 45° geocentric the ellipsoid lies
+        // about 10.7 km inside the sphere of radius a (R(φc) = a √((1 − e²)/(1 − e² cos² φc)),
+        // the ellipse in polar form), so the geodetic height is that much larger.
+        let wgs = Environment {
+            earth: EarthModel::Wgs84 {
+                j2: false,
+                rotation: true,
+            },
+            atmosphere: AtmosphereModel::Us1976,
+        };
+        let sph = Environment {
+            earth: EarthModel::Spherical {
+                radius_m: earth::WGS84_A_M,
+                gm_m3_s2: earth::WGS84_GM_M3_S2,
+                rotation_rad_s: earth::WGS84_OMEGA_RAD_S,
+            },
+            atmosphere: AtmosphereModel::Us1976,
+        };
+        let r = Vector3::new(4.0e6, 5.5e6, 0.0);
+        let v = Vector3::new(-6.0e3, 4.0e3, 0.0);
+        let (a, b) = (wgs.local(0.0, &r, &v), sph.local(0.0, &r, &v));
+        assert!((a.altitude_m - b.altitude_m).abs() < 1e-6);
+        assert!((a.up - b.up).norm() < 1e-15 && (a.north - b.north).norm() < 1e-15);
+        assert!((a.gravity_mps2 - b.gravity_mps2).norm() < 1e-12);
+        assert!((a.v_rel_mps - b.v_rel_mps).norm() < 1e-12);
+        assert!((a.air.density_kg_m3 - b.air.density_kg_m3).abs() < 1e-15);
+        let c = std::f64::consts::FRAC_1_SQRT_2;
+        let r45 = Vector3::new(7.0e6 * c, 0.0, 7.0e6 * c);
+        let dh = wgs.local(0.0, &r45, &v).altitude_m - sph.local(0.0, &r45, &v).altitude_m;
+        assert!((dh - 10_700.0).abs() < 100.0, "{dh}");
     }
 }

@@ -492,7 +492,13 @@ pub struct LimitsFile {
 #[derive(Debug, Clone, Default, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct ModelFile {
-    /// Include the J2 gravity term (default true).
+    /// Earth model: `"wgs84"` (default: the WGS-84 ellipsoid) or
+    /// `{"sphere": {"radius_m": …, "gm_m3_s2": …}}` (a sphere with point-mass gravity, no J2;
+    /// apsis altitudes are measured above the sphere).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub earth: Option<EarthFile>,
+    /// Include the J2 gravity term (default true on WGS-84; the sphere has none, so `true` with
+    /// a sphere is refused).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub j2: Option<bool>,
     /// Earth rotation on (default true). Off is for checks.
@@ -510,6 +516,33 @@ pub struct ModelFile {
     /// Flight-time limit, s (default 20 000).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub max_flight_time_s: Option<f64>,
+}
+
+/// Earth model choice: the string `"wgs84"` or the object `{"sphere": {...}}`.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum EarthFile {
+    /// WGS-84 ellipsoid (geodetic altitude, ellipsoid-normal vertical), GM 3.986004418e14 m³/s²,
+    /// J2 per `model.j2`; apsis altitudes above the equatorial radius 6378.137 km.
+    Wgs84,
+    /// A sphere: point-mass gravity `−μ r/r³` (no J2), altitude `|r| − R`, radial vertical,
+    /// geocentric latitude = geodetic.
+    Sphere(SphereFile),
+}
+
+/// A spherical Earth.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct SphereFile {
+    /// Radius of the sphere, m (1e5 to 1e8; e.g. 6378137 for the WGS-84 equatorial radius,
+    /// 6371000 for the mean radius). Apsis altitudes are measured above it.
+    pub radius_m: f64,
+    /// Gravitational parameter GM, m³/s² (> 0; e.g. 3.986004418e14).
+    pub gm_m3_s2: f64,
+    /// Rotation rate, rad/s (0 to 1e-3; default the WGS-84 rate 7.292115e-5; 0 or
+    /// `model.earth_rotation: false` for a non-rotating sphere).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rotation_rad_s: Option<f64>,
 }
 
 /// Atmosphere model choice.

@@ -13,7 +13,6 @@ use sha2::{Digest, Sha256};
 
 use crate::core::error::{ProblemError, UnreachableInclination};
 use crate::core::physics::earth::Geodetic;
-use crate::core::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
 use crate::core::physics::environment::Environment;
 use crate::core::steering::Program;
 use crate::core::vehicle::Vehicle;
@@ -53,7 +52,8 @@ pub enum Insertion {
     Free,
     /// At a given state.
     State {
-        /// Altitude at cutoff (radius − 6378.137 km), m.
+        /// Altitude at cutoff (radius − reference radius: 6378.137 km on WGS-84, the sphere's
+        /// radius), m.
         alt_m: f64,
         /// Inertial speed, m/s.
         speed_mps: f64,
@@ -62,7 +62,8 @@ pub enum Insertion {
     },
 }
 
-/// Target orbit (apsis altitudes above the equatorial radius, osculating at cutoff).
+/// Target orbit (apsis altitudes above the reference radius: the WGS-84 equatorial radius or the
+/// sphere's radius; osculating at cutoff).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Target {
     /// How the orbit is met.
@@ -76,8 +77,9 @@ pub struct Target {
 }
 
 impl Target {
-    /// Specific orbital energy of the target orbit, J/kg: −μ/(2a) (two-body, WGS-84 GM), or
-    /// for an insertion state on the flat check model `v²/2 + g h`.
+    /// Specific orbital energy of the target orbit, J/kg: −μ/(2a) (two-body, the model's GM,
+    /// a = R + (h_p + h_a)/2 with R the reference radius), or for an insertion state on the flat
+    /// check model `v²/2 + g h`.
     pub fn energy_j_kg(&self, env: &crate::core::physics::environment::Environment) -> f64 {
         use crate::core::physics::environment::EarthModel;
         match (env.earth, self.insertion) {
@@ -88,8 +90,8 @@ impl Target {
                 },
             ) => 0.5 * speed_mps * speed_mps + gravity_mps2 * alt_m,
             _ => {
-                let a = WGS84_A_M + 0.5 * (self.perigee_alt_m + self.apogee_alt_m);
-                -WGS84_GM_M3_S2 / (2.0 * a)
+                let a = env.reference_radius_m() + 0.5 * (self.perigee_alt_m + self.apogee_alt_m);
+                -env.gm_m3_s2() / (2.0 * a)
             }
         }
     }
@@ -227,15 +229,19 @@ impl Problem {
         hint: &'static str,
         inclination_rad: f64,
     ) -> Option<UnreachableInclination> {
-        let lat = validate::geocentric_latitude_rad(self.site.geodetic.latitude_rad).abs();
+        let lat = self
+            .environment
+            .geocentric_latitude_rad(self.site.geodetic.latitude_rad)
+            .abs();
         let (lo, hi) = (lat, std::f64::consts::PI - lat);
         let nearest = inclination_rad.clamp(lo, hi);
         let di = (inclination_rad - nearest).abs();
         if di <= 1e-12 {
             return None;
         }
-        let r = WGS84_A_M + self.target.map_or(200e3, |t| t.perigee_alt_m);
-        let v = crate::core::physics::orbit::circular_speed_mps(r, WGS84_GM_M3_S2);
+        let env = &self.environment;
+        let r = env.reference_radius_m() + self.target.map_or(200e3, |t| t.perigee_alt_m);
+        let v = crate::core::physics::orbit::circular_speed_mps(r, env.gm_m3_s2());
         Some(UnreachableInclination {
             field,
             hint,

@@ -5,7 +5,7 @@ use super::file::*;
 use super::{AzimuthSource, Insertion, IntegratorSettings, Limits, Problem, Site, Target};
 use crate::core::error::{in_range as range, ProblemError};
 use crate::core::physics::aero::DragTable;
-use crate::core::physics::earth::{self, Geodetic, G0_MPS2, WGS84_A_M, WGS84_E2, WGS84_GM_M3_S2};
+use crate::core::physics::earth::{self, Geodetic, G0_MPS2, WGS84_E2};
 use crate::core::physics::environment::{AtmosphereModel, EarthModel, Environment};
 use crate::core::physics::orbit::{self, AzimuthBranch};
 use crate::core::steering::*;
@@ -58,17 +58,21 @@ fn positive(field: &str, x: f64) -> R<f64> {
 /// Validates the whole file.
 pub fn validate(f: &ProblemFile) -> R<Problem> {
     let site = site(&f.site)?;
-    let target = f.target.as_ref().map(target).transpose()?;
+    let environment = environment(&f.model)?;
+    let target = f
+        .target
+        .as_ref()
+        .map(|t| target(t, &environment))
+        .transpose()?;
     let vehicle = vehicle(&f.vehicle)?;
-    let program = program(&f.ascent, &vehicle, target.is_some())?;
-    let environment = environment(&f.model);
+    let program = program(&f.ascent, &vehicle, target.is_some(), &environment)?;
     let integrator = integrator(&f.model)?;
     let limits = limits(&f.limits)?;
     if let Some(t) = &target {
         check_target_floor(t, &limits, f.target.as_ref())?;
     }
     check_liftoff_thrust(&vehicle, &site, &environment)?;
-    let (azimuth_rad, azimuth_source) = azimuth(&f.launch, &site, target.as_ref())?;
+    let (azimuth_rad, azimuth_source) = azimuth(&f.launch, &site, target.as_ref(), &environment)?;
     let p = Problem {
         name: f.name.clone(),
         site,
@@ -106,7 +110,7 @@ fn site(s: &SiteFile) -> R<Site> {
     })
 }
 
-fn target(t: &TargetFile) -> R<Target> {
+fn target(t: &TargetFile, env: &Environment) -> R<Target> {
     let state = (
         t.insertion_alt_km,
         t.insertion_speed_mps,
@@ -130,7 +134,7 @@ fn target(t: &TargetFile) -> R<Target> {
                 (rp, ra, ins)
             }
             (None, None, (Some(h), Some(v), Some(g))) if t.insertion.is_none() => {
-                insertion_state(h, v, g)?
+                insertion_state(h, v, g, env)?
             }
             _ => return bad(
                 "target",
@@ -173,11 +177,13 @@ fn check_target_floor(t: &Target, l: &Limits, file: Option<&TargetFile>) -> R<()
     )
 }
 
-/// Apsides (km) of the orbit through an insertion state (two-body; altitudes r − 6378.137 km).
-fn insertion_state(h_km: f64, v: f64, g_deg: f64) -> R<(f64, f64, Insertion)> {
+/// Apsides (km) of the orbit through an insertion state (two-body with the model's GM; altitudes
+/// r − R, R the reference radius: 6378.137 km on WGS-84, the sphere's radius).
+fn insertion_state(h_km: f64, v: f64, g_deg: f64, env: &Environment) -> R<(f64, f64, Insertion)> {
     let h = range("target.insertion_alt_km", h_km, 80.0, 1.0e5, true)?;
-    let r = WGS84_A_M + h * 1e3;
-    let v_esc = (2.0 * WGS84_GM_M3_S2 / r).sqrt();
+    let (r_ref, mu) = (env.reference_radius_m(), env.gm_m3_s2());
+    let r = r_ref + h * 1e3;
+    let v_esc = (2.0 * mu / r).sqrt();
     let v = range("target.insertion_speed_mps", v, 0.0, v_esc, false).map_err(|_| {
         ProblemError::invalid(
             "target.insertion_speed_mps",
@@ -185,13 +191,12 @@ fn insertion_state(h_km: f64, v: f64, g_deg: f64) -> R<(f64, f64, Insertion)> {
         )
     })?;
     let g = range("target.insertion_flight_path_deg", g_deg, -30.0, 30.0, true)?.to_radians();
-    let mu = WGS84_GM_M3_S2;
     let energy = 0.5 * v * v - mu / r;
     let hm = r * v * g.cos();
     let e = (1.0 + 2.0 * energy * hm * hm / (mu * mu)).max(0.0).sqrt();
     let p = hm * hm / mu;
     let (rp, ra) = (p / (1.0 + e), p / (1.0 - e));
-    let rp_alt_km = (rp - WGS84_A_M) / 1e3;
+    let rp_alt_km = (rp - r_ref) / 1e3;
     if rp_alt_km < 80.0 {
         return bad(
             "target",
@@ -205,7 +210,7 @@ fn insertion_state(h_km: f64, v: f64, g_deg: f64) -> R<(f64, f64, Insertion)> {
         speed_mps: v,
         flight_path_rad: g,
     };
-    Ok((rp_alt_km, (ra - WGS84_A_M) / 1e3, ins))
+    Ok((rp_alt_km, (ra - r_ref) / 1e3, ins))
 }
 
 fn aero(path: &str, a: &AeroFile) -> R<DragTable> {
@@ -449,7 +454,7 @@ fn cutoff(path: &str, c: Option<CutoffFile>, has_target: bool) -> R<Cutoff> {
     })
 }
 
-fn arc(i: usize, a: &ArcFile, has_target: bool) -> R<Arc> {
+fn arc(i: usize, a: &ArcFile, has_target: bool, env: &Environment) -> R<Arc> {
     let p = format!("ascent.arcs[{i}]");
     Ok(match a {
         ArcFile::Burn(b) => {
@@ -464,7 +469,7 @@ fn arc(i: usize, a: &ArcFile, has_target: bool) -> R<Arc> {
                     .as_ref()
                     .map(|a| {
                         // The aim has the target's form: name its own fields in errors.
-                        target(a).map_err(|e| match e {
+                        target(a, env).map_err(|e| match e {
                             ProblemError::Invalid { field, reason } => ProblemError::Invalid {
                                 field: field.replacen("target", &aim_path, 1),
                                 reason,
@@ -503,7 +508,7 @@ fn arc(i: usize, a: &ArcFile, has_target: bool) -> R<Arc> {
     })
 }
 
-fn program(a: &AscentFile, v: &Vehicle, has_target: bool) -> R<Program> {
+fn program(a: &AscentFile, v: &Vehicle, has_target: bool, env: &Environment) -> R<Program> {
     at_most(
         "ascent.arcs",
         a.arcs.len(),
@@ -517,7 +522,7 @@ fn program(a: &AscentFile, v: &Vehicle, has_target: bool) -> R<Program> {
         .arcs
         .iter()
         .enumerate()
-        .map(|(i, x)| arc(i, x, has_target))
+        .map(|(i, x)| arc(i, x, has_target, env))
         .collect::<R<Vec<_>>>()?;
     let liftoff = a.liftoff.as_ref().map(liftoff).transpose()?;
     fn law(x: &Arc) -> Option<&dyn SteeringLaw> {
@@ -612,17 +617,75 @@ fn bucket(b: &BucketFile, s0: &Stage) -> R<Bucket> {
     })
 }
 
-fn environment(m: &ModelFile) -> Environment {
-    Environment {
-        earth: EarthModel::Wgs84 {
+fn environment(m: &ModelFile) -> R<Environment> {
+    let earth = match m.earth.unwrap_or(EarthFile::Wgs84) {
+        EarthFile::Wgs84 => EarthModel::Wgs84 {
             j2: m.j2.unwrap_or(true),
             rotation: m.earth_rotation.unwrap_or(true),
         },
+        EarthFile::Sphere(s) => sphere(m, &s)?,
+    };
+    Ok(Environment {
+        earth,
         atmosphere: match m.atmosphere.unwrap_or(AtmosphereFile::Us1976) {
             AtmosphereFile::Us1976 => AtmosphereModel::Us1976,
             AtmosphereFile::Vacuum => AtmosphereModel::Vacuum,
         },
+    })
+}
+
+/// The spherical Earth of `model.earth.sphere`: radius 100 km to 100 000 km (any planet-sized
+/// body; a smaller value is a unit slip), GM > 0, rotation 0 to 1e-3 rad/s (about 14 times the
+/// Earth's rate; faster spins a sphere of Earth size near its own orbital speed at the equator).
+fn sphere(m: &ModelFile, s: &SphereFile) -> R<EarthModel> {
+    const P: &str = "model.earth.sphere";
+    if m.j2 == Some(true) {
+        return bad(
+            "model.j2",
+            "a spherical Earth has point-mass gravity only (no J2): leave j2 out or set it false, \
+             or choose \"earth\": \"wgs84\"",
+        );
     }
+    let radius_m = range(&format!("{P}.radius_m"), s.radius_m, 1e5, 1e8, true).map_err(|e| {
+        if (1e2..1e5).contains(&s.radius_m) {
+            ProblemError::invalid(
+                format!("{P}.radius_m"),
+                format!(
+                    "{} is below 100 000 m; is it in km? The field is in metres ({} km = {} m)",
+                    s.radius_m,
+                    s.radius_m,
+                    s.radius_m * 1e3
+                ),
+            )
+        } else {
+            e
+        }
+    })?;
+    let gm_m3_s2 = positive(&format!("{P}.gm_m3_s2"), s.gm_m3_s2)?;
+    let rotation_rad_s = match (s.rotation_rad_s, m.earth_rotation) {
+        (Some(w), Some(false)) if w != 0.0 => {
+            return bad(
+                &format!("{P}.rotation_rad_s"),
+                format!(
+                    "{w} rad/s contradicts model.earth_rotation = false: give one of them (0 or \
+                     earth_rotation false for a sphere that does not turn)"
+                ),
+            )
+        }
+        (_, Some(false)) => 0.0,
+        (w, _) => range(
+            &format!("{P}.rotation_rad_s"),
+            w.unwrap_or(earth::WGS84_OMEGA_RAD_S),
+            0.0,
+            1e-3,
+            true,
+        )?,
+    };
+    Ok(EarthModel::Spherical {
+        radius_m,
+        gm_m3_s2,
+        rotation_rad_s,
+    })
 }
 
 fn integrator(m: &ModelFile) -> R<IntegratorSettings> {
@@ -742,12 +805,18 @@ fn check_liftoff_thrust(v: &Vehicle, site: &Site, env: &Environment) -> R<()> {
     }
 }
 
-/// Geocentric latitude of a point on the ellipsoid: tan φ' = (1 − e²) tan φ.
+/// Geocentric latitude of a point on the WGS-84 ellipsoid: tan φ' = (1 − e²) tan φ (see
+/// [`Environment::geocentric_latitude_rad`] for the model's own).
 pub fn geocentric_latitude_rad(geodetic_lat_rad: f64) -> f64 {
     ((1.0 - WGS84_E2) * geodetic_lat_rad.tan()).atan()
 }
 
-fn azimuth(l: &LaunchFile, site: &Site, target: Option<&Target>) -> R<(f64, AzimuthSource)> {
+fn azimuth(
+    l: &LaunchFile,
+    site: &Site,
+    target: Option<&Target>,
+    env: &Environment,
+) -> R<(f64, AzimuthSource)> {
     match (l.azimuth_deg, l.inclination_deg) {
         (Some(_), None) if l.allow_dog_leg.is_some() => bad(
             "launch.allow_dog_leg",
@@ -781,10 +850,10 @@ fn azimuth(l: &LaunchFile, site: &Site, target: Option<&Target>) -> R<(f64, Azim
             } else {
                 AzimuthBranch::Southerly
             };
-            let r_orbit = WGS84_A_M + target.map_or(200e3, |t| t.perigee_alt_m);
-            let v_orb = orbit::circular_speed_mps(r_orbit, WGS84_GM_M3_S2);
-            let v_rot = earth::surface_rotation_speed_mps(&site.geodetic);
-            let lat_c = geocentric_latitude_rad(site.geodetic.latitude_rad);
+            let r_orbit = env.reference_radius_m() + target.map_or(200e3, |t| t.perigee_alt_m);
+            let v_orb = orbit::circular_speed_mps(r_orbit, env.gm_m3_s2());
+            let v_rot = env.surface_rotation_speed_mps(&site.geodetic);
+            let lat_c = env.geocentric_latitude_rad(site.geodetic.latitude_rad);
             // An unreachable inclination flies the nearest reachable one (due east/west at
             // i = |φ'|); the caller reports the plane change it would still need.
             let az =

@@ -13,7 +13,6 @@ use ode_solvers::continuous_output_model::ContinuousOutputModel;
 
 use super::dynamics::FlightModel;
 use super::dynamics::{forces, limit_throttle, stage_propellant_kg, Mode, State, Throttle};
-use crate::core::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
 use crate::core::physics::environment::Local;
 use crate::core::physics::orbit::Elements;
 use crate::core::steering::ActiveLaw;
@@ -146,16 +145,19 @@ pub fn value_at(
             (en - e) / e.abs().max(1.0)
         }
         StateEvent::ApogeeRadius(ra) => {
-            let el = Elements::from_state(&r, &v, WGS84_GM_M3_S2);
+            let env = &p.environment;
+            let el = Elements::from_state(&r, &v, env.gm_m3_s2());
             let a = if el.apogee_radius_m.is_finite() {
                 el.apogee_radius_m
             } else {
                 1e12
             };
-            (a - ra) / WGS84_A_M
+            (a - ra) / env.reference_radius_m()
         }
         StateEvent::PerigeeRadius(rp) => {
-            (Elements::from_state(&r, &v, WGS84_GM_M3_S2).perigee_radius_m - rp) / WGS84_A_M
+            let env = &p.environment;
+            (Elements::from_state(&r, &v, env.gm_m3_s2()).perigee_radius_m - rp)
+                / env.reference_radius_m()
         }
         StateEvent::Apogee => -r.dot(&v) / (r.norm() * v.norm()).max(1e-9),
         StateEvent::Ground(h) => h - loc.altitude_m,

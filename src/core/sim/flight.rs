@@ -14,7 +14,6 @@ use super::dynamics::{
 use super::events::{self, StateEvent};
 use super::record::{snapshot, Snapshot};
 use crate::core::physics::earth::G0_MPS2;
-use crate::core::physics::earth::WGS84_A_M;
 use crate::core::physics::environment::Local;
 use crate::core::problem::Problem;
 use crate::core::steering::gravity_turn::ZeroAlpha;
@@ -633,8 +632,12 @@ impl<'a> Flyer<'a> {
                         evs.push(StateEvent::Energy(t.energy_j_kg(&p.environment)));
                     }
                 }
-                Cutoff::ApogeeAlt(h) => evs.push(StateEvent::ApogeeRadius(WGS84_A_M + h)),
-                Cutoff::PerigeeAlt(h) => evs.push(StateEvent::PerigeeRadius(WGS84_A_M + h)),
+                Cutoff::ApogeeAlt(h) => evs.push(StateEvent::ApogeeRadius(
+                    p.environment.reference_radius_m() + h,
+                )),
+                Cutoff::PerigeeAlt(h) => evs.push(StateEvent::PerigeeRadius(
+                    p.environment.reference_radius_m() + h,
+                )),
                 Cutoff::Depletion | Cutoff::Duration(_) => {}
             },
             Arc::Coast(CoastEnd::ToApogee) => evs.push(StateEvent::Apogee),

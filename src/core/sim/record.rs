@@ -16,7 +16,8 @@ pub struct Snapshot {
     pub t_s: f64,
     /// Geodetic altitude, m.
     pub altitude_m: f64,
-    /// Ground distance from the pad along a sphere of radius 6378.137 km, m.
+    /// Ground distance from the pad along a sphere of the reference radius (6378.137 km on
+    /// WGS-84; the sphere's radius on the spherical model), m.
     pub downrange_m: f64,
     /// Geodetic latitude, deg.
     pub latitude_deg: f64,
@@ -82,10 +83,11 @@ fn elevation_deg(v: &Vector3<f64>, up: &Vector3<f64>) -> f64 {
 fn downrange_m(p: &FlightModel, t: f64, r: &Vector3<f64>) -> f64 {
     match p.environment.earth {
         EarthModel::Flat { .. } => r.x.hypot(r.y),
-        EarthModel::Wgs84 { .. } => {
-            let pad = earth::geodetic_to_ecef(&p.site.geodetic);
+        EarthModel::Wgs84 { .. } | EarthModel::Spherical { .. } => {
+            // The pad's inertial position at t = 0 is its Earth-fixed one (θ_g0 = 0).
+            let pad = p.environment.pad_state(&p.site.geodetic).0;
             let now = earth::eci_to_ecef(r, p.environment.rotation_angle_rad(t));
-            earth::WGS84_A_M * angle_deg(&pad, &now).to_radians()
+            p.environment.reference_radius_m() * angle_deg(&pad, &now).to_radians()
         }
     }
 }

@@ -44,7 +44,7 @@ use nalgebra::Vector3;
 use super::{unit_or, ActiveLaw, ArcStart, GuidanceInput, Plan, SteeringLaw};
 use crate::core::error::in_range as range;
 use crate::core::error::ProblemError;
-use crate::core::physics::earth::{self, WGS84_A_M, WGS84_GM_M3_S2};
+use crate::core::physics::earth::WGS84_GM_M3_S2;
 use crate::core::physics::environment::{EarthModel, Local};
 use crate::core::problem::file::GuidanceFile;
 use crate::core::problem::{Insertion, Target};
@@ -129,22 +129,29 @@ impl SteeringLaw for Guidance {
 #[derive(Debug, Clone, Copy, PartialEq)]
 struct Aim {
     insertion: Insertion,
-    /// Perigee and apogee radii (WGS-84) or heights (flat), m.
+    /// Perigee and apogee radii (round models) or heights (flat), m.
     rp_m: f64,
     ra_m: f64,
+    /// Gravitational parameter of the vis-viva speeds, m³/s².
+    mu_m3_s2: f64,
 }
 
 /// Geometry of the Earth model as the guidance sees it.
 #[derive(Debug, Clone, Copy, PartialEq)]
 enum Geometry {
-    Round { j2: bool },
-    Flat { g_mps2: f64 },
+    /// WGS-84 or the sphere: the model's gravity, GM and reference radius.
+    Round {
+        earth: EarthModel,
+    },
+    Flat {
+        g_mps2: f64,
+    },
 }
 
 impl Geometry {
     fn gravity(&self, r: &Vector3<f64>) -> Vector3<f64> {
         match *self {
-            Geometry::Round { j2 } => earth::gravity(r, j2),
+            Geometry::Round { earth } => earth.gravity_mps2(r),
             Geometry::Flat { g_mps2 } => Vector3::new(0.0, 0.0, -g_mps2),
         }
     }
@@ -345,7 +352,9 @@ fn plane_normal(r: &Vector3<f64>, h: &Vector3<f64>, inc_rad: f64) -> Vector3<f64
 impl Guided {
     fn start(settings: Guidance, s: &ArcStart) -> Guided {
         let geometry = match s.environment.earth {
-            EarthModel::Wgs84 { j2, .. } => Geometry::Round { j2 },
+            earth @ (EarthModel::Wgs84 { .. } | EarthModel::Spherical { .. }) => {
+                Geometry::Round { earth }
+            }
             EarthModel::Flat { gravity_mps2 } => Geometry::Flat {
                 g_mps2: gravity_mps2,
             },
@@ -551,9 +560,11 @@ struct Prediction {
 
 /// The target as radii (heights on the flat model).
 fn aim_of(t: &Target, g: &Geometry) -> Aim {
-    let base = match g {
-        Geometry::Round { .. } => WGS84_A_M,
-        Geometry::Flat { .. } => 0.0,
+    // The flat model aims at heights, with the WGS-84 GM in its (unused) vis-viva speeds as
+    // before; the round models at radii above their reference radius, with their own GM.
+    let (base, mu_m3_s2) = match g {
+        Geometry::Round { earth } => (earth.reference_radius_m(), earth.gm_m3_s2()),
+        Geometry::Flat { .. } => (0.0, WGS84_GM_M3_S2),
     };
     Aim {
         insertion: match t.insertion {
@@ -570,13 +581,14 @@ fn aim_of(t: &Target, g: &Geometry) -> Aim {
         },
         rp_m: base + t.perigee_alt_m,
         ra_m: base + t.apogee_alt_m,
+        mu_m3_s2,
     }
 }
 
 /// Desired cutoff (radius or height m, speed m/s, flight-path angle rad) for a cutoff predicted
 /// at radius `r_pred`.
 fn desired(aim: &Aim, r_pred: f64) -> (f64, f64, f64) {
-    let mu = WGS84_GM_M3_S2;
+    let mu = aim.mu_m3_s2;
     let sma = 0.5 * (aim.rp_m + aim.ra_m);
     let vis_viva = |r: f64| (mu * (2.0 / r - 1.0 / sma)).max(0.0).sqrt();
     match aim.insertion {
