@@ -549,6 +549,12 @@ impl<'a> Sqp<'a> {
             self.update_hessian(&x_old, &derivs, &next);
             derivs = next;
         }
+        // The multipliers reported (sensitivities) are fitted afresh at the final point: the
+        // last subproblem's belong to the point before the last step (the medium demo's
+        // inclination sensitivity read 27.2 kg/deg from them against 30.2 from re-solves).
+        if status == Status::Converged {
+            self.fit_multipliers(&derivs);
+        }
         let at_bounds = self
             .x
             .iter()
@@ -853,6 +859,53 @@ impl<'a> Sqp<'a> {
             let r = &d.g + a.transpose() * &lam;
             let rb = back.map(|b| &b.g + rows(b, &active).transpose() * &lam);
             return (r, rb);
+        }
+    }
+
+    /// Least-squares multipliers of the equalities and the active inequalities at the current
+    /// point (`∇f + J_Eᵀλ + J_Aᵀν ≈ 0` over the variables off their bounds; a negative `ν`
+    /// drops its row), stored as the run's multipliers.
+    fn fit_multipliers(&mut self, d: &Derivs) {
+        let n = self.x.len();
+        let me = self.v.eq.len();
+        if d.je.nrows() != me || d.ji.nrows() != self.v.ineq.len() {
+            return;
+        }
+        let free: Vec<usize> = (0..n)
+            .filter(|&j| {
+                let tol = BOUND_TOL * (1.0 + self.x[j].abs());
+                self.x[j] - self.lo[j] > tol && self.hi[j] - self.x[j] > tol
+            })
+            .collect();
+        let mut active: Vec<usize> = (0..self.v.ineq.len())
+            .filter(|&i| self.v.ineq[i] >= -self.s.tol_feas && d.ji.row(i).amax() > 0.0)
+            .collect();
+        loop {
+            let m = me + active.len();
+            if m == 0 || free.is_empty() {
+                return;
+            }
+            let a = DMatrix::from_fn(free.len(), m, |r, c| {
+                if c < me {
+                    d.je[(c, free[r])]
+                } else {
+                    d.ji[(active[c - me], free[r])]
+                }
+            });
+            let rhs = DVector::from_fn(free.len(), |r, _| -d.g[free[r]]);
+            let Ok(lam) = a.svd(true, true).solve(&rhs, 1e-12) else {
+                return;
+            };
+            if let Some(k) = (0..active.len()).find(|k| lam[me + k] < 0.0) {
+                active.remove(k);
+                continue;
+            }
+            self.lam_eq = lam.iter().take(me).copied().collect();
+            self.lam_in = vec![0.0; self.v.ineq.len()];
+            for (k, &i) in active.iter().enumerate() {
+                self.lam_in[i] = lam[me + k];
+            }
+            return;
         }
     }
 
