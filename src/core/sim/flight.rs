@@ -1,10 +1,6 @@
 //! The flight driver: arcs, segments, events.
 
-use std::cell::RefCell;
-
 use nalgebra::Vector3;
-use ode_solvers::continuous_output_model::ContinuousOutputModel;
-use ode_solvers::{Dopri5, System};
 use serde::Serialize;
 
 use super::dynamics::{
@@ -13,6 +9,7 @@ use super::dynamics::{
 };
 use super::events::{self, StateEvent};
 use super::record::{snapshot, Snapshot};
+use super::stepper::{self, DenseOutput, OdeSystem};
 use crate::core::physics::earth::G0_MPS2;
 use crate::core::physics::earth::WGS84_A_M;
 use crate::core::physics::environment::Local;
@@ -258,8 +255,7 @@ struct Sys<'a> {
     law: &'a dyn ActiveLaw,
     mode: Mode,
     evs: &'a [StateEvent],
-    /// Interior mutability: the integrator calls `system` through a shared reference.
-    watch: &'a RefCell<Watch>,
+    watch: &'a mut Watch,
 }
 
 /// What the system records during one segment. Kept by the flyer and reused from segment to
@@ -273,17 +269,10 @@ struct Watch {
     /// (t s, dynamic pressure Pa, sensed axial acceleration g0, q·α Pa·deg) at the segment
     /// start and at each accepted step's end.
     samples: Vec<(f64, f64, f64, f64)>,
-    /// Local conditions and forces of the latest stage-7 right-hand-side evaluation, at
-    /// (`last_t_s`, `last_y`). Dormand–Prince evaluates its last stage at the step's end state
-    /// ("first same as last"), so after an accepted step this is the end of that step, and the
-    /// event check and the extrema reuse it instead of recomputing.
+    /// Local conditions and forces of the latest end-of-step right-hand-side evaluation
+    /// (Dormand–Prince's stage 7, "first same as last"): after an accepted step, those of that
+    /// step's end, which the event check and the extrema reuse instead of recomputing.
     last: Option<(Local, Forces)>,
-    /// Time of `last`, s.
-    last_t_s: f64,
-    /// State of `last`.
-    last_y: State,
-    /// Time of the latest right-hand-side evaluation, s.
-    prev_rhs_t: f64,
 }
 
 /// Dynamic pressure (Pa), sensed axial acceleration (g0) and q·α (Pa·deg: dynamic pressure
@@ -301,29 +290,23 @@ fn q_and_accel_of(f: &Forces, m_kg: f64, loc: &Local) -> (f64, f64, f64) {
     (f.q_pa, axial_accel_mps2(f, m_kg) / G0_MPS2, q_alpha)
 }
 
-impl System<f64, State> for Sys<'_> {
-    fn system(&self, t: f64, y: &State, dy: &mut State) {
-        let mut w = self.watch.borrow_mut();
-        // Dormand–Prince's stages 6 and 7 share the node c = 1, so a call at the same time as
-        // the one before is a stage 7, the candidate end of step: keep only those.
-        let keep = t.to_bits() == w.prev_rhs_t.to_bits();
-        w.prev_rhs_t = t;
-        if keep {
-            let w = &mut *w;
-            derivative_keeping(self.p, &self.mode, self.law, t, y, dy, Some(&mut w.last));
-            w.last_t_s = t;
-            w.last_y = *y;
+impl OdeSystem for Sys<'_> {
+    fn rhs(&mut self, t: f64, y: &State, dy: &mut State, end_of_step: bool) {
+        // Keep only the evaluation at a step's candidate end: the one `accepted` will need.
+        let keep = if end_of_step {
+            Some(&mut self.watch.last)
         } else {
-            derivative_keeping(self.p, &self.mode, self.law, t, y, dy, None);
-        }
+            None
+        };
+        derivative_keeping(self.p, &self.mode, self.law, t, y, dy, keep);
     }
 
-    fn solout(&mut self, t: f64, y: &State, _dy: &State) -> bool {
-        let mut w = self.watch.borrow_mut();
-        let (loc, f) = match w.last {
-            // The identical (t, y), not a close one: then the cached values are exact.
-            Some(kept) if w.last_t_s.to_bits() == t.to_bits() && w.last_y == *y => kept,
-            _ => {
+    fn accepted(&mut self, t: f64, y: &State) -> bool {
+        let w = &mut *self.watch;
+        // The integrator's last end-of-step evaluation was at exactly this (t, y).
+        let (loc, f) = match w.last.take() {
+            Some(kept) => kept,
+            None => {
                 let r = Vector3::new(y[0], y[1], y[2]);
                 let v = Vector3::new(y[3], y[4], y[5]);
                 let loc = self.p.environment.local(t, &r, &v);
@@ -362,6 +345,8 @@ struct Flyer<'a> {
     next_record_s: f64,
     /// The integration recorder, reused by every segment.
     watch: Watch,
+    /// The integrator's continuous extension, reused by every segment.
+    dense: DenseOutput,
 }
 
 /// Flies the problem's program and returns the trajectory summary.
@@ -445,6 +430,7 @@ impl<'a> Flyer<'a> {
             ended: None,
             next_record_s: t,
             watch: Watch::default(),
+            dense: DenseOutput::default(),
         }
     }
 
@@ -765,8 +751,6 @@ impl<'a> Flyer<'a> {
         let (q0, a0, qa0) = q_and_accel_of(&f0, self.y[ix::M], loc0);
         w.samples.push((self.t, q0, a0, qa0));
         w.last = None;
-        w.prev_rhs_t = f64::NAN;
-        let watch = RefCell::new(w);
         let ig = self.p.integrator;
         // One absolute tolerance serves every state component; for the mass (kg) it would be
         // relatively looser the lighter the vehicle, and a vehicle scaled down ×1e-4 would fly
@@ -774,23 +758,25 @@ impl<'a> Flyer<'a> {
         // tolerance shrinks with the mass, so any vehicle is integrated to the same relative
         // accuracy (heavier ones, all demos included, are unchanged).
         let atol = ig.atol * (self.p.vehicle.liftoff_mass_kg() / ATOL_MASS_REF_KG).min(1.0);
-        let sys = Sys {
+        let mut dense = std::mem::take(&mut self.dense);
+        let mut sys = Sys {
             p: &self.m,
             law,
             mode: self.mode,
             evs,
-            watch: &watch,
+            watch: &mut w,
         };
-        let mut solver = Dopri5::new(sys, self.t, t_end, 1.0, self.y, ig.rtol, atol);
-        let mut com = ContinuousOutputModel::default();
-        let result = solver.integrate_with_continuous_output_model(&mut com);
-        let (t_last, y_last) = match (solver.x_out().last(), solver.y_out().last()) {
-            (Some(t), Some(y)) => (*t, *y),
-            _ => (self.t, self.y),
+        let result =
+            stepper::integrate(&mut sys, self.t, t_end, &self.y, ig.rtol, atol, &mut dense);
+        self.watch = w;
+        let (stats, end) = match result {
+            Ok(r) => r,
+            Err(e) => {
+                self.dense = dense;
+                return Err(self.integration_message(&e.to_string()));
+            }
         };
-        drop(solver);
-        self.watch = watch.into_inner();
-        let stats = result.map_err(|e| self.integration_message(&e.to_string()))?;
+        let (t_last, y_last) = end.unwrap_or((self.t, self.y));
         self.out.stats.rhs_evals += u64::from(stats.num_eval);
         self.out.stats.accepted_steps += u64::from(stats.accepted_steps);
         self.out.stats.rejected_steps += u64::from(stats.rejected_steps);
@@ -804,15 +790,16 @@ impl<'a> Flyer<'a> {
             .map(|(e, _)| {
                 (
                     *e,
-                    events::locate(&self.m, &self.mode, law, e, &com, t_prev, t_last),
+                    events::locate(&self.m, &self.mode, law, e, &dense, t_prev, t_last),
                 )
             })
             .min_by(|a, b| a.1.total_cmp(&b.1));
         let (t_stop, y_stop) = match stop {
-            Some((_, t)) => (t, com.evaluate(t).unwrap_or(y_last)),
+            Some((_, t)) => (t, dense.evaluate(t).unwrap_or(y_last)),
             None => (t_last, y_last),
         };
-        self.track(&com, t_stop, &y_stop);
+        self.track(&dense, t_stop, &y_stop);
+        self.dense = dense;
         self.t = t_stop;
         self.y = y_stop;
         Ok(stop.map(|s| s.0))
@@ -833,7 +820,7 @@ impl<'a> Flyer<'a> {
     /// Max-Q, max acceleration and the time history over the segment just integrated, which
     /// stopped at (`t_stop`, `y_stop`). The samples at the step ends come from the integrator's
     /// own end-of-step evaluations; only the stop and the refinement evaluate anew.
-    fn track(&mut self, com: &ContinuousOutputModel<f64, State>, t_stop: f64, y_stop: &State) {
+    fn track(&mut self, com: &DenseOutput, t_stop: f64, y_stop: &State) {
         let (p, mode, law) = (&self.m, self.mode, self.law.as_ref());
         let w = &mut self.watch;
         let kept = w.samples.partition_point(|s| s.0 < t_stop);

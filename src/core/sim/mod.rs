@@ -17,6 +17,7 @@ pub mod dynamics;
 pub mod events;
 mod flight;
 mod record;
+mod stepper;
 
 pub use flight::{
     fly, ArcKind, ArcRecord, EndReason, EventKind, EventRecord, Extremum, Flight, FlyOptions,
