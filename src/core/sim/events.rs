@@ -9,7 +9,7 @@
 use nalgebra::Vector3;
 
 use super::dynamics::FlightModel;
-use super::dynamics::{forces, limit_throttle, stage_propellant_kg, Mode, State, Throttle};
+use super::dynamics::{forces, limit_throttle, stage_propellant_kg, Forces, Mode, State, Throttle};
 use super::stepper::DenseOutput;
 use crate::core::physics::earth::{WGS84_A_M, WGS84_GM_M3_S2};
 use crate::core::physics::environment::Local;
@@ -96,11 +96,33 @@ pub fn value_at(
     y: &State,
     loc: &Local,
 ) -> f64 {
+    value_with(p, mode, law, ev, t, y, loc, None)
+}
+
+/// [`value_at`], given also the forces of `mode` at (t, y) when the caller has them (the end of
+/// an integration step): the throttle events then reuse them instead of recomputing the same
+/// numbers.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn value_with(
+    p: &FlightModel,
+    mode: &Mode,
+    law: &dyn ActiveLaw,
+    ev: &StateEvent,
+    t: f64,
+    y: &State,
+    loc: &Local,
+    known: Option<&Forces>,
+) -> f64 {
     let (r, v) = rv(y);
-    let vrel = loc.v_rel_mps.norm();
+    let vrel = || known.map_or_else(|| loc.v_rel_mps.norm(), |f| f.speed_rel_mps);
+    let forces_of = |m: &Mode| match known {
+        Some(f) if m == mode => *f,
+        _ => forces(p, m, law, t, y[6], loc),
+    };
     match *ev {
-        StateEvent::RiseSpeed(s) => vrel - s,
+        StateEvent::RiseSpeed(s) => vrel() - s,
         StateEvent::AlphaZero(pitch) => {
+            let vrel = vrel();
             let sin_g = if vrel > 0.0 {
                 loc.v_rel_mps.dot(&loc.up) / vrel
             } else {
@@ -117,12 +139,12 @@ pub fn value_at(
                 throttle: Throttle::Fixed(nominal),
                 ..*mode
             };
-            let f = forces(p, &m, law, t, y[6], loc);
+            let f = forces_of(&m);
             let a_max = p.limits.max_axial_accel_mps2.unwrap_or(f64::INFINITY);
             ((f.thrust_n + f.aero_n.dot(&f.dir)) / y[6] - a_max) / a_max
         }
         StateEvent::MinThrottle => {
-            let f = forces(p, mode, law, t, y[6], loc);
+            let f = forces_of(mode);
             let s = &p.vehicle.stages[mode.stage];
             let p_a = loc.air.pressure_pa;
             let core_net = f.throttle * s.engine.thrust_vac_n - p_a * s.engine.exit_area_m2;
@@ -137,8 +159,8 @@ pub fn value_at(
             s.min_throttle - k
         }
         StateEvent::JettisonAltitude(_, h) => loc.altitude_m - h,
-        StateEvent::HeatingArm(_, q) => heating_w_m2(loc.air.density_kg_m3, vrel) / q - 1.0,
-        StateEvent::HeatingFall(_, q) => 1.0 - heating_w_m2(loc.air.density_kg_m3, vrel) / q,
+        StateEvent::HeatingArm(_, q) => heating_w_m2(loc.air.density_kg_m3, vrel()) / q - 1.0,
+        StateEvent::HeatingFall(_, q) => 1.0 - heating_w_m2(loc.air.density_kg_m3, vrel()) / q,
         StateEvent::Energy(e) => {
             let en = p.environment.specific_energy_j_kg(&r, &v);
             (en - e) / e.abs().max(1.0)

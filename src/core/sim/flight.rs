@@ -280,7 +280,7 @@ struct Watch {
 /// velocity; 0 off thrust, where the model has no attitude) of forces `f` at mass `m_kg` in local
 /// conditions `loc`.
 fn q_and_accel_of(f: &Forces, m_kg: f64, loc: &Local) -> (f64, f64, f64) {
-    let v = loc.v_rel_mps.norm();
+    let v = f.speed_rel_mps;
     let q_alpha = if f.thrust_vac_n > 0.0 && v > 0.0 && f.q_pa > 0.0 {
         let c = (f.dir.dot(&loc.v_rel_mps) / (f.dir.norm() * v)).clamp(-1.0, 1.0);
         f.q_pa * c.acos().to_degrees()
@@ -304,20 +304,23 @@ impl OdeSystem for Sys<'_> {
     fn accepted(&mut self, t: f64, y: &State) -> bool {
         let w = &mut *self.watch;
         // The integrator's last end-of-step evaluation was at exactly this (t, y).
-        let (loc, f) = match w.last.take() {
-            Some(kept) => kept,
+        let computed;
+        let (loc, f) = match &w.last {
+            Some((loc, f)) => (loc, f),
             None => {
                 let r = Vector3::new(y[0], y[1], y[2]);
                 let v = Vector3::new(y[3], y[4], y[5]);
                 let loc = self.p.environment.local(t, &r, &v);
-                (loc, forces(self.p, &self.mode, self.law, t, y[ix::M], &loc))
+                let f = forces(self.p, &self.mode, self.law, t, y[ix::M], &loc);
+                computed = (loc, f);
+                (&computed.0, &computed.1)
             }
         };
-        let (q, a, qa) = q_and_accel_of(&f, y[ix::M], &loc);
+        let (q, a, qa) = q_and_accel_of(f, y[ix::M], loc);
         w.samples.push((t, q, a, qa));
         let mut any = false;
         for (i, ev) in self.evs.iter().enumerate() {
-            let g = events::value_at(self.p, &self.mode, self.law, ev, t, y, &loc);
+            let g = events::value_with(self.p, &self.mode, self.law, ev, t, y, loc, Some(f));
             if w.g_prev[i] < 0.0 && g >= 0.0 {
                 w.fired[i] = true;
                 any = true;

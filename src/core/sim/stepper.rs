@@ -147,11 +147,15 @@ struct DenseStep {
 }
 
 /// The continuous extension of one integration, step by step. Reused from segment to segment:
-/// its vectors keep their capacity, so a flight allocates only while they first grow.
+/// the steps of an earlier integration stay in place and are overwritten (`len` says how many
+/// belong to this one), so a flight allocates only while the store first grows and no step's
+/// coefficients are copied.
 #[derive(Debug, Clone, Default)]
 pub(crate) struct DenseOutput {
     t0: f64,
-    /// End time of each step, s (increasing).
+    /// Steps of the current integration.
+    len: usize,
+    /// End time of each step, s (increasing over the first `len`).
     ends: Vec<f64>,
     steps: Vec<DenseStep>,
 }
@@ -159,13 +163,24 @@ pub(crate) struct DenseOutput {
 impl DenseOutput {
     fn reset(&mut self, t0: f64) {
         self.t0 = t0;
-        self.ends.clear();
-        self.steps.clear();
+        self.len = 0;
     }
 
-    fn push(&mut self, t_end: f64, h: f64, r: [State; 5]) {
-        self.ends.push(t_end);
-        self.steps.push(DenseStep { h, r });
+    /// Appends a step ending at `t_end` of size `h`; returns its coefficients to fill.
+    fn next_step(&mut self, t_end: f64, h: f64) -> &mut [State; 5] {
+        let k = self.len;
+        self.len += 1;
+        if k == self.steps.len() {
+            self.ends.push(t_end);
+            self.steps.push(DenseStep {
+                h,
+                r: [State::zeros(); 5],
+            });
+        } else {
+            self.ends[k] = t_end;
+            self.steps[k].h = h;
+        }
+        &mut self.steps[k].r
     }
 
     /// State at `t`; `None` outside the integrated interval (or for NaN).
@@ -173,12 +188,11 @@ impl DenseOutput {
         if t.is_nan() || t < self.t0 {
             return None;
         }
-        let k = match self
-            .ends
+        let k = match self.ends[..self.len]
             .binary_search_by(|e| e.partial_cmp(&t).unwrap_or(Ordering::Less))
         {
             Ok(k) => k,
-            Err(k) if k < self.steps.len() => k,
+            Err(k) if k < self.len => k,
             Err(_) => return None,
         };
         let start = if k == 0 { self.t0 } else { self.ends[k - 1] };
@@ -353,11 +367,10 @@ pub(crate) fn integrate<S: OdeSystem>(
                     }
                 }
             }
-            let r = dense_coefficients(&k, h, &y, &y_next);
+            dense_coefficients(&k, h, &y, &y_next, dense.next_step(x + h, h));
             k[0] = k[1];
             y = y_next;
             x += h;
-            dense.push(x, h, r);
             end = Some((x, y));
             if sys.accepted(x, &y) {
                 last = true;
@@ -458,7 +471,8 @@ fn error_norm(k: &[State; 7], h: f64, y: &State, y_next: &State, rtol: f64, atol
         arr(&k[5]),
     );
     let (y, y_next) = (arr(y), arr(y_next));
-    let mut err = 0.0;
+    // Each component's scaled error first (vectorizes), then the sum in component order.
+    let mut q = [0.0; N];
     for i in 0..N {
         let e = (k0[i] * E[0]
             + k2[i] * E[2]
@@ -468,13 +482,17 @@ fn error_norm(k: &[State; 7], h: f64, y: &State, y_next: &State, rtol: f64, atol
             + k1[i] * E[6])
             * h;
         let sc = atol + y[i].abs().max(y_next[i].abs()) * rtol;
-        err += (e / sc) * (e / sc);
+        q[i] = e / sc;
+    }
+    let mut err = 0.0;
+    for qi in q {
+        err += qi * qi;
     }
     (err / N as f64).sqrt()
 }
 
 /// Continuous-extension coefficients of an accepted step (`k[1]` holds stage 7).
-fn dense_coefficients(k: &[State; 7], h: f64, y: &State, y_next: &State) -> [State; 5] {
+fn dense_coefficients(k: &[State; 7], h: f64, y: &State, y_next: &State, r: &mut [State; 5]) {
     let (k0, k1, k2, k3, k4, k5) = (
         arr(&k[0]),
         arr(&k[1]),
@@ -484,8 +502,7 @@ fn dense_coefficients(k: &[State; 7], h: f64, y: &State, y_next: &State) -> [Sta
         arr(&k[5]),
     );
     let (ya, yn) = (arr(y), arr(y_next));
-    let mut r = [State::zeros(); 5];
-    let [r0, r1, r2, r3, r4] = &mut r;
+    let [r0, r1, r2, r3, r4] = r;
     let (r0, r1, r2, r3, r4) = (
         arr_mut(r0),
         arr_mut(r1),
@@ -508,7 +525,6 @@ fn dense_coefficients(k: &[State; 7], h: f64, y: &State, y_next: &State) -> [Sta
             + k1[i] * D[6])
             * h;
     }
-    r
 }
 
 #[cfg(test)]
