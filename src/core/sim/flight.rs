@@ -331,6 +331,47 @@ impl OdeSystem for Sys<'_> {
     }
 }
 
+/// The buffers of a flight, handed from one flight to the next on the same thread, so that a
+/// flight allocates nothing for its integration once the thread has flown one like it (the
+/// optimizer and the studies fly thousands).
+#[derive(Default)]
+struct Scratch {
+    watch: Watch,
+    dense: DenseOutput,
+}
+
+/// A dense-output store holding more steps than this is not kept for the next flight (bounds
+/// the memory a thread keeps after a pathological flight; an ascent takes a few hundred steps).
+const SCRATCH_MAX_STEPS: usize = 20_000;
+
+thread_local! {
+    static SCRATCH: std::cell::RefCell<Scratch> = std::cell::RefCell::new(Scratch::default());
+}
+
+impl Scratch {
+    /// The thread's buffers (empty ones if another flight on this thread holds them, or while
+    /// the thread shuts down).
+    fn take() -> Scratch {
+        SCRATCH
+            .try_with(|s| s.try_borrow_mut().map(|mut s| std::mem::take(&mut *s)).ok())
+            .ok()
+            .flatten()
+            .unwrap_or_default()
+    }
+
+    /// Leaves the buffers for the thread's next flight.
+    fn give_back(self) {
+        if self.dense.capacity() > SCRATCH_MAX_STEPS {
+            return;
+        }
+        let _ = SCRATCH.try_with(|s| {
+            if let Ok(mut s) = s.try_borrow_mut() {
+                *s = self;
+            }
+        });
+    }
+}
+
 struct Flyer<'a> {
     p: &'a Problem,
     /// The flight model of `p`.
@@ -376,6 +417,7 @@ fn initial_state(p: &Problem, opts: &FlyOptions) -> (f64, State) {
 
 impl<'a> Flyer<'a> {
     fn new(p: &'a Problem, opts: FlyOptions) -> Self {
+        let mut scratch = Scratch::take();
         let (t, y) = initial_state(p, &opts);
         let boosters = p.vehicle.boosters.is_some();
         let booster_mass = p
@@ -432,8 +474,8 @@ impl<'a> Flyer<'a> {
             arc_done: false,
             ended: None,
             next_record_s: t,
-            watch: Watch::default(),
-            dense: DenseOutput::default(),
+            watch: std::mem::take(&mut scratch.watch),
+            dense: std::mem::take(&mut scratch.dense),
         }
     }
 
@@ -1107,6 +1149,11 @@ impl<'a> Flyer<'a> {
     }
 
     fn finish(mut self) -> Flight {
+        Scratch {
+            watch: std::mem::take(&mut self.watch),
+            dense: std::mem::take(&mut self.dense),
+        }
+        .give_back();
         self.out.end = self.ended.take().unwrap_or(EndReason::Completed);
         self.out.t1_s = self.t;
         self.out.y1 = self.y;

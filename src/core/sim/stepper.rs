@@ -75,6 +75,8 @@ const E: [f64; 7] = [
     -1.0 / 40.0,
 ];
 
+/// Steps a new dense-output store makes room for (83 KB).
+const INITIAL_STEPS: usize = 128;
 /// Most steps of one integration.
 const N_MAX: u32 = 100_000;
 /// The stiffness test runs every this many accepted steps (and while it is suspicious).
@@ -161,9 +163,20 @@ pub(crate) struct DenseOutput {
 }
 
 impl DenseOutput {
+    /// Steps the store holds without growing.
+    pub(crate) fn capacity(&self) -> usize {
+        self.steps.capacity()
+    }
+
     fn reset(&mut self, t0: f64) {
         self.t0 = t0;
         self.len = 0;
+        if self.steps.capacity() == 0 {
+            // Room for a typical segment at once (a long burn takes ~150 steps) instead of
+            // growing by doubling, which copies every step stored so far.
+            self.ends.reserve(INITIAL_STEPS);
+            self.steps.reserve(INITIAL_STEPS);
+        }
     }
 
     /// Appends a step ending at `t_end` of size `h`; returns its coefficients to fill.
