@@ -391,6 +391,24 @@ struct Flyer<'a> {
     watch: Watch,
     /// The integrator's continuous extension, reused by every segment.
     dense: DenseOutput,
+    /// Maxima found whose snapshots are not taken yet ([`MAX_Q`], [`MAX_ACCEL`], [`MAX_Q_ALPHA`]).
+    found: [Option<Found>; 3],
+}
+
+/// Index of max-Q in [`Flyer::found`].
+const MAX_Q: usize = 0;
+/// Index of the maximum axial acceleration in [`Flyer::found`].
+const MAX_ACCEL: usize = 1;
+/// Index of the maximum q·α in [`Flyer::found`].
+const MAX_Q_ALPHA: usize = 2;
+
+/// A maximum found on a segment, described (its snapshot taken) later.
+#[derive(Debug, Clone, Copy)]
+struct Found {
+    value: f64,
+    t_s: f64,
+    y: State,
+    mode: Mode,
 }
 
 /// Flies the problem's program and returns the trajectory summary.
@@ -476,6 +494,7 @@ impl<'a> Flyer<'a> {
             next_record_s: t,
             watch: std::mem::take(&mut scratch.watch),
             dense: std::mem::take(&mut scratch.dense),
+            found: [None; 3],
         }
     }
 
@@ -567,6 +586,7 @@ impl<'a> Flyer<'a> {
         let v = Vector3::new(self.y[3], self.y[4], self.y[5]);
         let loc = self.p.environment.local(self.t, &r, &v);
         let state = self.guidance_input();
+        self.describe_maxima();
         self.law = law.start(&ArcStart {
             arc: i,
             t_s: self.t,
@@ -883,55 +903,63 @@ impl<'a> Flyer<'a> {
         } else {
             0
         };
-        let best_q = self.out.max_q.map_or(f64::NEG_INFINITY, |m| m.value);
+        let best_q = self.best_value(MAX_Q).unwrap_or(f64::NEG_INFINITY);
         let best_part = self.out.max_q_by_bucket_pa[part];
-        if w.samples.iter().any(|s| s.1 > best_part) {
-            let q = refine_max(
-                &w.samples,
-                |s| s.1,
-                |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.0),
-            );
-            if let Some((v, t)) = q.filter(|(v, _)| *v > best_part) {
-                self.out.max_q_by_bucket_pa[part] = v;
-                if v > best_q {
-                    self.out.max_q = com.evaluate(t).map(|y| Extremum {
-                        value: v,
-                        at: snapshot(p, &mode, law, t, &y),
-                    });
-                }
+        let best_a = self.best_value(MAX_ACCEL).unwrap_or(f64::NEG_INFINITY);
+        let best_qa = self.best_value(MAX_Q_ALPHA).unwrap_or(0.0);
+        let w = &self.watch;
+        let q = w
+            .samples
+            .iter()
+            .any(|s| s.1 > best_part)
+            .then(|| {
+                refine_max(
+                    &w.samples,
+                    |s| s.1,
+                    |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.0),
+                )
+            })
+            .flatten()
+            .filter(|(v, _)| *v > best_part);
+        let a = w
+            .samples
+            .iter()
+            .any(|s| s.2 > best_a)
+            .then(|| {
+                refine_max(
+                    &w.samples,
+                    |s| s.2,
+                    |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.1),
+                )
+            })
+            .flatten()
+            .filter(|(v, _)| *v > best_a);
+        let m = w
+            .samples
+            .iter()
+            .any(|s| s.3 > best_qa)
+            .then(|| {
+                refine_max(
+                    &w.samples,
+                    |s| s.3,
+                    |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.2),
+                )
+            })
+            .flatten()
+            .filter(|(v, _)| *v > best_qa);
+        if let Some((v, t)) = q {
+            self.out.max_q_by_bucket_pa[part] = v;
+            if v > best_q {
+                self.found(MAX_Q, v, t, com);
             }
         }
-        let best_a = self
-            .out
-            .max_axial_accel
-            .map_or(f64::NEG_INFINITY, |m| m.value);
-        if w.samples.iter().any(|s| s.2 > best_a) {
-            let a = refine_max(
-                &w.samples,
-                |s| s.2,
-                |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.1),
-            );
-            if let Some((v, t)) = a.filter(|(v, _)| *v > best_a) {
-                self.out.max_axial_accel = com.evaluate(t).map(|y| Extremum {
-                    value: v,
-                    at: snapshot(p, &mode, law, t, &y),
-                });
-            }
+        if let Some((v, t)) = a {
+            self.found(MAX_ACCEL, v, t, com);
         }
-        let best_qa = self.out.max_q_alpha.map_or(0.0, |m| m.value);
-        if w.samples.iter().any(|s| s.3 > best_qa) {
-            let m = refine_max(
-                &w.samples,
-                |s| s.3,
-                |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.2),
-            );
-            if let Some((v, t)) = m.filter(|(v, _)| *v > best_qa) {
-                self.out.max_q_alpha = com.evaluate(t).map(|y| Extremum {
-                    value: v,
-                    at: snapshot(p, &mode, law, t, &y),
-                });
-            }
+        if let Some((v, t)) = m {
+            self.found(MAX_Q_ALPHA, v, t, com);
         }
+        let (p, law) = (&self.m, self.law.as_ref());
         if let Some(dt) = self.opts.record_step_s {
             while self.next_record_s < t_stop {
                 if let Some(y) = com.evaluate(self.next_record_s) {
@@ -940,6 +968,62 @@ impl<'a> Flyer<'a> {
                         .push(snapshot(p, &mode, law, self.next_record_s, &y));
                 }
                 self.next_record_s += dt;
+            }
+        }
+    }
+
+    /// The running maximum of tracked quantity `i` ([`MAX_Q`], [`MAX_ACCEL`], [`MAX_Q_ALPHA`]).
+    fn best_value(&self, i: usize) -> Option<f64> {
+        match &self.found[i] {
+            Some(f) => Some(f.value),
+            None => self.extremum(i).map(|m| m.value),
+        }
+    }
+
+    fn extremum(&self, i: usize) -> Option<Extremum> {
+        match i {
+            MAX_Q => self.out.max_q,
+            MAX_ACCEL => self.out.max_axial_accel,
+            _ => self.out.max_q_alpha,
+        }
+    }
+
+    fn extremum_mut(&mut self, i: usize) -> &mut Option<Extremum> {
+        match i {
+            MAX_Q => &mut self.out.max_q,
+            MAX_ACCEL => &mut self.out.max_axial_accel,
+            _ => &mut self.out.max_q_alpha,
+        }
+    }
+
+    /// A new maximum `value` of quantity `i` at `t_s` on the segment's dense output `com`; its
+    /// snapshot waits for [`Flyer::describe_maxima`].
+    fn found(&mut self, i: usize, value: f64, t_s: f64, com: &DenseOutput) {
+        match com.evaluate(t_s) {
+            Some(y) => {
+                self.found[i] = Some(Found {
+                    value,
+                    t_s,
+                    y,
+                    mode: self.mode,
+                })
+            }
+            None => {
+                self.found[i] = None;
+                *self.extremum_mut(i) = None;
+            }
+        }
+    }
+
+    /// Takes the snapshots of the maxima found since the last call. Called before the active law
+    /// changes (a new arc's law, a guidance cycle) and at the end, so that each snapshot sees the
+    /// law that flew it: one snapshot per maximum and arc instead of one per segment that raised
+    /// it (each costs about as much as a few dozen right-hand sides).
+    fn describe_maxima(&mut self) {
+        for i in [MAX_Q, MAX_ACCEL, MAX_Q_ALPHA] {
+            if let Some(f) = self.found[i].take() {
+                let at = snapshot(&self.m, &f.mode, self.law.as_ref(), f.t_s, &f.y);
+                *self.extremum_mut(i) = Some(Extremum { value: f.value, at });
             }
         }
     }
@@ -1052,6 +1136,7 @@ impl<'a> Flyer<'a> {
     /// A guidance cycle: the closed-loop law re-solves from the current state.
     fn guidance_cycle(&mut self) {
         let now = self.guidance_input();
+        self.describe_maxima();
         self.law.update(&now);
         self.flags.next_guidance_s = self.law.guidance_period_s().map(|dt| self.t + dt);
     }
@@ -1149,6 +1234,7 @@ impl<'a> Flyer<'a> {
     }
 
     fn finish(mut self) -> Flight {
+        self.describe_maxima();
         Scratch {
             watch: std::mem::take(&mut self.watch),
             dense: std::mem::take(&mut self.dense),
