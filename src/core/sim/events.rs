@@ -257,6 +257,8 @@ fn brent_root(
         }
         if e.abs() >= eff_tol && fa.abs() > fb.abs() {
             let s = fb / fa;
+            // a and c the same point (not merely close): the secant step, as Brent writes it.
+            #[allow(clippy::float_cmp)]
             let (mut p, mut q) = if a == c {
                 (2.0 * mid * s, 1.0 - s)
             } else {
