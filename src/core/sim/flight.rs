@@ -340,9 +340,10 @@ struct Scratch {
     dense: DenseOutput,
 }
 
-/// A dense-output store holding more steps than this is not kept for the next flight (bounds
-/// the memory a thread keeps after a pathological flight; an ascent takes a few hundred steps).
-const SCRATCH_MAX_STEPS: usize = 20_000;
+/// A dense-output store holding more steps than this (2.6 MB) is not kept for the next flight:
+/// bounds the memory a thread keeps after a pathological flight (the store holds one segment;
+/// the demos' longest takes under 200 steps).
+const SCRATCH_MAX_STEPS: usize = 4_096;
 
 thread_local! {
     static SCRATCH: std::cell::RefCell<Scratch> = std::cell::RefCell::new(Scratch::default());
