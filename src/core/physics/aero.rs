@@ -73,13 +73,17 @@ impl DragTable {
 
     /// Tabulated C_D at `mach` (linear between nodes, held beyond the ends), without the scale.
     fn table_cd(&self, mach: f64) -> f64 {
-        let n = self.mach.len();
-        if n == 0 {
+        let (Some(&first), Some(&last)) = (self.mach.first(), self.mach.last()) else {
             return 0.0;
+        };
+        // Beyond the last node first: most of an ascent (and every orbital coast) flies there.
+        if mach > last {
+            return self.cd[self.cd.len() - 1];
         }
-        if mach <= self.mach[0] {
+        if mach <= first {
             return self.cd[0];
         }
+        let n = self.mach.len();
         for i in 1..n {
             if mach <= self.mach[i] {
                 let h = self.mach[i] - self.mach[i - 1];

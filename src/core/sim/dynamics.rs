@@ -157,6 +157,8 @@ pub struct Forces {
     pub q_pa: f64,
     /// Mach number.
     pub mach: f64,
+    /// Earth-relative speed |v_rel|, m/s (kept so that its square root is taken once).
+    pub speed_rel_mps: f64,
 }
 
 /// Thrust direction of `mode` at time `t_s` (`law`: the arc's active steering law).
@@ -267,6 +269,7 @@ pub fn forces(
         throttle,
         q_pa,
         mach,
+        speed_rel_mps: vr,
     }
 }
 
@@ -303,7 +306,12 @@ pub fn derivative_keeping(
     let f = forces(p, mode, law, t_s, m, &loc);
     let a = f.dir * (f.thrust_n / m) + f.aero_n / m + loc.gravity_mps2;
     let vhat = unit_or(&v, &f.dir);
-    let vrhat = unit_or(&loc.v_rel_mps, &f.dir);
+    // unit_or(v_rel, dir) with the norm `forces` took.
+    let vrhat = if f.speed_rel_mps > 1e-9 {
+        loc.v_rel_mps / f.speed_rel_mps
+    } else {
+        f.dir
+    };
     let t_over_m = f.thrust_n / m;
     dy.fixed_rows_mut::<3>(ix::R).copy_from(&v);
     dy.fixed_rows_mut::<3>(ix::V).copy_from(&a);

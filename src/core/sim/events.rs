@@ -3,16 +3,14 @@
 //!
 //! A state event fires when its switching function `g(t, y)` crosses from negative to ≥ 0; time
 //! events are reached exactly by ending the segment at their time. Roots are located with Brent's
-//! method (argmin `BrentRoot`) on the Dormand–Prince continuous extension to 1e-10 s, so terminal
-//! states vary smoothly with the program's parameters.
+//! method on the Dormand–Prince continuous extension to 1e-10 s, so terminal states vary smoothly
+//! with the program's parameters.
 
-use argmin::core::{CostFunction, Executor};
-use argmin::solver::brent::BrentRoot;
 use nalgebra::Vector3;
-use ode_solvers::continuous_output_model::ContinuousOutputModel;
 
 use super::dynamics::FlightModel;
-use super::dynamics::{forces, limit_throttle, stage_propellant_kg, Mode, State, Throttle};
+use super::dynamics::{forces, limit_throttle, stage_propellant_kg, Forces, Mode, State, Throttle};
+use super::stepper::DenseOutput;
 use crate::core::physics::environment::Local;
 use crate::core::physics::orbit::Elements;
 use crate::core::steering::ActiveLaw;
@@ -97,11 +95,33 @@ pub fn value_at(
     y: &State,
     loc: &Local,
 ) -> f64 {
+    value_with(p, mode, law, ev, t, y, loc, None)
+}
+
+/// [`value_at`], given also the forces of `mode` at (t, y) when the caller has them (the end of
+/// an integration step): the throttle events then reuse them instead of recomputing the same
+/// numbers.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn value_with(
+    p: &FlightModel,
+    mode: &Mode,
+    law: &dyn ActiveLaw,
+    ev: &StateEvent,
+    t: f64,
+    y: &State,
+    loc: &Local,
+    known: Option<&Forces>,
+) -> f64 {
     let (r, v) = rv(y);
-    let vrel = loc.v_rel_mps.norm();
+    let vrel = || known.map_or_else(|| loc.v_rel_mps.norm(), |f| f.speed_rel_mps);
+    let forces_of = |m: &Mode| match known {
+        Some(f) if m == mode => *f,
+        _ => forces(p, m, law, t, y[6], loc),
+    };
     match *ev {
-        StateEvent::RiseSpeed(s) => vrel - s,
+        StateEvent::RiseSpeed(s) => vrel() - s,
         StateEvent::AlphaZero(pitch) => {
+            let vrel = vrel();
             let sin_g = if vrel > 0.0 {
                 loc.v_rel_mps.dot(&loc.up) / vrel
             } else {
@@ -118,12 +138,12 @@ pub fn value_at(
                 throttle: Throttle::Fixed(nominal),
                 ..*mode
             };
-            let f = forces(p, &m, law, t, y[6], loc);
+            let f = forces_of(&m);
             let a_max = p.limits.max_axial_accel_mps2.unwrap_or(f64::INFINITY);
             ((f.thrust_n + f.aero_n.dot(&f.dir)) / y[6] - a_max) / a_max
         }
         StateEvent::MinThrottle => {
-            let f = forces(p, mode, law, t, y[6], loc);
+            let f = forces_of(mode);
             let s = &p.vehicle.stages[mode.stage];
             let p_a = loc.air.pressure_pa;
             let core_net = f.throttle * s.engine.thrust_vac_n - p_a * s.engine.exit_area_m2;
@@ -138,8 +158,8 @@ pub fn value_at(
             s.min_throttle - k
         }
         StateEvent::JettisonAltitude(_, h) => loc.altitude_m - h,
-        StateEvent::HeatingArm(_, q) => heating_w_m2(loc.air.density_kg_m3, vrel) / q - 1.0,
-        StateEvent::HeatingFall(_, q) => 1.0 - heating_w_m2(loc.air.density_kg_m3, vrel) / q,
+        StateEvent::HeatingArm(_, q) => heating_w_m2(loc.air.density_kg_m3, vrel()) / q - 1.0,
+        StateEvent::HeatingFall(_, q) => 1.0 - heating_w_m2(loc.air.density_kg_m3, vrel()) / q,
         StateEvent::Energy(e) => {
             let en = p.environment.specific_energy_j_kg(&r, &v);
             (en - e) / e.abs().max(1.0)
@@ -164,50 +184,123 @@ pub fn value_at(
     }
 }
 
-struct Switching<'a> {
-    p: &'a FlightModel<'a>,
-    mode: &'a Mode,
-    law: &'a dyn ActiveLaw,
-    ev: &'a StateEvent,
-    com: &'a ContinuousOutputModel<f64, State>,
-}
-
-impl CostFunction for Switching<'_> {
-    type Param = f64;
-    type Output = f64;
-    fn cost(&self, t: &f64) -> Result<f64, argmin::core::Error> {
-        let y = self
-            .com
-            .evaluate(*t)
-            .ok_or_else(|| argmin::core::Error::msg("time outside the dense output"))?;
-        Ok(value(self.p, self.mode, self.law, self.ev, *t, &y))
-    }
-}
+/// Most iterations of one root search.
+const LOCATE_MAX_ITERS: u64 = 100;
 
 /// Locates the root of `ev` in `[t_lo, t_hi]` on the dense output (g(t_lo) < 0 ≤ g(t_hi)).
 /// Falls back to `t_hi` if the bracket is lost to round-off.
-pub fn locate(
+pub(crate) fn locate(
     p: &FlightModel,
     mode: &Mode,
     law: &dyn ActiveLaw,
     ev: &StateEvent,
-    com: &ContinuousOutputModel<f64, State>,
+    dense: &DenseOutput,
     t_lo: f64,
     t_hi: f64,
 ) -> f64 {
-    let problem = Switching {
-        p,
-        mode,
-        law,
-        ev,
-        com,
-    };
-    let solver = BrentRoot::new(t_lo, t_hi, EVENT_TIME_TOL_S);
-    Executor::new(problem, solver)
-        .configure(|s| s.param(t_hi).max_iters(100))
-        .run()
-        .ok()
-        .and_then(|r| r.state.best_param)
+    let g = |t: f64| dense.evaluate(t).map(|y| value(p, mode, law, ev, t, &y));
+    brent_root(t_lo, t_hi, EVENT_TIME_TOL_S, LOCATE_MAX_ITERS, g)
         .filter(|t| t.is_finite() && *t >= t_lo && *t <= t_hi)
         .unwrap_or(t_hi)
+}
+
+/// Root of `g` in [`a`, `b`] by Brent's method (zeroin: bisection, secant and inverse quadratic
+/// interpolation; R. P. Brent, *Algorithms for Minimization without Derivatives*, 1973, ch. 4,
+/// from memory), to the tolerance `2ε|b| + tol/2`, in at most `max_iters` iterations. The
+/// iteration is argmin 0.11's `BrentRoot` run by its `Executor` step for step (which this replaces
+/// on the hot path: the executor's bookkeeping cost more than the evaluations), so the root is
+/// the same to the bit: the point of smallest |g| seen (the first of equals). `None` when `g`
+/// fails (`None`) at an evaluation, or g(a) and g(b) have the same sign.
+fn brent_root(
+    mut a: f64,
+    mut b: f64,
+    tol: f64,
+    max_iters: u64,
+    g: impl Fn(f64) -> Option<f64>,
+) -> Option<f64> {
+    let mut c = b;
+    let (mut d, mut e) = (f64::NAN, f64::NAN);
+    let mut fa = g(a)?;
+    let mut fb = g(b)?;
+    if fa * fb > 0.0 {
+        return None;
+    }
+    let mut fc = fb;
+    // argmin's best point: replaced only by a strictly smaller |g| (NaN never).
+    let (mut best, mut best_cost) = (None, f64::INFINITY);
+    let mut consider = |x: f64, cost: f64| {
+        if cost < best_cost || (cost.is_infinite() && best_cost.is_infinite()) {
+            best = Some(x);
+            best_cost = cost;
+        }
+    };
+    consider(b, fb.abs());
+    for _ in 0..max_iters {
+        if (fb > 0.0 && fc > 0.0) || fb < 0.0 && fc < 0.0 {
+            c = a;
+            fc = fa;
+            d = b - a;
+            e = d;
+        }
+        if fc.abs() < fb.abs() {
+            a = b;
+            b = c;
+            c = a;
+            fa = fb;
+            fb = fc;
+            fc = fa;
+        }
+        // Twice the machine precision plus half the tolerance.
+        let eff_tol = 2.0 * f64::EPSILON * b.abs() + 0.5 * tol;
+        let mid = 0.5 * (c - b);
+        if mid.abs() <= eff_tol || fb == 0.0 {
+            consider(b, fb.abs());
+            break;
+        }
+        if e.abs() >= eff_tol && fa.abs() > fb.abs() {
+            let s = fb / fa;
+            // a and c the same point (not merely close): the secant step, as Brent writes it.
+            #[allow(clippy::float_cmp)]
+            let (mut p, mut q) = if a == c {
+                (2.0 * mid * s, 1.0 - s)
+            } else {
+                let q = fa / fc;
+                let r = fb / fc;
+                (
+                    s * (2.0 * mid * q * (q - r) - (b - a) * (r - 1.0)),
+                    (q - 1.0) * (r - 1.0) * (s - 1.0),
+                )
+            };
+            if p > 0.0 {
+                q = -q;
+            }
+            p = p.abs();
+            let min1 = 3.0 * mid * q - (eff_tol * q).abs();
+            let min2 = (e * q).abs();
+            if 2.0 * p < if min1 < min2 { min1 } else { min2 } {
+                e = d;
+                d = p / q;
+            } else {
+                d = mid;
+                e = d;
+            }
+        } else {
+            d = mid;
+            e = d;
+        }
+        a = b;
+        fa = fb;
+        if d.abs() > eff_tol {
+            b += d;
+        } else {
+            b += if mid >= 0.0 {
+                eff_tol.abs()
+            } else {
+                -eff_tol.abs()
+            };
+        }
+        fb = g(b)?;
+        consider(b, fb.abs());
+    }
+    best
 }

@@ -1,10 +1,6 @@
 //! The flight driver: arcs, segments, events.
 
-use std::cell::RefCell;
-
 use nalgebra::Vector3;
-use ode_solvers::continuous_output_model::ContinuousOutputModel;
-use ode_solvers::{Dopri5, System};
 use serde::Serialize;
 
 use super::dynamics::{
@@ -13,6 +9,7 @@ use super::dynamics::{
 };
 use super::events::{self, StateEvent};
 use super::record::{snapshot, Snapshot};
+use super::stepper::{self, DenseOutput, OdeSystem};
 use crate::core::physics::earth::G0_MPS2;
 use crate::core::physics::environment::Local;
 use crate::core::problem::Problem;
@@ -260,8 +257,7 @@ struct Sys<'a> {
     law: &'a dyn ActiveLaw,
     mode: Mode,
     evs: &'a [StateEvent],
-    /// Interior mutability: the integrator calls `system` through a shared reference.
-    watch: &'a RefCell<Watch>,
+    watch: &'a mut Watch,
 }
 
 /// What the system records during one segment. Kept by the flyer and reused from segment to
@@ -275,17 +271,10 @@ struct Watch {
     /// (t s, dynamic pressure Pa, sensed axial acceleration g0, q·α Pa·deg) at the segment
     /// start and at each accepted step's end.
     samples: Vec<(f64, f64, f64, f64)>,
-    /// Local conditions and forces of the latest stage-7 right-hand-side evaluation, at
-    /// (`last_t_s`, `last_y`). Dormand–Prince evaluates its last stage at the step's end state
-    /// ("first same as last"), so after an accepted step this is the end of that step, and the
-    /// event check and the extrema reuse it instead of recomputing.
+    /// Local conditions and forces of the latest end-of-step right-hand-side evaluation
+    /// (Dormand–Prince's stage 7, "first same as last"): after an accepted step, those of that
+    /// step's end, which the event check and the extrema reuse instead of recomputing.
     last: Option<(Local, Forces)>,
-    /// Time of `last`, s.
-    last_t_s: f64,
-    /// State of `last`.
-    last_y: State,
-    /// Time of the latest right-hand-side evaluation, s.
-    prev_rhs_t: f64,
 }
 
 /// Dynamic pressure (Pa), sensed axial acceleration (g0) and q·α (Pa·deg: dynamic pressure
@@ -293,7 +282,7 @@ struct Watch {
 /// velocity; 0 off thrust, where the model has no attitude) of forces `f` at mass `m_kg` in local
 /// conditions `loc`.
 fn q_and_accel_of(f: &Forces, m_kg: f64, loc: &Local) -> (f64, f64, f64) {
-    let v = loc.v_rel_mps.norm();
+    let v = f.speed_rel_mps;
     let q_alpha = if f.thrust_vac_n > 0.0 && v > 0.0 && f.q_pa > 0.0 {
         let c = (f.dir.dot(&loc.v_rel_mps) / (f.dir.norm() * v)).clamp(-1.0, 1.0);
         f.q_pa * c.acos().to_degrees()
@@ -303,40 +292,37 @@ fn q_and_accel_of(f: &Forces, m_kg: f64, loc: &Local) -> (f64, f64, f64) {
     (f.q_pa, axial_accel_mps2(f, m_kg) / G0_MPS2, q_alpha)
 }
 
-impl System<f64, State> for Sys<'_> {
-    fn system(&self, t: f64, y: &State, dy: &mut State) {
-        let mut w = self.watch.borrow_mut();
-        // Dormand–Prince's stages 6 and 7 share the node c = 1, so a call at the same time as
-        // the one before is a stage 7, the candidate end of step: keep only those.
-        let keep = t.to_bits() == w.prev_rhs_t.to_bits();
-        w.prev_rhs_t = t;
-        if keep {
-            let w = &mut *w;
-            derivative_keeping(self.p, &self.mode, self.law, t, y, dy, Some(&mut w.last));
-            w.last_t_s = t;
-            w.last_y = *y;
+impl OdeSystem for Sys<'_> {
+    fn rhs(&mut self, t: f64, y: &State, dy: &mut State, end_of_step: bool) {
+        // Keep only the evaluation at a step's candidate end: the one `accepted` will need.
+        let keep = if end_of_step {
+            Some(&mut self.watch.last)
         } else {
-            derivative_keeping(self.p, &self.mode, self.law, t, y, dy, None);
-        }
+            None
+        };
+        derivative_keeping(self.p, &self.mode, self.law, t, y, dy, keep);
     }
 
-    fn solout(&mut self, t: f64, y: &State, _dy: &State) -> bool {
-        let mut w = self.watch.borrow_mut();
-        let (loc, f) = match w.last {
-            // The identical (t, y), not a close one: then the cached values are exact.
-            Some(kept) if w.last_t_s.to_bits() == t.to_bits() && w.last_y == *y => kept,
-            _ => {
+    fn accepted(&mut self, t: f64, y: &State) -> bool {
+        let w = &mut *self.watch;
+        // The integrator's last end-of-step evaluation was at exactly this (t, y).
+        let computed;
+        let (loc, f) = match &w.last {
+            Some((loc, f)) => (loc, f),
+            None => {
                 let r = Vector3::new(y[0], y[1], y[2]);
                 let v = Vector3::new(y[3], y[4], y[5]);
                 let loc = self.p.environment.local(t, &r, &v);
-                (loc, forces(self.p, &self.mode, self.law, t, y[ix::M], &loc))
+                let f = forces(self.p, &self.mode, self.law, t, y[ix::M], &loc);
+                computed = (loc, f);
+                (&computed.0, &computed.1)
             }
         };
-        let (q, a, qa) = q_and_accel_of(&f, y[ix::M], &loc);
+        let (q, a, qa) = q_and_accel_of(f, y[ix::M], loc);
         w.samples.push((t, q, a, qa));
         let mut any = false;
         for (i, ev) in self.evs.iter().enumerate() {
-            let g = events::value_at(self.p, &self.mode, self.law, ev, t, y, &loc);
+            let g = events::value_with(self.p, &self.mode, self.law, ev, t, y, loc, Some(f));
             if w.g_prev[i] < 0.0 && g >= 0.0 {
                 w.fired[i] = true;
                 any = true;
@@ -344,6 +330,48 @@ impl System<f64, State> for Sys<'_> {
             w.g_prev[i] = g;
         }
         any
+    }
+}
+
+/// The buffers of a flight, handed from one flight to the next on the same thread, so that a
+/// flight allocates nothing for its integration once the thread has flown one like it (the
+/// optimizer and the studies fly thousands).
+#[derive(Default)]
+struct Scratch {
+    watch: Watch,
+    dense: DenseOutput,
+}
+
+/// A dense-output store holding more steps than this (2.6 MB) is not kept for the next flight:
+/// bounds the memory a thread keeps after a pathological flight (the store holds one segment;
+/// the demos' longest takes under 200 steps).
+const SCRATCH_MAX_STEPS: usize = 4_096;
+
+thread_local! {
+    static SCRATCH: std::cell::RefCell<Scratch> = std::cell::RefCell::new(Scratch::default());
+}
+
+impl Scratch {
+    /// The thread's buffers (empty ones if another flight on this thread holds them, or while
+    /// the thread shuts down).
+    fn take() -> Scratch {
+        SCRATCH
+            .try_with(|s| s.try_borrow_mut().map(|mut s| std::mem::take(&mut *s)).ok())
+            .ok()
+            .flatten()
+            .unwrap_or_default()
+    }
+
+    /// Leaves the buffers for the thread's next flight.
+    fn give_back(self) {
+        if self.dense.capacity() > SCRATCH_MAX_STEPS {
+            return;
+        }
+        let _ = SCRATCH.try_with(|s| {
+            if let Ok(mut s) = s.try_borrow_mut() {
+                *s = self;
+            }
+        });
     }
 }
 
@@ -364,6 +392,26 @@ struct Flyer<'a> {
     next_record_s: f64,
     /// The integration recorder, reused by every segment.
     watch: Watch,
+    /// The integrator's continuous extension, reused by every segment.
+    dense: DenseOutput,
+    /// Maxima found whose snapshots are not taken yet ([`MAX_Q`], [`MAX_ACCEL`], [`MAX_Q_ALPHA`]).
+    found: [Option<Found>; 3],
+}
+
+/// Index of max-Q in [`Flyer::found`].
+const MAX_Q: usize = 0;
+/// Index of the maximum axial acceleration in [`Flyer::found`].
+const MAX_ACCEL: usize = 1;
+/// Index of the maximum q·α in [`Flyer::found`].
+const MAX_Q_ALPHA: usize = 2;
+
+/// A maximum found on a segment, described (its snapshot taken) later.
+#[derive(Debug, Clone, Copy)]
+struct Found {
+    value: f64,
+    t_s: f64,
+    y: State,
+    mode: Mode,
 }
 
 /// Flies the problem's program and returns the trajectory summary.
@@ -390,6 +438,7 @@ fn initial_state(p: &Problem, opts: &FlyOptions) -> (f64, State) {
 
 impl<'a> Flyer<'a> {
     fn new(p: &'a Problem, opts: FlyOptions) -> Self {
+        let mut scratch = Scratch::take();
         let (t, y) = initial_state(p, &opts);
         let boosters = p.vehicle.boosters.is_some();
         let booster_mass = p
@@ -447,7 +496,9 @@ impl<'a> Flyer<'a> {
             arc_done: false,
             ended: None,
             next_record_s: t,
-            watch: Watch::default(),
+            watch: std::mem::take(&mut scratch.watch),
+            dense: std::mem::take(&mut scratch.dense),
+            found: [None; 3],
         }
     }
 
@@ -539,6 +590,7 @@ impl<'a> Flyer<'a> {
         let v = Vector3::new(self.y[3], self.y[4], self.y[5]);
         let loc = self.p.environment.local(self.t, &r, &v);
         let state = self.guidance_input();
+        self.describe_maxima();
         self.law = law.start(&ArcStart {
             arc: i,
             t_s: self.t,
@@ -772,8 +824,6 @@ impl<'a> Flyer<'a> {
         let (q0, a0, qa0) = q_and_accel_of(&f0, self.y[ix::M], loc0);
         w.samples.push((self.t, q0, a0, qa0));
         w.last = None;
-        w.prev_rhs_t = f64::NAN;
-        let watch = RefCell::new(w);
         let ig = self.p.integrator;
         // One absolute tolerance serves every state component; for the mass (kg) it would be
         // relatively looser the lighter the vehicle, and a vehicle scaled down ×1e-4 would fly
@@ -781,23 +831,25 @@ impl<'a> Flyer<'a> {
         // tolerance shrinks with the mass, so any vehicle is integrated to the same relative
         // accuracy (heavier ones, all demos included, are unchanged).
         let atol = ig.atol * (self.p.vehicle.liftoff_mass_kg() / ATOL_MASS_REF_KG).min(1.0);
-        let sys = Sys {
+        let mut dense = std::mem::take(&mut self.dense);
+        let mut sys = Sys {
             p: &self.m,
             law,
             mode: self.mode,
             evs,
-            watch: &watch,
+            watch: &mut w,
         };
-        let mut solver = Dopri5::new(sys, self.t, t_end, 1.0, self.y, ig.rtol, atol);
-        let mut com = ContinuousOutputModel::default();
-        let result = solver.integrate_with_continuous_output_model(&mut com);
-        let (t_last, y_last) = match (solver.x_out().last(), solver.y_out().last()) {
-            (Some(t), Some(y)) => (*t, *y),
-            _ => (self.t, self.y),
+        let result =
+            stepper::integrate(&mut sys, self.t, t_end, &self.y, ig.rtol, atol, &mut dense);
+        self.watch = w;
+        let (stats, end) = match result {
+            Ok(r) => r,
+            Err(e) => {
+                self.dense = dense;
+                return Err(self.integration_message(&e.to_string()));
+            }
         };
-        drop(solver);
-        self.watch = watch.into_inner();
-        let stats = result.map_err(|e| self.integration_message(&e.to_string()))?;
+        let (t_last, y_last) = end.unwrap_or((self.t, self.y));
         self.out.stats.rhs_evals += u64::from(stats.num_eval);
         self.out.stats.accepted_steps += u64::from(stats.accepted_steps);
         self.out.stats.rejected_steps += u64::from(stats.rejected_steps);
@@ -811,15 +863,16 @@ impl<'a> Flyer<'a> {
             .map(|(e, _)| {
                 (
                     *e,
-                    events::locate(&self.m, &self.mode, law, e, &com, t_prev, t_last),
+                    events::locate(&self.m, &self.mode, law, e, &dense, t_prev, t_last),
                 )
             })
             .min_by(|a, b| a.1.total_cmp(&b.1));
         let (t_stop, y_stop) = match stop {
-            Some((_, t)) => (t, com.evaluate(t).unwrap_or(y_last)),
+            Some((_, t)) => (t, dense.evaluate(t).unwrap_or(y_last)),
             None => (t_last, y_last),
         };
-        self.track(&com, t_stop, &y_stop);
+        self.track(&dense, t_stop, &y_stop);
+        self.dense = dense;
         self.t = t_stop;
         self.y = y_stop;
         Ok(stop.map(|s| s.0))
@@ -840,7 +893,7 @@ impl<'a> Flyer<'a> {
     /// Max-Q, max acceleration and the time history over the segment just integrated, which
     /// stopped at (`t_stop`, `y_stop`). The samples at the step ends come from the integrator's
     /// own end-of-step evaluations; only the stop and the refinement evaluate anew.
-    fn track(&mut self, com: &ContinuousOutputModel<f64, State>, t_stop: f64, y_stop: &State) {
+    fn track(&mut self, com: &DenseOutput, t_stop: f64, y_stop: &State) {
         let (p, mode, law) = (&self.m, self.mode, self.law.as_ref());
         let w = &mut self.watch;
         let kept = w.samples.partition_point(|s| s.0 < t_stop);
@@ -858,55 +911,63 @@ impl<'a> Flyer<'a> {
         } else {
             0
         };
-        let best_q = self.out.max_q.map_or(f64::NEG_INFINITY, |m| m.value);
+        let best_q = self.best_value(MAX_Q).unwrap_or(f64::NEG_INFINITY);
         let best_part = self.out.max_q_by_bucket_pa[part];
-        if w.samples.iter().any(|s| s.1 > best_part) {
-            let q = refine_max(
-                &w.samples,
-                |s| s.1,
-                |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.0),
-            );
-            if let Some((v, t)) = q.filter(|(v, _)| *v > best_part) {
-                self.out.max_q_by_bucket_pa[part] = v;
-                if v > best_q {
-                    self.out.max_q = com.evaluate(t).map(|y| Extremum {
-                        value: v,
-                        at: snapshot(p, &mode, law, t, &y),
-                    });
-                }
+        let best_a = self.best_value(MAX_ACCEL).unwrap_or(f64::NEG_INFINITY);
+        let best_qa = self.best_value(MAX_Q_ALPHA).unwrap_or(0.0);
+        let w = &self.watch;
+        let q = w
+            .samples
+            .iter()
+            .any(|s| s.1 > best_part)
+            .then(|| {
+                refine_max(
+                    &w.samples,
+                    |s| s.1,
+                    |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.0),
+                )
+            })
+            .flatten()
+            .filter(|(v, _)| *v > best_part);
+        let a = w
+            .samples
+            .iter()
+            .any(|s| s.2 > best_a)
+            .then(|| {
+                refine_max(
+                    &w.samples,
+                    |s| s.2,
+                    |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.1),
+                )
+            })
+            .flatten()
+            .filter(|(v, _)| *v > best_a);
+        let m = w
+            .samples
+            .iter()
+            .any(|s| s.3 > best_qa)
+            .then(|| {
+                refine_max(
+                    &w.samples,
+                    |s| s.3,
+                    |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.2),
+                )
+            })
+            .flatten()
+            .filter(|(v, _)| *v > best_qa);
+        if let Some((v, t)) = q {
+            self.out.max_q_by_bucket_pa[part] = v;
+            if v > best_q {
+                self.found(MAX_Q, v, t, com);
             }
         }
-        let best_a = self
-            .out
-            .max_axial_accel
-            .map_or(f64::NEG_INFINITY, |m| m.value);
-        if w.samples.iter().any(|s| s.2 > best_a) {
-            let a = refine_max(
-                &w.samples,
-                |s| s.2,
-                |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.1),
-            );
-            if let Some((v, t)) = a.filter(|(v, _)| *v > best_a) {
-                self.out.max_axial_accel = com.evaluate(t).map(|y| Extremum {
-                    value: v,
-                    at: snapshot(p, &mode, law, t, &y),
-                });
-            }
+        if let Some((v, t)) = a {
+            self.found(MAX_ACCEL, v, t, com);
         }
-        let best_qa = self.out.max_q_alpha.map_or(0.0, |m| m.value);
-        if w.samples.iter().any(|s| s.3 > best_qa) {
-            let m = refine_max(
-                &w.samples,
-                |s| s.3,
-                |t| qa(t).map_or(f64::NEG_INFINITY, |s| s.2),
-            );
-            if let Some((v, t)) = m.filter(|(v, _)| *v > best_qa) {
-                self.out.max_q_alpha = com.evaluate(t).map(|y| Extremum {
-                    value: v,
-                    at: snapshot(p, &mode, law, t, &y),
-                });
-            }
+        if let Some((v, t)) = m {
+            self.found(MAX_Q_ALPHA, v, t, com);
         }
+        let (p, law) = (&self.m, self.law.as_ref());
         if let Some(dt) = self.opts.record_step_s {
             while self.next_record_s < t_stop {
                 if let Some(y) = com.evaluate(self.next_record_s) {
@@ -915,6 +976,62 @@ impl<'a> Flyer<'a> {
                         .push(snapshot(p, &mode, law, self.next_record_s, &y));
                 }
                 self.next_record_s += dt;
+            }
+        }
+    }
+
+    /// The running maximum of tracked quantity `i` ([`MAX_Q`], [`MAX_ACCEL`], [`MAX_Q_ALPHA`]).
+    fn best_value(&self, i: usize) -> Option<f64> {
+        match &self.found[i] {
+            Some(f) => Some(f.value),
+            None => self.extremum(i).map(|m| m.value),
+        }
+    }
+
+    fn extremum(&self, i: usize) -> Option<Extremum> {
+        match i {
+            MAX_Q => self.out.max_q,
+            MAX_ACCEL => self.out.max_axial_accel,
+            _ => self.out.max_q_alpha,
+        }
+    }
+
+    fn extremum_mut(&mut self, i: usize) -> &mut Option<Extremum> {
+        match i {
+            MAX_Q => &mut self.out.max_q,
+            MAX_ACCEL => &mut self.out.max_axial_accel,
+            _ => &mut self.out.max_q_alpha,
+        }
+    }
+
+    /// A new maximum `value` of quantity `i` at `t_s` on the segment's dense output `com`; its
+    /// snapshot waits for [`Flyer::describe_maxima`].
+    fn found(&mut self, i: usize, value: f64, t_s: f64, com: &DenseOutput) {
+        match com.evaluate(t_s) {
+            Some(y) => {
+                self.found[i] = Some(Found {
+                    value,
+                    t_s,
+                    y,
+                    mode: self.mode,
+                })
+            }
+            None => {
+                self.found[i] = None;
+                *self.extremum_mut(i) = None;
+            }
+        }
+    }
+
+    /// Takes the snapshots of the maxima found since the last call. Called before the active law
+    /// changes (a new arc's law, a guidance cycle) and at the end, so that each snapshot sees the
+    /// law that flew it: one snapshot per maximum and arc instead of one per segment that raised
+    /// it (each costs about as much as a few dozen right-hand sides).
+    fn describe_maxima(&mut self) {
+        for i in [MAX_Q, MAX_ACCEL, MAX_Q_ALPHA] {
+            if let Some(f) = self.found[i].take() {
+                let at = snapshot(&self.m, &f.mode, self.law.as_ref(), f.t_s, &f.y);
+                *self.extremum_mut(i) = Some(Extremum { value: f.value, at });
             }
         }
     }
@@ -1027,6 +1144,7 @@ impl<'a> Flyer<'a> {
     /// A guidance cycle: the closed-loop law re-solves from the current state.
     fn guidance_cycle(&mut self) {
         let now = self.guidance_input();
+        self.describe_maxima();
         self.law.update(&now);
         self.flags.next_guidance_s = self.law.guidance_period_s().map(|dt| self.t + dt);
     }
@@ -1125,6 +1243,12 @@ impl<'a> Flyer<'a> {
     }
 
     fn finish(mut self) -> Flight {
+        self.describe_maxima();
+        Scratch {
+            watch: std::mem::take(&mut self.watch),
+            dense: std::mem::take(&mut self.dense),
+        }
+        .give_back();
         self.out.end = self.ended.take().unwrap_or(EndReason::Completed);
         self.out.t1_s = self.t;
         self.out.y1 = self.y;

@@ -2,9 +2,10 @@
 //! segment, stopping exactly at every event (staging, booster separation, jettison, throttle-limit
 //! onset, the kick's phases, the α = 0 hand-over, cutoff), and restarting after it.
 //!
-//! Integrator: Dormand–Prince 5(4) (`ode_solvers::Dopri5`, Hairer, Nørsett & Wanner, *Solving ODEs
-//! I*, §II.5) with the problem's `rtol`/`atol`. Dop853 is not used: in ode_solvers 0.6.2 it
-//! mis-evaluates time-dependent right-hand sides (its stage-12 node is wrong; docs/method.md). Nothing is ever integrated
+//! Integrator: Dormand–Prince 5(4) (Hairer, Nørsett & Wanner, *Solving ODEs I*, §II.5) with the
+//! problem's `rtol`/`atol`, in `stepper`: `ode_solvers` 0.6.2's `Dopri5` arithmetic without its
+//! allocations. Dop853 is not used: in ode_solvers 0.6.2 it mis-evaluates time-dependent
+//! right-hand sides (its stage-12 node is wrong; docs/method.md). Nothing is ever integrated
 //! across a discontinuity: each segment ends at the next event (time events exactly, state events by
 //! root-finding on the dense output) and the next segment restarts from the located state.
 //!
@@ -17,6 +18,7 @@ pub mod dynamics;
 pub mod events;
 mod flight;
 mod record;
+mod stepper;
 
 pub use flight::{
     fly, ArcKind, ArcRecord, EndReason, EventKind, EventRecord, Extremum, Flight, FlyOptions,

@@ -1,0 +1,84 @@
+//! Criterion benchmark: one ascent of each bundled demo with the settings that are candidates for
+//! new defaults (issue 11; docs/method.md §7), measured beside `benches/fly.rs`: integrator
+//! `model.rtol` 1e-9 instead of 1e-11, `aero.cd_interpolation: "monotone_cubic"` on every drag
+//! table instead of linear, and both. Run with `cargo bench --bench fly_candidates` (about a
+//! minute); `-- rtol9` and the like pick one variant.
+
+use std::hint::black_box;
+use std::path::Path;
+
+use criterion::{criterion_group, criterion_main, Criterion};
+use kickturn::problem::Problem;
+use kickturn::sim::{fly, FlyOptions};
+use serde_json::{json, Value};
+
+const DEMOS: [&str; 3] = [
+    "small-3stage-sso500",
+    "medium-2stage-leo200",
+    "heavy-boosters-leo300",
+];
+
+/// Sets the integrator's relative tolerance to 1e-9.
+fn rtol9(doc: &mut Value) {
+    if !doc["model"].is_object() {
+        doc["model"] = json!({});
+    }
+    doc["model"]["rtol"] = json!(1e-9);
+}
+
+/// Interpolates every drag table (stages and boosters) by the monotone cubic.
+fn cubic(doc: &mut Value) {
+    let vehicle = &mut doc["vehicle"];
+    if let Some(stages) = vehicle["stages"].as_array_mut() {
+        for s in stages.iter_mut().filter(|s| s["aero"].is_object()) {
+            s["aero"]["cd_interpolation"] = json!("monotone_cubic");
+        }
+    }
+    if vehicle["boosters"]["aero"].is_object() {
+        vehicle["boosters"]["aero"]["cd_interpolation"] = json!("monotone_cubic");
+    }
+}
+
+/// Both of the above.
+fn both(doc: &mut Value) {
+    rtol9(doc);
+    cubic(doc);
+}
+
+/// A named change of a problem document.
+type Variant = (&'static str, fn(&mut Value));
+
+fn bench_candidates(c: &mut Criterion) {
+    let variants: [Variant; 3] = [("rtol9", rtol9), ("cubic", cubic), ("both", both)];
+    let mut group = c.benchmark_group("fly_candidates");
+    for (tag, change) in variants {
+        for name in DEMOS {
+            let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+                .join("problems")
+                .join(format!("{name}.json"));
+            let text = std::fs::read_to_string(&path).unwrap_or_default();
+            let mut doc: Value = match serde_json::from_str(&text) {
+                Ok(d) => d,
+                Err(e) => panic!("demo problem {name} is not JSON: {e}"),
+            };
+            change(&mut doc);
+            let problem = match Problem::from_json(&doc.to_string()) {
+                Ok(p) => p,
+                Err(e) => panic!("demo problem {name} ({tag}) does not load: {e}"),
+            };
+            let opts = FlyOptions::default();
+            group.bench_function(format!("{tag}/{name}"), |b| {
+                b.iter(|| fly(black_box(&problem), &opts))
+            });
+        }
+    }
+    group.finish();
+}
+
+// Criterion's own HTML charts need system fonts that this crate's plotters build leaves out.
+criterion_group! {
+    name = benches;
+    config = Criterion::default().without_plots();
+    targets = bench_candidates
+}
+criterion_main!(benches);
