@@ -754,7 +754,14 @@ pub fn trade_figures(r: &TradeReport) -> Result<Vec<FigureFile>, PlotError> {
     let labels: Vec<String> = r
         .factors
         .iter()
-        .map(|f| format!("{} (+{})", trade_bar_name(f), crate::app::show(f.step)))
+        .map(|f| {
+            format!(
+                "{} (+{} {})",
+                trade_bar_name(f),
+                crate::app::show(f.step),
+                f.step_unit
+            )
+        })
         .collect();
     let bars: Vec<(&str, f64)> = r
         .factors

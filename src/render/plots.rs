@@ -931,7 +931,7 @@ impl Figure for WaterfallFigure<'_> {
         let slot = (plot_size(&body, false).0 / n as i32).max(8);
         // Bar names wrap onto up to five lines; where slots are narrow they are set smaller
         // (down to 13 px), then given a sixth and a seventh line, before any name is cut (a
-        // trade of 15 factors: "Azalea second stage vacuum thrust (+0.9)" needs six).
+        // trade of 15 factors: "Azalea second stage vacuum thrust (+0.9 kN)" needs six).
         let wrap_all = |(px, lines): (u32, usize)| -> Vec<Vec<String>> {
             self.bars
                 .iter()
@@ -2090,23 +2090,23 @@ mod tests {
     #[test]
     fn fifteen_trade_bars_keep_their_names_whole() {
         // The small demo's trade: 15 bars in 1200 px; the longest names need six lines at the
-        // smallest size (they were cut with "…" at five).
+        // smallest size (they were cut with "…" at five); the steps carry their units.
         let names = [
-            "Azalea first stage dry mass (+20)",
-            "Azalea first stage propellant (+200)",
-            "Azalea first stage vacuum Isp (+1)",
-            "Azalea first stage vacuum thrust (+4.2)",
-            "Azalea second stage dry mass (+6)",
-            "Azalea second stage propellant (+45)",
-            "Azalea second stage vacuum Isp (+1)",
+            "Azalea first stage dry mass (+20 kg)",
+            "Azalea first stage propellant (+200 kg)",
+            "Azalea first stage vacuum Isp (+1 s)",
+            "Azalea first stage vacuum thrust (+4.2 kN)",
+            "Azalea second stage dry mass (+6 kg)",
+            "Azalea second stage propellant (+45 kg)",
+            "Azalea second stage vacuum Isp (+1 s)",
             "Azalea second stage vacuum thrust (+0.9)",
-            "Azalea kick stage dry mass (+2.5)",
-            "Azalea kick stage propellant (+8)",
-            "Azalea kick stage vacuum Isp (+1)",
-            "Azalea kick stage vacuum thrust (+0.12)",
-            "drag coefficient (+5)",
-            "payload fairing mass (+1.2)",
-            "last-stage reserve (+1)",
+            "Azalea kick stage dry mass (+2.5 kg)",
+            "Azalea kick stage propellant (+8 kg)",
+            "Azalea kick stage vacuum Isp (+1 s)",
+            "Azalea kick stage vacuum thrust (+0.12 kN)",
+            "drag coefficient (+5 % of C_D)",
+            "payload fairing mass (+1.2 kg)",
+            "last-stage reserve (+1 kg)",
         ];
         let bars: Vec<(&str, f64)> = names
             .iter()
@@ -2116,7 +2116,9 @@ mod tests {
         let paths = bar_chart("trade", "Trade", "margin change [kg]", &bars, true).expect("bars");
         let svg = svg_text(&paths);
         assert!(!svg.contains('…'), "a bar name was cut");
-        assert!(svg.contains("(+0.9)") && svg.contains("coefficient"));
+        // The step and its unit may fall on two lines of the wrapped name.
+        assert!(svg.contains("(+0.9") && svg.contains("kN)") && svg.contains("coefficient"));
+        assert!(svg.contains("C_D)"), "the unit of the C_D step");
     }
 
     #[test]
