@@ -825,87 +825,78 @@ impl<'a> Sqp<'a> {
         back: Option<&Derivs>,
         fit_on: &[usize],
     ) -> (DVector<f64>, Option<DVector<f64>>) {
-        let n = self.x.len();
+        let (lam, active) = self.fitted_multipliers(d, fit_on);
+        let m = self.v.eq.len() + active.len();
+        let lam = lam.unwrap_or_else(|| DVector::zeros(m));
+        let r = &d.g + self.constraint_rows(d, &active).transpose() * &lam;
+        let rb = back.map(|b| &b.g + self.constraint_rows(b, &active).transpose() * &lam);
+        (r, rb)
+    }
+
+    /// The equality rows then the inequality rows `active` of `d`'s Jacobians.
+    fn constraint_rows(&self, d: &Derivs, active: &[usize]) -> DMatrix<f64> {
         let me = self.v.eq.len();
+        let mut a = DMatrix::zeros(me + active.len(), self.x.len());
+        for i in 0..me {
+            a.set_row(i, &d.je.row(i));
+        }
+        for (k, &i) in active.iter().enumerate() {
+            a.set_row(me + k, &d.ji.row(i));
+        }
+        a
+    }
+
+    /// Least-squares multipliers `∇f + J_Eᵀλ + J_Aᵀν ≈ 0` over the variables `fit_on`, with
+    /// the active inequalities (a negative `ν` drops its row), and the rows kept active. `None`
+    /// when there is nothing to fit or the fit fails.
+    fn fitted_multipliers(
+        &self,
+        d: &Derivs,
+        fit_on: &[usize],
+    ) -> (Option<DVector<f64>>, Vec<usize>) {
         let mut active: Vec<usize> = (0..self.v.ineq.len())
             .filter(|&i| self.v.ineq[i] >= -self.s.tol_feas && d.ji.row(i).amax() > 0.0)
             .collect();
-        let rows = |dd: &Derivs, active: &[usize]| {
-            let mut a = DMatrix::zeros(me + active.len(), n);
-            for i in 0..me {
-                a.set_row(i, &dd.je.row(i));
-            }
-            for (k, &i) in active.iter().enumerate() {
-                a.set_row(me + k, &dd.ji.row(i));
-            }
-            a
-        };
         loop {
-            let a = rows(d, &active);
+            let a = self.constraint_rows(d, &active);
             let m = a.nrows();
-            let lam = if m == 0 || fit_on.is_empty() {
-                DVector::zeros(m)
-            } else {
-                let at = DMatrix::from_fn(fit_on.len(), m, |r, c| a[(c, fit_on[r])]);
-                let rhs = DVector::from_fn(fit_on.len(), |r, _| -d.g[fit_on[r]]);
-                at.svd(true, true)
-                    .solve(&rhs, 1e-12)
-                    .unwrap_or_else(|_| DVector::zeros(m))
+            if m == 0 || fit_on.is_empty() {
+                return (None, active);
+            }
+            let at = DMatrix::from_fn(fit_on.len(), m, |r, c| a[(c, fit_on[r])]);
+            let rhs = DVector::from_fn(fit_on.len(), |r, _| -d.g[fit_on[r]]);
+            let Ok(lam) = at.svd(true, true).solve(&rhs, 1e-12) else {
+                return (None, active);
             };
+            let me = self.v.eq.len();
             if let Some(k) = (0..active.len()).find(|k| lam[me + k] < 0.0) {
                 active.remove(k);
                 continue;
             }
-            let r = &d.g + a.transpose() * &lam;
-            let rb = back.map(|b| &b.g + rows(b, &active).transpose() * &lam);
-            return (r, rb);
+            return (Some(lam), active);
         }
     }
 
-    /// Least-squares multipliers of the equalities and the active inequalities at the current
-    /// point (`∇f + J_Eᵀλ + J_Aᵀν ≈ 0` over the variables off their bounds; a negative `ν`
-    /// drops its row), stored as the run's multipliers.
+    /// Least-squares multipliers at the current point over the variables off their bounds
+    /// ([`Self::fitted_multipliers`]), stored as the run's multipliers.
     fn fit_multipliers(&mut self, d: &Derivs) {
-        let n = self.x.len();
         let me = self.v.eq.len();
         if d.je.nrows() != me || d.ji.nrows() != self.v.ineq.len() {
             return;
         }
-        let free: Vec<usize> = (0..n)
+        let free: Vec<usize> = (0..self.x.len())
             .filter(|&j| {
                 let tol = BOUND_TOL * (1.0 + self.x[j].abs());
                 self.x[j] - self.lo[j] > tol && self.hi[j] - self.x[j] > tol
             })
             .collect();
-        let mut active: Vec<usize> = (0..self.v.ineq.len())
-            .filter(|&i| self.v.ineq[i] >= -self.s.tol_feas && d.ji.row(i).amax() > 0.0)
-            .collect();
-        loop {
-            let m = me + active.len();
-            if m == 0 || free.is_empty() {
-                return;
-            }
-            let a = DMatrix::from_fn(free.len(), m, |r, c| {
-                if c < me {
-                    d.je[(c, free[r])]
-                } else {
-                    d.ji[(active[c - me], free[r])]
-                }
-            });
-            let rhs = DVector::from_fn(free.len(), |r, _| -d.g[free[r]]);
-            let Ok(lam) = a.svd(true, true).solve(&rhs, 1e-12) else {
-                return;
-            };
-            if let Some(k) = (0..active.len()).find(|k| lam[me + k] < 0.0) {
-                active.remove(k);
-                continue;
-            }
-            self.lam_eq = lam.iter().take(me).copied().collect();
-            self.lam_in = vec![0.0; self.v.ineq.len()];
-            for (k, &i) in active.iter().enumerate() {
-                self.lam_in[i] = lam[me + k];
-            }
+        let (Some(lam), active) = self.fitted_multipliers(d, &free) else {
             return;
+        };
+        self.lam_eq = lam.iter().take(me).copied().collect();
+        self.lam_in = vec![0.0; self.v.ineq.len()];
+        for (k, &i) in active.iter().enumerate() {
+            self.lam_in[i] = lam[me + k];
         }
     }
 
