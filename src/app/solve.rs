@@ -292,11 +292,28 @@ fn active_constraints(
     p: &Problem,
     r: &FlightReport,
     accel_limited: bool,
+    accel_peak_t_s: Option<f64>,
     held: &[crate::core::optimize::ActiveConstraint],
 ) -> Vec<String> {
     let mut v = Vec::new();
-    if accel_limited {
-        v.push("max_axial_accel_g: the throttle holds the limit".to_string());
+    // The throttle holds the acceleration limit to integrator precision; a stage that cannot
+    // throttle low enough (its `min_throttle`) exceeds it whatever the pitch program does.
+    let accel_over = r
+        .max_axial_accel_limit_g
+        .filter(|l| r.max_axial_accel_g > l * (1.0 + 1e-6));
+    match accel_over {
+        Some(l) => v.push(format!(
+            "max_axial_accel_g: EXCEEDED ({:.2} g0 > {:.2} g0 at T+{:.1} s): the stage burning \
+             then cannot throttle low enough (its min_throttle), and no pitch program changes \
+             thrust over mass",
+            r.max_axial_accel_g,
+            l,
+            accel_peak_t_s.unwrap_or(f64::NAN)
+        )),
+        None if accel_limited => {
+            v.push("max_axial_accel_g: the throttle holds the limit".to_string())
+        }
+        None => {}
     }
     let solved = matches!(r.status, Status::Orbit) && r.target_deviation.is_some_and(|d| d.met);
     // A limit is reported held only when the flight keeps it: never "held" beside "EXCEEDED".
@@ -605,7 +622,13 @@ fn report(
         reserves: res,
         margin_kg: margin,
         margin_mps,
-        active_constraints: active_constraints(flown, &report, accel_limited, &sol.active),
+        active_constraints: active_constraints(
+            flown,
+            &report,
+            accel_limited,
+            flight.max_axial_accel.map(|m| m.at.t_s),
+            &sol.active,
+        ),
         constraint_costs: sol.active.clone(),
         refinement: None,
         sensitivities: sol.sensitivities.clone(),

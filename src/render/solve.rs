@@ -71,12 +71,38 @@ pub fn summary(r: &SolveReport) -> String {
     let mut s = String::new();
     let c = &r.convergence;
     let met = r.flight.reached_orbit() && r.flight.target_deviation.is_some_and(|d| d.met);
-    if met {
+    // The target met by a program that breaks a limit (the least max-Q a program reaching
+    // the target can fly is above the limit): the cause first, no margin.
+    let limit_broken = met && c.status == SolveStatus::Infeasible && r.failure_cause.is_some();
+    if limit_broken {
+        let _ = writeln!(
+            s,
+            "NOT SOLVED: {}. The best program's flight reaches the target only beyond that limit, \
+             so it has no margin; propellant used {:.1} kg, left {:.1} kg, payload {:.1} kg",
+            r.failure_cause.as_deref().unwrap_or_default(),
+            r.propellant_used_kg,
+            r.propellant_remaining_kg,
+            r.payload_kg
+        );
+    } else if met {
+        // A limit no program can hold (a stage that cannot throttle low enough for the
+        // acceleration limit) stands beside the verdict, not only in the list below.
+        let over = r
+            .active_constraints
+            .iter()
+            .filter(|a| a.contains("EXCEEDED"))
+            .filter_map(|a| a.split(':').next())
+            .collect::<Vec<_>>();
+        let verdict = if over.is_empty() {
+            status_line(c).to_string()
+        } else {
+            format!("{} (limit exceeded: {})", status_line(c), over.join(", "))
+        };
         let _ = writeln!(
             s,
             "{}: propellant used {:.1} kg, left {:.1} kg, reserves {:.1} kg, margin {:.1} kg \
              ({:.1} m/s), payload {:.1} kg",
-            status_line(c),
+            verdict,
             r.propellant_used_kg,
             r.propellant_remaining_kg,
             r.reserves.total_kg(),

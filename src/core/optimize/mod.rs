@@ -585,7 +585,7 @@ pub fn tune_observed(
         t0: Instant::now(),
         obs,
     };
-    let mut s = solve_timed(p, o, &run, true)?;
+    let mut s = solve_timed(p, o, &run)?;
     s.convergence.wall_s = run.t0.elapsed().as_secs_f64();
     Ok(s)
 }
@@ -596,14 +596,9 @@ struct Run<'a> {
     obs: &'a dyn Observer,
 }
 
-/// `kinks`: the free pass pins the kinks where a jettison meets an ignition (see
-/// [`targeting::switch_count`]); a solve whose held max-Q pass then fails is run again without.
-fn solve_timed(
-    p: &Problem,
-    o: &SolveOptions,
-    run: &Run,
-    kinks: bool,
-) -> Result<Solution, SolveError> {
+/// Both passes (free, then a held max-Q limit) pin the kinks where a jettison meets an ignition
+/// (see [`targeting::switch_count`]).
+fn solve_timed(p: &Problem, o: &SolveOptions, run: &Run) -> Result<Solution, SolveError> {
     let target = p.target.ok_or(SolveError::NoTarget)?;
     let base = prepare(p, o.objective);
     let (mut inner, outer) = choose_vars(&base, &target, o)?;
@@ -617,7 +612,7 @@ fn solve_timed(
         inner: inner.clone(),
         outer: outer.clone(),
         q_limit: None,
-        kinks,
+        kinks: true,
     };
     let mut free = run_pass(spec, o, run);
     if o.objective == Objective::MaxPayload && p.reserves.fpr_fraction_dv > 0.0 {
@@ -644,12 +639,11 @@ fn solve_timed(
     }
     let mut inner_q = inner;
     inner_q.push(Param::BucketThrottle);
-    // The trajectory budget is for the whole solve: later passes get what is left.
-    // Where the bucket splits the q history into two humps, max-Q has a kink at the held
-    // optimum (both humps at the limit): the SQP method's final test looks again at the
-    // resolution of its failed trial steps there, and the nested search (which holds max-Q =
-    // limit as an inner Newton condition) takes over where it still cannot verify an optimum.
-    // (A max-Q constraint per hump would make it smooth: not built.)
+    // The trajectory budget is for the whole solve: later passes get what is left. The held
+    // pass holds one max-Q row per part of the bucket's timeline (`nlp::Ascent::q_rows`: each
+    // part's peak is smooth where the overall one has a kink) and starts from a program under
+    // the limit found by its phase 1 (`nlp::restore`), or stops there with the least peak any
+    // program reaching the target flies as the evidence that the limit cannot be held.
     let held = SolveOptions {
         method: o.method,
         scan: false,
@@ -666,7 +660,7 @@ fn solve_timed(
             inner: inner_q,
             outer,
             q_limit: Some(q_lim),
-            kinks: false,
+            kinks: true,
         },
         &held,
         run,
@@ -685,28 +679,6 @@ fn solve_timed(
     if inert {
         sol.problem.program.bucket = None;
         sol.variables.retain(|(v, _)| *v != Param::BucketThrottle);
-    }
-    // The held pass starts from the free optimum, and a start a few tenths of a kilogram away
-    // decides whether it converges (the T/W 1.2 vehicle at 35 kPa: from the optimum pinned on
-    // the fairing/ignition kink the SQP pass ends infeasible; from the unpinned one, which
-    // the search reaches by crawling along the kink, it converges). Until the held pass is made
-    // robust to its start, a failed one is tried again from the unpinned free optimum.
-    if kinks && sol.convergence.status != SolveStatus::Converged {
-        let again = SolveOptions {
-            max_trajectories: o
-                .max_trajectories
-                .saturating_sub(sol.convergence.trajectories),
-            ..o.clone()
-        };
-        let spent = (sol.convergence.trajectories, sol.convergence.iterations);
-        let mut other = solve_timed(p, &again, run, false)?;
-        other.convergence.trajectories += spent.0;
-        other.convergence.iterations += spent.1;
-        if other.convergence.status == SolveStatus::Converged {
-            return Ok(other);
-        }
-        sol.convergence.trajectories = other.convergence.trajectories;
-        sol.convergence.iterations = other.convergence.iterations;
     }
     let cost = sol.eval.propellant_used_kg - free.eval.propellant_used_kg;
     sol.active.push(ActiveConstraint {
@@ -858,7 +830,23 @@ fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
     ctx.obs
         .diagnostic(&|| format!("{} starts, {scanned} trajectories", starts.len()));
     let prog = nlp::Ascent::new(&ctx);
-    let found = nlp::search(&prog, starts, o);
+    // A held limit: its pass starts from the free optimum, over the limit; phase 1 first finds
+    // a program under it (see `nlp::Restore`), or the evidence that none reaches the target.
+    let restored = match starts.len() {
+        1 if ctx.spec.q_limit.is_some() => {
+            let mut starts = starts;
+            match nlp::restore(&prog, starts.remove(0)) {
+                nlp::Restored::Start(s) => Ok(vec![s]),
+                nlp::Restored::OutOfReach(found) => Err(*found),
+            }
+        }
+        _ => Ok(starts),
+    };
+    let out_of_reach = restored.is_err();
+    let found = match restored {
+        Ok(starts) => nlp::search(&prog, starts, o),
+        Err(found) => found,
+    };
     ctx.obs.diagnostic(&|| {
         format!(
             "search: {:?} after {} iterations, {} evaluations",
@@ -883,6 +871,15 @@ fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
         Vec::new()
     };
     let mut sol = finish_found(&ctx, found);
+    if out_of_reach {
+        sol.convergence.reason = format!(
+            "held-limit phase 1: the least max-Q over programs that reach the target is \
+             stationary at {:.2} kPa, above the {:.2} kPa limit ({} iterations)",
+            sol.eval.max_q_pa / 1e3,
+            ctx.spec.q_limit.unwrap_or(f64::NAN) / 1e3,
+            sol.convergence.iterations
+        );
+    }
     if sol.convergence.status == SolveStatus::Converged {
         sol.sensitivities = sens;
         sol.convergence.trajectories = ctx.flights.load(Ordering::Relaxed);

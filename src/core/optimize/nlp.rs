@@ -259,6 +259,7 @@ fn settings(budget: usize) -> Settings {
         auto_scale: true,
         // 1e-7 of the liftoff mass (0.03 kg on a 330 t vehicle): the model promises less.
         tol_gain: 1e-4,
+        stop_at_f: f64::NEG_INFINITY,
     }
 }
 
@@ -360,4 +361,187 @@ fn better(a: &Found, b: &Found) -> bool {
         return ka < kb;
     }
     rank(&a.outcome.values, &b.outcome.values) != std::cmp::Ordering::Greater
+}
+
+/// Phase 1 of a held max-Q limit (feasibility restoration): the least peak dynamic pressure
+/// over programs that meet the terminal conditions, in epigraph form (Nocedal & Wright 2006,
+/// §18.3 on restoration phases and §15.3 on the epigraph of a max; from memory):
+///
+/// ```text
+/// minimize s  subject to  c_E(x) = 0,  (q_i(x) − q_limit)/1 kPa − s ≤ 0,  the other c_I(x) ≤ 0
+/// ```
+///
+/// started at the free optimum (which meets `c_E` and sets `s` to its excess), and stopped at the
+/// first program whose peak is [`RESTORED_BELOW_KPA`] below the limit. The held pass then starts
+/// from a feasible program instead of one several kPa over the limit: from there its merit
+/// function weighs the objective from the first step, where from the free optimum the first
+/// subproblem met a multiplier of 10³ on the terminal conditions, swung the azimuth and the
+/// upper stage's heading 16° apart and ended infeasible (medium demo, first stage that cannot
+/// throttle, 35 kPa). When phase 1 is stationary above the limit, that peak is the evidence of
+/// infeasibility reported.
+struct Restore<'p, 'a> {
+    prog: &'p Ascent<'a>,
+    /// Evaluations already flown, by variable vector (the difference column of `s` and the
+    /// points of the last line search are not flown twice).
+    flown: std::sync::Mutex<Vec<(Vec<f64>, Eval)>>,
+}
+
+/// Phase 1 stops this far below the limit, kPa (a start strictly inside the held pass's
+/// feasible set).
+const RESTORED_BELOW_KPA: f64 = 0.05;
+
+/// Constraint tolerance of phase 1 (scaled residuals): its end point is a start, not an answer.
+const RESTORE_TOL: f64 = 1e-4;
+
+/// Phase 1 stationary this far above the limit, kPa, is the evidence that the limit cannot be
+/// held with the target (10 Pa: far above the noise of the peak, 1e-6 kPa).
+const OUT_OF_REACH_KPA: f64 = 0.01;
+
+impl Restore<'_, '_> {
+    fn eval(&self, x: &[f64]) -> Eval {
+        let known = self.flown.lock().ok().and_then(|f| {
+            f.iter()
+                .rev()
+                .find(|(y, _)| y.as_slice() == x)
+                .map(|(_, e)| e.clone())
+        });
+        if let Some(e) = known {
+            return e;
+        }
+        let e = self.prog.eval(x);
+        if let Ok(mut f) = self.flown.lock() {
+            if f.len() >= 64 {
+                f.remove(0);
+            }
+            f.push((x.to_vec(), e.clone()));
+        }
+        e
+    }
+
+    /// The phase-1 values of a held pass's values `v`: the highest q row as the objective.
+    fn values(&self, v: Values) -> Values {
+        let rows = self.prog.q_rows();
+        Values {
+            f: v.ineq[..rows]
+                .iter()
+                .copied()
+                .fold(f64::NEG_INFINITY, f64::max),
+            eq: v.eq,
+            ineq: v.ineq[rows..].to_vec(),
+            switch: v.switch,
+        }
+    }
+}
+
+impl Program for Restore<'_, '_> {
+    fn dim(&self) -> usize {
+        self.prog.dim()
+    }
+
+    fn bounds(&self) -> (Vec<f64>, Vec<f64>) {
+        self.prog.bounds()
+    }
+
+    fn evaluate(&self, xs: &[Vec<f64>]) -> Vec<Values> {
+        xs.par_iter()
+            .map(|x| {
+                if self.prog.ctx.past_deadline() {
+                    return Values {
+                        f: f64::NAN,
+                        eq: Vec::new(),
+                        ineq: Vec::new(),
+                        switch: Vec::new(),
+                    };
+                }
+                self.values(self.prog.values(&self.eval(x)))
+            })
+            .collect()
+    }
+
+    fn trace(&self, line: &dyn Fn() -> String) {
+        self.prog
+            .ctx
+            .obs
+            .diagnostic(&|| format!("restore: {}", line()));
+    }
+}
+
+/// What phase 1 of a held limit found.
+pub enum Restored {
+    /// A program that meets the terminal conditions below the limit (or the start, already
+    /// there): the held pass starts from it.
+    Start(Start),
+    /// The least peak is above the limit at a stationary point of phase 1: the limit cannot be
+    /// held with the target (locally); the result to report.
+    OutOfReach(Box<Found>),
+}
+
+/// Phase 1 of a held max-Q limit from `start` (see [`Restore`]); `start` is returned unchanged
+/// when it already holds the limit or when the pass holds none.
+pub fn restore(prog: &Ascent, start: Start) -> Restored {
+    let rows = prog.q_rows();
+    let v0 = prog.values(&start.eval);
+    let excess = v0.ineq[..rows]
+        .iter()
+        .copied()
+        .fold(f64::NEG_INFINITY, f64::max);
+    if rows == 0 || excess.is_nan() || excess <= 0.0 || v0.eq.iter().any(|c| !c.is_finite()) {
+        return Restored::Start(start);
+    }
+    let left = prog.ctx.flights_left();
+    if left <= 2 * (prog.dim() + 2) {
+        return Restored::Start(start);
+    }
+    let phase1 = Restore {
+        prog,
+        flown: std::sync::Mutex::new(vec![(prog.program_x(&start.x), start.eval.clone())]),
+    };
+    let x0 = prog.program_x(&start.x);
+    let s = Settings {
+        stop_at_f: -RESTORED_BELOW_KPA,
+        // A start for the held pass, which restores the last 1e-4 itself.
+        tol_feas: RESTORE_TOL,
+        ..settings(left)
+    };
+    let out = sqp::solve(&phase1, &x0, &s);
+    let x = out.x.clone();
+    let eval = phase1.eval(&x);
+    let level = out.values.f;
+    let feasible = out.values.max_violation() <= RESTORE_TOL;
+    prog.ctx.obs.diagnostic(&|| {
+        format!(
+            "restore: {:?} at {level:.4} kPa over the limit (from {excess:.4}), violation {:.1e}",
+            out.status,
+            out.values.max_violation()
+        )
+    });
+    // No improving step at a peak above the limit: a stationary point of the peak over the
+    // programs that reach the target (Converged), or one the final two-sided test could not
+    // call stationary but where no step helps (Stalled).
+    let stationary = matches!(out.status, Status::Converged | Status::Stalled);
+    if feasible && level > OUT_OF_REACH_KPA && stationary {
+        let values = prog.values(&eval);
+        return Restored::OutOfReach(Box::new(Found {
+            x: prog.to_pass(&x),
+            eval,
+            outcome: sqp::Outcome {
+                values,
+                status: Status::Infeasible,
+                x: x.clone(),
+                ..out
+            },
+            starts_tried: 1,
+        }));
+    }
+    // Any program meeting the terminal conditions with a lower peak is a better start than the
+    // free optimum, even when phase 1 stopped short (iteration or evaluation limit).
+    let better = feasible && level < excess;
+    Restored::Start(if better {
+        Start {
+            x: prog.to_pass(&x),
+            eval,
+        }
+    } else {
+        start
+    })
 }

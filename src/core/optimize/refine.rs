@@ -320,6 +320,7 @@ pub fn refine(shot: &Problem, o: &RefineOptions) -> Result<Refined, SolveError> 
         max_step: 1.0,
         auto_scale: true,
         tol_gain: 1e-4,
+        stop_at_f: f64::NEG_INFINITY,
     };
     let out = sqp::solve(&prog, &x0, &settings);
     let eval = prog.eval(&out.x);

@@ -122,6 +122,9 @@ pub struct Settings {
     /// tried and rejected: right after a quasi-Newton reset it promised nothing at points 0.4 kg
     /// from the optimum.)
     pub tol_gain: f64,
+    /// Stop, as converged, at the first feasible iterate whose objective is at or below this
+    /// (default −∞: never). Phase 1 of a restoration needs a feasible point, not the optimum.
+    pub stop_at_f: f64,
 }
 
 impl Default for Settings {
@@ -136,6 +139,7 @@ impl Default for Settings {
             max_step: 1.0,
             auto_scale: false,
             tol_gain: 1e-10,
+            stop_at_f: f64::NEG_INFINITY,
         }
     }
 }
@@ -442,7 +446,7 @@ impl<'a> Sqp<'a> {
                     }
                 }
             }
-            if feasible && stationarity <= self.s.tol_opt {
+            if feasible && (stationarity <= self.s.tol_opt || self.v.f <= self.s.stop_at_f) {
                 status = Status::Converged;
                 break;
             }
