@@ -996,3 +996,42 @@ fn a_q_alpha_limit_is_reported_and_held_by_the_refinement() {
         "gap {gap} kg against {free_gap} kg unlimited"
     );
 }
+
+#[test]
+fn a_scan_start_never_ends_below_the_file_program_in_the_payload_mode() {
+    // Medium demo, payload mode, 400 km circular at 28.5° (site 28.2° N). The kick scan's best
+    // start by constraint violation (a 14.6° kick) ended on a 43° kick with 6 587 kg; the file's
+    // own program (6.8°) on a 2° kick with 7 489 kg. A solve with the scan must never return
+    // less than the file's program alone (issue 9: "never worse than the base program").
+    let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
+        .unwrap_or_default();
+    let mut v: serde_json::Value = serde_json::from_str(&text).unwrap_or_default();
+    v["target"] = serde_json::json!({
+        "perigee_alt_km": 400.0, "apogee_alt_km": 400.0, "inclination_deg": 28.5
+    });
+    v["launch"]["inclination_deg"] = serde_json::json!(28.5);
+    let p = Problem::from_json(&v.to_string()).unwrap_or_else(|e| panic!("{e}"));
+    let payload = |scan: bool| {
+        let o = SolveOptions {
+            objective: kickturn::optimize::Objective::MaxPayload,
+            scan,
+            ..SolveOptions::default()
+        };
+        let s = tune(&p, &o).unwrap_or_else(|e| panic!("{e}"));
+        assert_eq!(
+            s.convergence.status,
+            SolveStatus::Converged,
+            "{:?}",
+            s.convergence
+        );
+        s.eval.payload_kg
+    };
+    let written = payload(false);
+    let scanned = payload(true);
+    assert!(
+        scanned >= written - 0.5,
+        "scan {scanned} kg, file's program {written} kg"
+    );
+    // Regression guard on the invented demo (not a physical check value): the 43° optimum.
+    assert!(scanned > 7_000.0, "{scanned} kg");
+}
