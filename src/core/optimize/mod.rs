@@ -837,11 +837,15 @@ fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
     let prog = nlp::Ascent::new(&ctx);
     // A held limit: its pass starts from the free optimum, over the limit; phase 1 first finds
     // a program under it (see `nlp::Restore`), or the evidence that none reaches the target.
+    let mut phase1_peak = None;
     let restored = match starts.len() {
         1 if ctx.spec.q_limit.is_some() => {
             let mut starts = starts;
             match nlp::restore(&prog, starts.remove(0)) {
-                nlp::Restored::Start(s) => Ok(vec![s]),
+                nlp::Restored::Start(s, level) => {
+                    phase1_peak = level;
+                    Ok(vec![s])
+                }
                 nlp::Restored::OutOfReach(found) => Err(*found),
             }
         }
@@ -876,6 +880,15 @@ fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
         Vec::new()
     };
     let mut sol = finish_found(&ctx, found);
+    if let Some(over) = phase1_peak.filter(|l| *l > 0.0) {
+        if sol.convergence.status == SolveStatus::Infeasible {
+            sol.convergence.reason = format!(
+                "held-limit phase 1 stalled {over:.2} kPa over the limit (the least peak it found \
+                 over programs that reach the target); from there {}",
+                sol.convergence.reason
+            );
+        }
+    }
     if out_of_reach {
         sol.convergence.reason = format!(
             "held-limit phase 1: the least max-Q over programs that reach the target is \
@@ -1061,7 +1074,9 @@ fn finish_found(ctx: &Ctx, found: nlp::Found) -> Solution {
 fn describe(o: &sqp::Outcome, starts: usize) -> String {
     let how = match o.status {
         sqp::Status::Converged => "optimality and feasibility conditions met",
-        sqp::Status::Infeasible => "the terminal conditions cannot be met from the best start",
+        sqp::Status::Infeasible => {
+            "the constraints (terminal conditions, held limits) cannot be met from the best start"
+        }
         sqp::Status::Stalled => "no further improving step found",
         sqp::Status::IterationLimit => "iteration limit",
         sqp::Status::EvaluationLimit => "trajectory budget spent",

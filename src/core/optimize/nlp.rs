@@ -500,9 +500,10 @@ impl Program for Restore<'_, '_> {
 
 /// What phase 1 of a held limit found.
 pub enum Restored {
-    /// A program that meets the terminal conditions below the limit (or the start, already
-    /// there): the held pass starts from it.
-    Start(Start),
+    /// The held pass's start: a program that meets the terminal conditions below the limit,
+    /// or the lowest peak phase 1 reached (its excess over the limit, kPa, beside it), or the
+    /// start itself (already under the limit, or no better point found).
+    Start(Start, Option<f64>),
     /// The least peak is above the limit at a stationary point of phase 1: the limit cannot be
     /// held with the target (locally); the result to report.
     OutOfReach(Box<Found>),
@@ -518,11 +519,11 @@ pub fn restore(prog: &Ascent, start: Start) -> Restored {
         .copied()
         .fold(f64::NEG_INFINITY, f64::max);
     if rows == 0 || excess.is_nan() || excess <= 0.0 || v0.eq.iter().any(|c| !c.is_finite()) {
-        return Restored::Start(start);
+        return Restored::Start(start, None);
     }
     let left = prog.ctx.flights_left();
     if left <= 2 * (prog.dim() + 2) {
-        return Restored::Start(start);
+        return Restored::Start(start, None);
     }
     let phase1 = Restore {
         prog,
@@ -547,11 +548,10 @@ pub fn restore(prog: &Ascent, start: Start) -> Restored {
             out.values.max_violation()
         )
     });
-    // No improving step at a peak above the limit: a stationary point of the peak over the
-    // programs that reach the target (Converged), or one the final two-sided test could not
-    // call stationary but where no step helps (Stalled).
-    let stationary = matches!(out.status, Status::Converged | Status::Stalled);
-    if feasible && level > OUT_OF_REACH_KPA && stationary {
+    // A stationary point of the peak over the programs that reach the target, above the limit.
+    // Phase 1 stalled there (no improving step, but the two-sided test did not pass) is weaker
+    // evidence: the held pass starts from that point and decides.
+    if feasible && level > OUT_OF_REACH_KPA && out.status == Status::Converged {
         let values = prog.values(&eval);
         return Restored::OutOfReach(Box::new(Found {
             x: prog.to_pass(&x),
@@ -567,13 +567,15 @@ pub fn restore(prog: &Ascent, start: Start) -> Restored {
     }
     // Any program meeting the terminal conditions with a lower peak is a better start than the
     // free optimum, even when phase 1 stopped short (iteration or evaluation limit).
-    let better = feasible && level < excess;
-    Restored::Start(if better {
-        Start {
-            x: prog.to_pass(&x),
-            eval,
-        }
+    if feasible && level < excess {
+        Restored::Start(
+            Start {
+                x: prog.to_pass(&x),
+                eval,
+            },
+            Some(level),
+        )
     } else {
-        start
-    })
+        Restored::Start(start, None)
+    }
 }
