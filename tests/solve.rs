@@ -366,7 +366,7 @@ fn a_max_q_limit_that_cannot_be_held_is_named_as_the_cause() {
     // The evidence is the least peak over programs that reach the target (phase 1 of the held
     // pass, stationary above the limit): between the limit and the unconstrained optimum's
     // 35.6 kPa, flown by a program that meets the target, found within a fixed trajectory
-    // budget (1 441 trajectories before phase 1; 807 with it).
+    // budget (1 441 trajectories before phase 1; 864 with it).
     let q = r["max_dynamic_pressure_pa"].as_f64().unwrap_or(f64::NAN);
     assert!(q > 30_000.0 && q < 35_000.0, "least peak {q} Pa");
     assert_eq!(
