@@ -1003,37 +1003,40 @@ fn a_scan_start_never_ends_below_the_file_program_in_the_payload_mode() {
     // start by constraint violation (a 14.6° kick) ended on a 43° kick with 6 587 kg; the file's
     // own program (6.8°) on a 2° kick with 7 489 kg. A solve with the scan must never return
     // less than the file's program alone (issue 9: "never worse than the base program").
-    let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
-        .unwrap_or_default();
-    let mut v: serde_json::Value = serde_json::from_str(&text).unwrap_or_default();
-    v["target"] = serde_json::json!({
-        "perigee_alt_km": 400.0, "apogee_alt_km": 400.0, "inclination_deg": 28.5
-    });
-    v["launch"]["inclination_deg"] = serde_json::json!(28.5);
-    let p = Problem::from_json(&v.to_string()).unwrap_or_else(|e| panic!("{e}"));
-    let payload = |scan: bool| {
-        let o = SolveOptions {
-            objective: kickturn::optimize::Objective::MaxPayload,
-            scan,
-            ..SolveOptions::default()
-        };
-        let s = tune(&p, &o).unwrap_or_else(|e| panic!("{e}"));
-        assert_eq!(
-            s.convergence.status,
-            SolveStatus::Converged,
-            "{:?}",
-            s.convergence
-        );
-        s.eval.payload_kg
-    };
-    let written = payload(false);
-    let scanned = payload(true);
+    let written = medium_payload(400.0, 28.5, false);
+    let scanned = medium_payload(400.0, 28.5, true);
     assert!(
         scanned >= written - 0.5,
         "scan {scanned} kg, file's program {written} kg"
     );
     // Regression guard on the invented demo (not a physical check value): the 43° optimum.
     assert!(scanned > 7_000.0, "{scanned} kg");
+}
+
+/// The medium demo's largest payload, kg, to a circular orbit at `alt_km` and `inc_deg`
+/// (the solve must converge); `scan`: the kick scan beside the file's program.
+fn medium_payload(alt_km: f64, inc_deg: f64, scan: bool) -> f64 {
+    let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
+        .unwrap_or_default();
+    let mut v: serde_json::Value = serde_json::from_str(&text).unwrap_or_default();
+    v["target"] = serde_json::json!({
+        "perigee_alt_km": alt_km, "apogee_alt_km": alt_km, "inclination_deg": inc_deg
+    });
+    v["launch"]["inclination_deg"] = serde_json::json!(inc_deg);
+    let p = Problem::from_json(&v.to_string()).unwrap_or_else(|e| panic!("{e}"));
+    let o = SolveOptions {
+        objective: kickturn::optimize::Objective::MaxPayload,
+        scan,
+        ..SolveOptions::default()
+    };
+    let s = tune(&p, &o).unwrap_or_else(|e| panic!("{e}"));
+    assert_eq!(
+        s.convergence.status,
+        SolveStatus::Converged,
+        "{:?}",
+        s.convergence
+    );
+    s.eval.payload_kg
 }
 
 #[test]
@@ -1043,28 +1046,7 @@ fn a_higher_orbit_carries_less_and_a_lower_inclination_more_in_the_payload_mode(
     // medium demo at 600 km ended on the SQP iteration limit and then on a 40° kick with
     // 1 101 kg at 28.5° against 3 966 kg at 51.6°; continuation in the target altitude from
     // 200 km now reaches 4 299 kg.
-    let text = std::fs::read_to_string(root().join("problems/medium-2stage-leo200.json"))
-        .unwrap_or_default();
-    let payload = |alt_km: f64, inc_deg: f64| {
-        let mut v: serde_json::Value = serde_json::from_str(&text).unwrap_or_default();
-        v["target"] = serde_json::json!({
-            "perigee_alt_km": alt_km, "apogee_alt_km": alt_km, "inclination_deg": inc_deg
-        });
-        v["launch"]["inclination_deg"] = serde_json::json!(inc_deg);
-        let p = Problem::from_json(&v.to_string()).unwrap_or_else(|e| panic!("{e}"));
-        let o = SolveOptions {
-            objective: kickturn::optimize::Objective::MaxPayload,
-            ..SolveOptions::default()
-        };
-        let s = tune(&p, &o).unwrap_or_else(|e| panic!("{e}"));
-        assert_eq!(
-            s.convergence.status,
-            SolveStatus::Converged,
-            "{:?}",
-            s.convergence
-        );
-        s.eval.payload_kg
-    };
+    let payload = |alt_km, inc_deg| medium_payload(alt_km, inc_deg, true);
     let (low, high, steep) = (
         payload(400.0, 28.5),
         payload(600.0, 28.5),
