@@ -389,3 +389,24 @@ fn a_flight_resumed_from_a_checkpoint_is_the_flight_from_the_pad_bit_for_bit() {
         );
     }
 }
+
+#[test]
+fn a_checkpoint_of_another_problem_shape_flies_from_the_pad() {
+    use kickturn::sim::{fly_from, fly_recording, ResumeAt};
+    // Source: the checkpoint's contract (kickturn::sim::fly_from): a problem of another shape
+    // than the recorded one is flown from the pad rather than from a state it cannot have.
+    let (medium, arcs) = tabulated(&demo("medium-2stage-leo200.json"), 6);
+    let at = [ResumeAt {
+        arc: arcs[arcs.len() - 1],
+        t_s: f64::INFINITY,
+    }];
+    let (_, cps) = fly_recording(&medium, &FlyOptions::default(), &at);
+    let Some(cp) = &cps[0] else {
+        panic!("no checkpoint on the medium demo's last burn");
+    };
+    let small = demo("small-3stage-sso500.json");
+    assert_eq!(
+        format!("{:?}", fly_from(&small, cp)),
+        format!("{:?}", fly(&small, &FlyOptions::default()))
+    );
+}

@@ -503,6 +503,28 @@ pub struct Checkpoint {
     found: [Option<Found>; 3],
     cursor: Cursor,
     law_start: LawStart,
+    shape: Shape,
+}
+
+/// What a problem must share with the one a checkpoint was taken on for the checkpoint's
+/// indices to mean the same things: arcs, stages, jettisons, boosters.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+struct Shape {
+    arcs: usize,
+    stages: usize,
+    jettisons: usize,
+    boosters: bool,
+}
+
+impl Shape {
+    fn of(p: &Problem) -> Shape {
+        Shape {
+            arcs: p.program.arcs.len(),
+            stages: p.vehicle.stages.len(),
+            jettisons: p.vehicle.jettisons.len(),
+            boosters: p.vehicle.boosters.is_some(),
+        }
+    }
 }
 
 impl Checkpoint {
@@ -579,7 +601,8 @@ pub fn fly_recording(
 /// The result is bit for bit the flight of `p` from the pad ([`fly`]) when `p` flies exactly as
 /// `q` up to the checkpoint: the same problem except for the steering of the checkpoint's arc
 /// after its time (a table's nodes after it, say) and of later arcs. The caller answers for
-/// that; a `p` whose program has no burn where `q`'s law was started is flown from the pad.
+/// that; a `p` of another shape (arcs, stages, jettisons), or with no burn where `q`'s law was
+/// started, is flown from the pad.
 pub fn fly_from(p: &Problem, from: &Checkpoint) -> Flight {
     let mut f = Flyer::new(p, from.opts);
     if !f.restore(from) {
@@ -682,12 +705,18 @@ impl<'a> Flyer<'a> {
     }
 
     /// Takes up checkpoint `c`'s state, with this problem's law started on the checkpoint's arc
-    /// from the same inputs; false when this problem has no burn there.
+    /// from the same inputs; false when this problem has no burn there or another shape (arcs,
+    /// stages, jettisons) than the checkpoint's.
     fn restore(&mut self, c: &Checkpoint) -> bool {
         let ls = &c.law_start;
-        let Some(Arc::Burn { steering, .. }) = self.p.program.arcs.get(ls.arc) else {
+        let p = self.p;
+        let same_shape = c.shape == Shape::of(p);
+        let Some(Arc::Burn { steering, .. }) = p.program.arcs.get(ls.arc) else {
             return false;
         };
+        if !same_shape {
+            return false;
+        }
         self.law = steering.law().start(&ArcStart {
             arc: ls.arc,
             t_s: ls.t_s,
@@ -735,6 +764,7 @@ impl<'a> Flyer<'a> {
             found: self.found,
             cursor: self.cursor.clone(),
             law_start: self.law_start.clone()?,
+            shape: Shape::of(self.p),
         })
     }
 
