@@ -425,6 +425,9 @@ struct Flyer<'a> {
     law_start: Option<LawStart>,
     /// The checkpoints asked for ([`fly_recording`]).
     recorder: Option<Recorder>,
+    /// The latest time at which anything on the current arc has been computed so far: its
+    /// start, and the end time of every integration on it, s ([`ResumeAt`]).
+    horizon_s: f64,
 }
 
 /// The arc being flown and what its record needs at its end.
@@ -466,9 +469,11 @@ impl Clone for LawStart {
     }
 }
 
-/// Where a flight may be resumed ([`fly_recording`], [`fly_from`]): the point between two
-/// integrations of the flight that comes last among those on an earlier arc than `arc`, or on
-/// arc `arc` at a time ≤ `t_s`.
+/// Where a flight may be resumed ([`fly_recording`], [`fly_from`]): the last point between two
+/// integrations of the flight that lies on an earlier arc than `arc`, or on arc `arc` with
+/// nothing on that arc computed after `t_s` so far: the arc's start and every integration on
+/// it up to its end time (the next time event; every right-hand side of an integration is
+/// evaluated at or before that, even one stopped early by a state event).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ResumeAt {
     /// Index of the program's arc.
@@ -504,6 +509,7 @@ pub struct Checkpoint {
     cursor: Cursor,
     law_start: LawStart,
     shape: Shape,
+    horizon_s: f64,
 }
 
 /// What a problem must share with the one a checkpoint was taken on for the checkpoint's
@@ -599,9 +605,14 @@ pub fn fly_recording(
 /// Flies `p` from checkpoint `from` (taken by [`fly_recording`] on a problem `q`) to its end.
 ///
 /// The result is bit for bit the flight of `p` from the pad ([`fly`]) when `p` flies exactly as
-/// `q` up to the checkpoint: the same problem except for the steering of the checkpoint's arc
-/// after its time (a table's nodes after it, say) and of later arcs. The caller answers for
-/// that; a `p` of another shape (arcs, stages, jettisons), or with no burn where `q`'s law was
+/// `q` up to the checkpoint: the same problem except for the steering of later arcs and of the
+/// checkpoint's arc after the time asked for ([`ResumeAt::t_s`]; a table's nodes after it,
+/// say). The caller answers for that. (One caveat of round-off: an integration's last step
+/// `x + (t_end − x)` lands exactly on `t_end` whenever it starts at or after `t_end/2` (Sterbenz's
+/// lemma), which every step does unless one step spans more than half the time since t = 0;
+/// otherwise it may end an ulp past `t_end` and see the change there, a difference of order
+/// 1e-16 in the direction.) A `p` of
+/// another shape (arcs, stages, jettisons, boosters), or with no burn where `q`'s law was
 /// started, is flown from the pad.
 pub fn fly_from(p: &Problem, from: &Checkpoint) -> Flight {
     let mut f = Flyer::new(p, from.opts);
@@ -701,6 +712,7 @@ impl<'a> Flyer<'a> {
             },
             law_start: None,
             recorder: None,
+            horizon_s: t,
         }
     }
 
@@ -743,6 +755,7 @@ impl<'a> Flyer<'a> {
         self.next_record_s = c.next_record_s;
         self.found = c.found;
         self.cursor = c.cursor.clone();
+        self.horizon_s = c.horizon_s;
         true
     }
 
@@ -765,6 +778,7 @@ impl<'a> Flyer<'a> {
             cursor: self.cursor.clone(),
             law_start: self.law_start.clone()?,
             shape: Shape::of(self.p),
+            horizon_s: self.horizon_s,
         })
     }
 
@@ -777,7 +791,7 @@ impl<'a> Flyer<'a> {
         if rec.done < rec.order.len() {
             let here = ResumeAt {
                 arc: self.cursor.arc,
-                t_s: self.t,
+                t_s: self.horizon_s,
             };
             if let Some(c) = self.checkpoint() {
                 while let Some(&(at, i)) = rec.order.get(rec.done) {
@@ -835,6 +849,7 @@ impl<'a> Flyer<'a> {
     /// Starts the cursor's arc; false if the flight cannot continue.
     fn begin_arc(&mut self) -> bool {
         let arc_i = self.cursor.arc;
+        self.horizon_s = self.t;
         let c = &mut self.cursor;
         (c.t0_s, c.y0) = (self.t, self.y);
         (c.label, c.kind) = match &self.p.program.arcs[arc_i] {
@@ -1128,6 +1143,7 @@ impl<'a> Flyer<'a> {
         t_end: f64,
         loc0: &Local,
     ) -> Result<Option<StateEvent>, String> {
+        self.horizon_s = self.horizon_s.max(t_end);
         let law = self.law.as_ref();
         let mut w = std::mem::take(&mut self.watch);
         w.g_prev.clear();
