@@ -611,9 +611,8 @@ pub fn fly_recording(
 /// `x + (t_end − x)` lands exactly on `t_end` whenever it starts at or after `t_end/2` (Sterbenz's
 /// lemma), which every step does unless one step spans more than half the time since t = 0;
 /// otherwise it may end an ulp past `t_end` and see the change there, a difference of order
-/// 1e-16 in the direction.) A `p` of
-/// another shape (arcs, stages, jettisons, boosters), or with no burn where `q`'s law was
-/// started, is flown from the pad.
+/// 1e-16 in the direction.) A `p` of another shape (arcs, stages, jettisons, boosters), or with
+/// no burn where `q`'s law was started, is flown from the pad.
 pub fn fly_from(p: &Problem, from: &Checkpoint) -> Flight {
     let mut f = Flyer::new(p, from.opts);
     if !f.restore(from) {
@@ -717,18 +716,16 @@ impl<'a> Flyer<'a> {
     }
 
     /// Takes up checkpoint `c`'s state, with this problem's law started on the checkpoint's arc
-    /// from the same inputs; false when this problem has no burn there or another shape (arcs,
-    /// stages, jettisons) than the checkpoint's.
+    /// from the same inputs; false when this problem has another shape than the checkpoint's
+    /// ([`Shape`]) or no burn there.
     fn restore(&mut self, c: &Checkpoint) -> bool {
         let ls = &c.law_start;
-        let p = self.p;
-        let same_shape = c.shape == Shape::of(p);
-        let Some(Arc::Burn { steering, .. }) = p.program.arcs.get(ls.arc) else {
-            return false;
-        };
-        if !same_shape {
+        if c.shape != Shape::of(self.p) {
             return false;
         }
+        let Some(Arc::Burn { steering, .. }) = self.p.program.arcs.get(ls.arc) else {
+            return false;
+        };
         self.law = steering.law().start(&ArcStart {
             arc: ls.arc,
             t_s: ls.t_s,
@@ -759,9 +756,15 @@ impl<'a> Flyer<'a> {
         true
     }
 
+    /// The flight can be resumed from here: the law keeps no state of its own (no guidance
+    /// cycles) and its start is known.
+    fn resumable(&self) -> bool {
+        self.law.guidance_period_s().is_none() && self.law_start.is_some()
+    }
+
     /// The flight's state now, if it can be resumed from here (see [`fly_recording`]).
     fn checkpoint(&self) -> Option<Checkpoint> {
-        if self.law.guidance_period_s().is_some() {
+        if !self.resumable() {
             return None;
         }
         Some(Checkpoint {
@@ -788,22 +791,20 @@ impl<'a> Flyer<'a> {
         let Some(mut rec) = self.recorder.take() else {
             return;
         };
-        if rec.done < rec.order.len() {
+        if rec.done < rec.order.len() && self.resumable() {
             let here = ResumeAt {
                 arc: self.cursor.arc,
                 t_s: self.horizon_s,
             };
-            if let Some(c) = self.checkpoint() {
-                while let Some(&(at, i)) = rec.order.get(rec.done) {
-                    if at.cmp(&here).is_ge() {
-                        break;
-                    }
-                    rec.out[i].clone_from(&rec.last);
-                    rec.done += 1;
+            while let Some(&(at, i)) = rec.order.get(rec.done) {
+                if at.cmp(&here).is_ge() {
+                    break;
                 }
-                if rec.done < rec.order.len() {
-                    rec.last = Some(std::sync::Arc::new(c));
-                }
+                rec.out[i].clone_from(&rec.last);
+                rec.done += 1;
+            }
+            if rec.done < rec.order.len() {
+                rec.last = self.checkpoint().map(std::sync::Arc::new);
             }
         }
         self.recorder = Some(rec);
