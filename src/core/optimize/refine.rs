@@ -15,6 +15,10 @@
 //! vertical rise (held vertical on the first arc), coasts, the throttle bucket, the launch
 //! azimuth, the cutoff on the target energy. The start is the shooting optimum itself, sampled
 //! at the nodes, so the refined program is never worse than the one it starts from.
+//!
+//! A node moves the control only from the node before it on, so its finite-difference column
+//! is flown from a checkpoint of the current point's flight there ([`crate::core::sim::fly_from`],
+//! bit for bit the flight from the pad; `Refine::eval`): on average under half a flight each.
 
 use std::sync::{Arc as Shared, Mutex};
 
