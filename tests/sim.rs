@@ -258,3 +258,155 @@ fn a_pitch_over_given_by_its_duration_flies_as_the_same_rate() {
         "{neither}"
     );
 }
+
+/// `p` with every burn arc steered by an attitude table of `n` nodes spread over the arc as `p`
+/// flies it (pitch and heading sampled from its history), and each table's program arc index.
+fn tabulated(p: &Problem, n: usize) -> (Problem, Vec<usize>) {
+    use kickturn::steering::{Arc, AttitudeTable, PitchTable, Steering};
+    let f = kickturn::sim::fly(
+        p,
+        &FlyOptions {
+            record_step_s: Some(0.5),
+            initial: None,
+        },
+    );
+    let at = |t: f64| {
+        let i = f
+            .history
+            .partition_point(|s| s.t_s < t)
+            .min(f.history.len() - 1);
+        let s = &f.history[i];
+        (s.pitch_deg.to_radians(), s.heading_deg.to_radians())
+    };
+    let mut q = p.clone();
+    let mut arcs = Vec::new();
+    let flown = f
+        .arcs
+        .iter()
+        .filter(|a| a.kind == kickturn::sim::ArcKind::Burn);
+    let burns: Vec<usize> = (0..p.program.arcs.len())
+        .filter(|&i| matches!(p.program.arcs[i], Arc::Burn { .. }))
+        .collect();
+    for (i, rec) in burns.into_iter().zip(flown) {
+        let t_s: Vec<f64> = (0..n)
+            .map(|k| rec.t0_s + (rec.t1_s - rec.t0_s) * k as f64 / (n - 1) as f64)
+            .collect();
+        let (pitch_rad, heading_rad): (Vec<f64>, Vec<f64>) = t_s.iter().map(|t| at(*t)).unzip();
+        if let Arc::Burn { steering, .. } = &mut q.program.arcs[i] {
+            *steering = Steering::AttitudeTable(AttitudeTable {
+                pitch: PitchTable { t_s, pitch_rad },
+                heading_rad,
+            });
+        }
+        arcs.push(i);
+    }
+    (q, arcs)
+}
+
+/// `q` with node `k` of arc `arc`'s attitude table moved by `d` rad in pitch and heading.
+fn nudged(q: &Problem, arc: usize, k: usize, d: f64) -> Problem {
+    use kickturn::steering::{Arc, Steering};
+    let mut r = q.clone();
+    if let Arc::Burn {
+        steering: Steering::AttitudeTable(t),
+        ..
+    } = &mut r.program.arcs[arc]
+    {
+        t.pitch.pitch_rad[k] += d;
+        t.heading_rad[k] += d;
+    }
+    r
+}
+
+/// The node time before node `k` of arc `arc`'s table (−∞ for the first node).
+fn node_before(q: &Problem, arc: usize, k: usize) -> f64 {
+    use kickturn::steering::{Arc, Steering};
+    match &q.program.arcs[arc] {
+        Arc::Burn {
+            steering: Steering::AttitudeTable(t),
+            ..
+        } if k > 0 => t.pitch.t_s[k - 1],
+        _ => f64::NEG_INFINITY,
+    }
+}
+
+#[test]
+fn a_flight_resumed_from_a_checkpoint_is_the_flight_from_the_pad_bit_for_bit() {
+    use kickturn::sim::{fly_from, fly_recording, ResumeAt};
+    // Source: the checkpoint's contract (kickturn::sim::fly_from): a problem that flies as the
+    // recorded one up to the checkpoint continues from it exactly as from the pad. Debug text
+    // prints every f64 to its shortest round-trip form, so equal text is equal bits.
+    let n = 12;
+    for name in [
+        "small-3stage-sso500.json",
+        "medium-2stage-leo200.json",
+        "heavy-boosters-leo300.json",
+    ] {
+        let (q, arcs) = tabulated(&demo(name), n);
+        let cases: Vec<(usize, usize)> = arcs
+            .iter()
+            .flat_map(|&a| (0..n).map(move |k| (a, k)))
+            .collect();
+        let at: Vec<ResumeAt> = cases
+            .iter()
+            .map(|&(arc, k)| ResumeAt {
+                arc,
+                t_s: node_before(&q, arc, k),
+            })
+            .collect();
+        let (base, cps) = fly_recording(&q, &FlyOptions::default(), &at);
+        assert_eq!(
+            format!("{base:?}"),
+            format!("{:?}", fly(&q, &FlyOptions::default())),
+            "{name}: recording changed the flight"
+        );
+        let mut resumed = 0;
+        for (&(arc, k), cp) in cases.iter().zip(&cps) {
+            let r = nudged(&q, arc, k, 2e-3);
+            let want = format!("{:?}", fly(&r, &FlyOptions::default()));
+            let Some(cp) = cp else {
+                continue;
+            };
+            assert!(
+                cp.arc() < arc || cp.t_s() <= node_before(&q, arc, k),
+                "{name}: checkpoint at arc {} t {} for arc {arc} node {k}",
+                cp.arc(),
+                cp.t_s()
+            );
+            assert_eq!(
+                format!("{:?}", fly_from(&r, cp)),
+                want,
+                "{name}: arc {arc} node {k} resumed at t = {} s",
+                cp.t_s()
+            );
+            resumed += 1;
+        }
+        // Every node but the very first has a checkpoint before it.
+        assert!(
+            resumed + 1 >= cases.len(),
+            "{name}: {resumed} of {}",
+            cases.len()
+        );
+    }
+}
+
+#[test]
+fn a_checkpoint_of_another_problem_shape_flies_from_the_pad() {
+    use kickturn::sim::{fly_from, fly_recording, ResumeAt};
+    // Source: the checkpoint's contract (kickturn::sim::fly_from): a problem of another shape
+    // than the recorded one is flown from the pad rather than from a state it cannot have.
+    let (medium, arcs) = tabulated(&demo("medium-2stage-leo200.json"), 6);
+    let at = [ResumeAt {
+        arc: arcs[arcs.len() - 1],
+        t_s: f64::INFINITY,
+    }];
+    let (_, cps) = fly_recording(&medium, &FlyOptions::default(), &at);
+    let Some(cp) = &cps[0] else {
+        panic!("no checkpoint on the medium demo's last burn");
+    };
+    let small = demo("small-3stage-sso500.json");
+    assert_eq!(
+        format!("{:?}", fly_from(&small, cp)),
+        format!("{:?}", fly(&small, &FlyOptions::default()))
+    );
+}

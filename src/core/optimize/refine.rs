@@ -15,6 +15,12 @@
 //! vertical rise (held vertical on the first arc), coasts, the throttle bucket, the launch
 //! azimuth, the cutoff on the target energy. The start is the shooting optimum itself, sampled
 //! at the nodes, so the refined program is never worse than the one it starts from.
+//!
+//! A node moves the control only from the node before it on, so its finite-difference column
+//! is flown from a checkpoint of the current point's flight there ([`crate::core::sim::fly_from`],
+//! bit for bit the flight from the pad; `Refine::eval`): on average under half a flight each.
+
+use std::sync::{Arc as Shared, Mutex};
 
 use rayon::prelude::*;
 
@@ -22,7 +28,7 @@ use super::sqp::{self, Program, Settings, Status, Values};
 use super::targeting::{self, Eval, Q_SCALE_PA, SHORTFALL_WEIGHT};
 use super::{SolveError, SolveStatus};
 use crate::core::problem::{Problem, Target};
-use crate::core::sim::{fly, ArcKind, FlyOptions};
+use crate::core::sim::{fly, fly_from, fly_recording, ArcKind, Checkpoint, FlyOptions, ResumeAt};
 use crate::core::steering::{Arc, AttitudeTable, PitchTable, RiseEnd, Steering};
 
 /// Settings of a refinement.
@@ -89,6 +95,31 @@ struct Refine<'a> {
     unit_kg: f64,
     lo: Vec<f64>,
     hi: Vec<f64>,
+    /// The distinct points where a variable's control starts to differ, in flight order.
+    resume_at: Vec<ResumeAt>,
+    /// For each variable, its index in `resume_at`.
+    resume_of: Vec<usize>,
+    /// The latest points flown from the pad, newest first, with their checkpoints.
+    flown: Mutex<Vec<Flown>>,
+}
+
+/// A point flown from the pad and its checkpoints (one per entry of `Refine::resume_at`).
+struct Flown {
+    x: Vec<f64>,
+    checkpoints: Vec<Option<Shared<Checkpoint>>>,
+}
+
+/// Points kept with their checkpoints: the current iterate and the latest line-search trials.
+const FLOWN_KEPT: usize = 4;
+
+/// How to fly a point.
+enum Start {
+    /// From this checkpoint of a point that differs in at most one variable.
+    From(Shared<Checkpoint>),
+    /// From the pad, as a point that others will differ from (keeping its checkpoints).
+    Record,
+    /// From the pad.
+    Pad,
 }
 
 /// Objective unit as a fraction of the liftoff mass (as the shooting program's).
@@ -133,8 +164,56 @@ impl Refine<'_> {
         p
     }
 
+    /// Flies the node values `x` and evaluates them. A point that differs from a kept one in a
+    /// single variable (a finite-difference column) is flown from that point's checkpoint just
+    /// before the variable's node interval: the flight up to there is the same (see
+    /// `sim::fly_from`, bit for bit).
     fn eval(&self, x: &[f64]) -> Eval {
-        targeting::evaluate(&self.problem(x), &self.target, None, false)
+        let p = self.problem(x);
+        let opts = FlyOptions::default();
+        let f = match self.start(x) {
+            Start::From(c) => fly_from(&p, &c),
+            Start::Pad => fly(&p, &opts),
+            Start::Record => {
+                let (f, checkpoints) = fly_recording(&p, &opts, &self.resume_at);
+                let mut kept = self.flown.lock().unwrap_or_else(|e| e.into_inner());
+                kept.insert(
+                    0,
+                    Flown {
+                        x: x.to_vec(),
+                        checkpoints,
+                    },
+                );
+                kept.truncate(FLOWN_KEPT);
+                f
+            }
+        };
+        targeting::evaluate_flight(&p, &self.target, None, false, &f)
+    }
+
+    /// Where to start the flight of `x`: the kept point nearest to it (fewest variables that
+    /// differ, bit for bit) decides.
+    fn start(&self, x: &[f64]) -> Start {
+        let kept = self.flown.lock().unwrap_or_else(|e| e.into_inner());
+        let nearest = kept
+            .iter()
+            .map(|k| {
+                let mut differ = 0;
+                let mut first = self.resume_at.len().saturating_sub(1);
+                for (j, (a, b)) in x.iter().zip(&k.x).enumerate() {
+                    if a.to_bits() != b.to_bits() {
+                        differ += 1;
+                        first = first.min(self.resume_of[j]);
+                    }
+                }
+                (differ, k.checkpoints.get(first).cloned().flatten())
+            })
+            .min_by_key(|(differ, _)| *differ);
+        match nearest {
+            Some((d, Some(c))) if d <= 1 => Start::From(c),
+            Some((d, None)) if d <= 1 => Start::Pad,
+            _ => Start::Record,
+        }
     }
 
     fn values(&self, e: &Eval) -> Values {
@@ -282,6 +361,7 @@ pub fn refine(shot: &Problem, o: &RefineOptions) -> Result<Refined, SolveError> 
         });
     }
     let yaw = target.inclination_rad.is_some();
+    let (resume_at, resume_of) = resume_points(&arcs, yaw);
     let (mut x0, mut lo, mut hi) = (Vec::new(), Vec::new(), Vec::new());
     for a in &arcs {
         for p in &a.pitch0 {
@@ -309,6 +389,9 @@ pub fn refine(shot: &Problem, o: &RefineOptions) -> Result<Refined, SolveError> 
         unit_kg: OBJECTIVE_UNIT * shot.vehicle.liftoff_mass_kg(),
         lo,
         hi,
+        resume_at,
+        resume_of,
+        flown: Mutex::new(Vec::new()),
     };
     let settings = Settings {
         max_evaluations: o.max_trajectories,
@@ -354,4 +437,36 @@ pub fn refine(shot: &Problem, o: &RefineOptions) -> Result<Refined, SolveError> 
         nodes_per_arc: o.nodes_per_arc,
         variables: prog.dim(),
     })
+}
+
+/// Where each variable's control starts to differ (pitches of every arc, then headings when
+/// free, as the variables): a node moves the table on its arc from the node before it (linear
+/// interpolation; held before the first node, so a first node without a fixed one before it
+/// moves the arc from its start). Returns the distinct points in flight order and, for each
+/// variable, its index among them.
+fn resume_points(arcs: &[ArcNodes], yaw: bool) -> (Vec<ResumeAt>, Vec<usize>) {
+    let per_node: Vec<ResumeAt> = arcs
+        .iter()
+        .flat_map(|a| {
+            let before_first = a.fixed.last().map_or(f64::NEG_INFINITY, |f| f.0);
+            (0..a.t_s.len()).map(move |k| ResumeAt {
+                arc: a.arc,
+                t_s: if k == 0 { before_first } else { a.t_s[k - 1] },
+            })
+        })
+        .collect();
+    let order = |a: &ResumeAt, b: &ResumeAt| a.arc.cmp(&b.arc).then(a.t_s.total_cmp(&b.t_s));
+    let mut distinct = per_node.clone();
+    distinct.sort_by(order);
+    distinct.dedup_by(|a, b| order(a, b).is_eq());
+    let index = |r: &ResumeAt| {
+        distinct
+            .binary_search_by(|d| order(d, r))
+            .unwrap_or_default()
+    };
+    let mut of: Vec<usize> = per_node.iter().map(index).collect();
+    if yaw {
+        of.extend_from_within(..);
+    }
+    (distinct, of)
 }

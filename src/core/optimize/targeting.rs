@@ -168,8 +168,24 @@ pub fn residuals(p: &Problem, t: &Target, f: &Flight) -> (Vec<f64>, f64) {
 /// Flies `p` and evaluates it against its target; with `q_limit` (Pa) the maximum dynamic
 /// pressure is held at the limit as one more condition.
 pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>, energy_equality: bool) -> Eval {
-    let f = fly(p, &FlyOptions::default());
-    let (mut residuals, mut shortfall) = residuals(p, t, &f);
+    evaluate_flight(
+        p,
+        t,
+        q_limit,
+        energy_equality,
+        &fly(p, &FlyOptions::default()),
+    )
+}
+
+/// [`evaluate`] on flight `f` of `p` (flown without a history).
+pub fn evaluate_flight(
+    p: &Problem,
+    t: &Target,
+    q_limit: Option<f64>,
+    energy_equality: bool,
+    f: &Flight,
+) -> Eval {
+    let (mut residuals, mut shortfall) = residuals(p, t, f);
     if energy_equality && matches!(f.end, EndReason::Completed) {
         // Payload mode: the last burn runs to depletion and the payload is solved so that the
         // energy at depletion equals the target's (two-sided condition).
@@ -212,6 +228,6 @@ pub fn evaluate(p: &Problem, t: &Target, q_limit: Option<f64>, energy_equality: 
         max_q_alpha_pa_deg: f.max_q_alpha.map_or(0.0, |m| m.value),
         payload_kg: p.vehicle.payload_kg,
         payload_mode: energy_equality,
-        switches: switches(p, &f),
+        switches: switches(p, f),
     }
 }

@@ -237,6 +237,7 @@ enum TimeEvent {
 }
 
 /// Event bookkeeping carried through the flight.
+#[derive(Debug)]
 struct Flags {
     jettisoned: Vec<bool>,
     heating_armed: Vec<bool>,
@@ -248,6 +249,28 @@ struct Flags {
     last_law: Option<Box<dyn ActiveLaw>>,
     /// Time of the next guidance cycle of a closed-loop law, s.
     next_guidance_s: Option<f64>,
+}
+
+impl Clone for Flags {
+    /// A copy; the continuable law is copied through [`ActiveLaw::continuable`] (which is how
+    /// it was made: a continuable law's copy of itself).
+    fn clone(&self) -> Self {
+        Flags {
+            jettisoned: self.jettisoned.clone(),
+            heating_armed: self.heating_armed.clone(),
+            in_bucket: self.in_bucket,
+            bucket_done: self.bucket_done,
+            stage_spent: self.stage_spent,
+            arc_start_s: self.arc_start_s,
+            last_law: copy_law(self.last_law.as_deref()),
+            next_guidance_s: self.next_guidance_s,
+        }
+    }
+}
+
+/// A copy of a continuable law (`None` for none, or for a law that is not continuable).
+fn copy_law(law: Option<&dyn ActiveLaw>) -> Option<Box<dyn ActiveLaw>> {
+    law.and_then(|l| l.continuable())
 }
 
 /// ODE system handed to the integrator; watches state events and extrema after each accepted
@@ -396,6 +419,142 @@ struct Flyer<'a> {
     dense: DenseOutput,
     /// Maxima found whose snapshots are not taken yet ([`MAX_Q`], [`MAX_ACCEL`], [`MAX_Q_ALPHA`]).
     found: [Option<Found>; 3],
+    /// The arc being flown.
+    cursor: Cursor,
+    /// How the current law was started (kept only while recording checkpoints).
+    law_start: Option<LawStart>,
+    /// The checkpoints asked for ([`fly_recording`]).
+    recorder: Option<Recorder>,
+    /// The latest time at which anything on the current arc has been computed so far: its
+    /// start, and the end time of every integration on it, s ([`ResumeAt`]).
+    horizon_s: f64,
+}
+
+/// The arc being flown and what its record needs at its end.
+#[derive(Debug, Clone)]
+struct Cursor {
+    /// Index of the arc in the program.
+    arc: usize,
+    /// Burn and coast arcs started so far (for the labels).
+    burns: usize,
+    coasts: usize,
+    /// The arc's start time, s, and state.
+    t0_s: f64,
+    y0: State,
+    /// The arc's label and kind.
+    label: String,
+    kind: ArcKind,
+}
+
+/// What the current arc's law was started from ([`ArcStart`] without the problem's parts), so
+/// that a resumed flight can start its own problem's law on this arc exactly as a flight from
+/// the pad would have.
+#[derive(Debug)]
+struct LawStart {
+    arc: usize,
+    t_s: f64,
+    v_mps: Vector3<f64>,
+    loc: Local,
+    state: GuidanceInput,
+    /// The continuable law before this arc started (`ArcStart::previous`).
+    previous: Option<Box<dyn ActiveLaw>>,
+}
+
+impl Clone for LawStart {
+    fn clone(&self) -> Self {
+        LawStart {
+            previous: copy_law(self.previous.as_deref()),
+            ..*self
+        }
+    }
+}
+
+/// Where a flight may be resumed ([`fly_recording`], [`fly_from`]): the last point between two
+/// integrations of the flight that lies on an earlier arc than `arc`, or on arc `arc` with
+/// nothing on that arc computed after `t_s` so far: the arc's start and every integration on
+/// it up to its end time (the next time event; every right-hand side of an integration is
+/// evaluated at or before that, even one stopped early by a state event).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ResumeAt {
+    /// Index of the program's arc.
+    pub arc: usize,
+    /// Time, s (`f64::NEG_INFINITY`: before the arc starts).
+    pub t_s: f64,
+}
+
+impl ResumeAt {
+    fn cmp(&self, other: &ResumeAt) -> std::cmp::Ordering {
+        self.arc
+            .cmp(&other.arc)
+            .then(self.t_s.total_cmp(&other.t_s))
+    }
+}
+
+/// The complete state of a flight between two of its integrations: everything the rest of the
+/// flight depends on (time, state vector, mode, event flags, the events, arcs, maxima and work
+/// so far, maxima not yet described, the arc being flown and how its law was started). Made by
+/// [`fly_recording`], resumed by [`fly_from`].
+#[derive(Debug, Clone)]
+pub struct Checkpoint {
+    opts: FlyOptions,
+    t: f64,
+    y: State,
+    mode: Mode,
+    flags: Flags,
+    out: Flight,
+    arc_done: bool,
+    ended: Option<EndReason>,
+    next_record_s: f64,
+    found: [Option<Found>; 3],
+    cursor: Cursor,
+    law_start: LawStart,
+    shape: Shape,
+    horizon_s: f64,
+}
+
+/// What a problem must share with the one a checkpoint was taken on for the checkpoint's
+/// indices to mean the same things: arcs, stages, jettisons, boosters.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+struct Shape {
+    arcs: usize,
+    stages: usize,
+    jettisons: usize,
+    boosters: bool,
+}
+
+impl Shape {
+    fn of(p: &Problem) -> Shape {
+        Shape {
+            arcs: p.program.arcs.len(),
+            stages: p.vehicle.stages.len(),
+            jettisons: p.vehicle.jettisons.len(),
+            boosters: p.vehicle.boosters.is_some(),
+        }
+    }
+}
+
+impl Checkpoint {
+    /// Time of the checkpoint, s.
+    pub fn t_s(&self) -> f64 {
+        self.t
+    }
+
+    /// Index of the arc being flown at the checkpoint.
+    pub fn arc(&self) -> usize {
+        self.cursor.arc
+    }
+}
+
+/// The checkpoints a flight is asked for.
+struct Recorder {
+    /// The requests in increasing order, each with its index in `out`.
+    order: Vec<(ResumeAt, usize)>,
+    /// Requests answered (a prefix of `order`).
+    done: usize,
+    /// The latest checkpoint taken.
+    last: Option<std::sync::Arc<Checkpoint>>,
+    /// The answers, in the order asked.
+    out: Vec<Option<std::sync::Arc<Checkpoint>>>,
 }
 
 /// Index of max-Q in [`Flyer::found`].
@@ -417,8 +576,50 @@ struct Found {
 /// Flies the problem's program and returns the trajectory summary.
 pub fn fly(p: &Problem, opts: &FlyOptions) -> Flight {
     let mut f = Flyer::new(p, *opts);
-    f.run();
+    f.run(false);
+    f.finish().0
+}
+
+/// [`fly`], also returning a checkpoint for each of `at` ([`ResumeAt`]; `None` where the
+/// flight has no such point). A checkpoint is only taken between two integrations (where every
+/// flight restarts its integrator) and where the law flown keeps no state of its own (no
+/// guidance cycles), so that [`fly_from`] continues exactly as this flight did.
+pub fn fly_recording(
+    p: &Problem,
+    opts: &FlyOptions,
+    at: &[ResumeAt],
+) -> (Flight, Vec<Option<std::sync::Arc<Checkpoint>>>) {
+    let mut order: Vec<(ResumeAt, usize)> = at.iter().copied().zip(0..).collect();
+    order.sort_by(|a, b| a.0.cmp(&b.0));
+    let mut f = Flyer::new(p, *opts);
+    f.recorder = Some(Recorder {
+        order,
+        done: 0,
+        last: None,
+        out: vec![None; at.len()],
+    });
+    f.run(false);
     f.finish()
+}
+
+/// Flies `p` from checkpoint `from` (taken by [`fly_recording`] on a problem `q`) to its end.
+///
+/// The result is bit for bit the flight of `p` from the pad ([`fly`]) when `p` flies exactly as
+/// `q` up to the checkpoint: the same problem except for the steering of later arcs and of the
+/// checkpoint's arc after the time asked for ([`ResumeAt::t_s`]; a table's nodes after it,
+/// say). The caller answers for that. (One caveat of round-off: an integration's last step
+/// `x + (t_end − x)` lands exactly on `t_end` whenever it starts at or after `t_end/2` (Sterbenz's
+/// lemma), which every step does unless one step spans more than half the time since t = 0;
+/// otherwise it may end an ulp past `t_end` and see the change there, a difference of order
+/// 1e-16 in the direction.) A `p` of another shape (arcs, stages, jettisons, boosters), or with
+/// no burn where `q`'s law was started, is flown from the pad.
+pub fn fly_from(p: &Problem, from: &Checkpoint) -> Flight {
+    let mut f = Flyer::new(p, from.opts);
+    if !f.restore(from) {
+        return fly(p, &from.opts);
+    }
+    f.run(true);
+    f.finish().0
 }
 
 fn initial_state(p: &Problem, opts: &FlyOptions) -> (f64, State) {
@@ -499,7 +700,114 @@ impl<'a> Flyer<'a> {
             watch: std::mem::take(&mut scratch.watch),
             dense: std::mem::take(&mut scratch.dense),
             found: [None; 3],
+            cursor: Cursor {
+                arc: 0,
+                burns: 0,
+                coasts: 0,
+                t0_s: t,
+                y0: y,
+                label: String::new(),
+                kind: ArcKind::Burn,
+            },
+            law_start: None,
+            recorder: None,
+            horizon_s: t,
         }
+    }
+
+    /// Takes up checkpoint `c`'s state, with this problem's law started on the checkpoint's arc
+    /// from the same inputs; false when this problem has another shape than the checkpoint's
+    /// ([`Shape`]) or no burn there.
+    fn restore(&mut self, c: &Checkpoint) -> bool {
+        let ls = &c.law_start;
+        if c.shape != Shape::of(self.p) {
+            return false;
+        }
+        let Some(Arc::Burn { steering, .. }) = self.p.program.arcs.get(ls.arc) else {
+            return false;
+        };
+        self.law = steering.law().start(&ArcStart {
+            arc: ls.arc,
+            t_s: ls.t_s,
+            v_mps: ls.v_mps,
+            loc: &ls.loc,
+            azimuth_rad: self.p.azimuth_rad,
+            previous: ls.previous.as_deref(),
+            state: ls.state,
+            environment: &self.p.environment,
+            target: self.p.target.as_ref(),
+        });
+        self.t = c.t;
+        self.y = c.y;
+        self.mode = c.mode;
+        self.flags = c.flags.clone();
+        // As `start_law` left it: this law's copy, or the one before when it has none.
+        self.flags.last_law = self
+            .law
+            .continuable()
+            .or_else(|| copy_law(ls.previous.as_deref()));
+        self.out = c.out.clone();
+        self.arc_done = c.arc_done;
+        self.ended = c.ended.clone();
+        self.next_record_s = c.next_record_s;
+        self.found = c.found;
+        self.cursor = c.cursor.clone();
+        self.horizon_s = c.horizon_s;
+        true
+    }
+
+    /// The flight can be resumed from here: the law keeps no state of its own (no guidance
+    /// cycles) and its start is known.
+    fn resumable(&self) -> bool {
+        self.law.guidance_period_s().is_none() && self.law_start.is_some()
+    }
+
+    /// The flight's state now, if it can be resumed from here (see [`fly_recording`]).
+    fn checkpoint(&self) -> Option<Checkpoint> {
+        if !self.resumable() {
+            return None;
+        }
+        Some(Checkpoint {
+            opts: self.opts,
+            t: self.t,
+            y: self.y,
+            mode: self.mode,
+            flags: self.flags.clone(),
+            out: self.out.clone(),
+            arc_done: self.arc_done,
+            ended: self.ended.clone(),
+            next_record_s: self.next_record_s,
+            found: self.found,
+            cursor: self.cursor.clone(),
+            law_start: self.law_start.clone()?,
+            shape: Shape::of(self.p),
+            horizon_s: self.horizon_s,
+        })
+    }
+
+    /// Between two integrations: answers the requests that lie before this point with the
+    /// latest checkpoint, and takes a new one if requests remain.
+    fn at_boundary(&mut self) {
+        let Some(mut rec) = self.recorder.take() else {
+            return;
+        };
+        if rec.done < rec.order.len() && self.resumable() {
+            let here = ResumeAt {
+                arc: self.cursor.arc,
+                t_s: self.horizon_s,
+            };
+            while let Some(&(at, i)) = rec.order.get(rec.done) {
+                if at.cmp(&here).is_ge() {
+                    break;
+                }
+                rec.out[i].clone_from(&rec.last);
+                rec.done += 1;
+            }
+            if rec.done < rec.order.len() {
+                rec.last = self.checkpoint().map(std::sync::Arc::new);
+            }
+        }
+        self.recorder = Some(rec);
     }
 
     fn event(&mut self, kind: EventKind, label: impl Into<String>) {
@@ -511,48 +819,64 @@ impl<'a> Flyer<'a> {
         });
     }
 
-    fn run(&mut self) {
-        let (mut burns, mut coasts) = (0, 0);
-        for arc_i in 0..self.p.program.arcs.len() {
-            let (t0, y0) = (self.t, self.y);
-            let (label, kind) = match &self.p.program.arcs[arc_i] {
-                Arc::Burn { .. } => {
-                    burns += 1;
-                    let name = &self.p.vehicle.stages[self.mode.stage].name;
-                    (format!("burn {burns}: {name}"), ArcKind::Burn)
-                }
-                Arc::Coast(_) => {
-                    coasts += 1;
-                    (format!("coast {coasts}"), ArcKind::Coast)
-                }
-            };
-            if !self.start_arc(arc_i) {
+    /// Flies the program's arcs from the cursor's; `resumed`: the cursor's arc has started
+    /// already (a flight resumed from a checkpoint).
+    fn run(&mut self, resumed: bool) {
+        let mut started = resumed;
+        while self.cursor.arc < self.p.program.arcs.len() {
+            if !started && !self.begin_arc() {
                 break;
             }
-            if arc_i == 0 {
-                // Taken once the first burn has lit its engines, so that the liftoff row shows
-                // the throttle and acceleration at release (issue 12: it showed 0.0 and 0.0 g
-                // while the history showed 1.0 and 1.30 g).
-                self.event(
-                    EventKind::Liftoff,
-                    format!("liftoff from {}", self.p.site.name),
-                );
-            }
+            started = false;
             while !self.arc_done && self.ended.is_none() {
+                self.at_boundary();
                 self.segment();
             }
             self.out.arcs.push(ArcRecord {
-                label,
-                kind,
-                t0_s: t0,
+                label: std::mem::take(&mut self.cursor.label),
+                kind: self.cursor.kind,
+                t0_s: self.cursor.t0_s,
                 t1_s: self.t,
-                y0,
+                y0: self.cursor.y0,
                 y1: self.y,
             });
             if self.ended.is_some() {
                 break;
             }
+            self.cursor.arc += 1;
         }
+    }
+
+    /// Starts the cursor's arc; false if the flight cannot continue.
+    fn begin_arc(&mut self) -> bool {
+        let arc_i = self.cursor.arc;
+        self.horizon_s = self.t;
+        let c = &mut self.cursor;
+        (c.t0_s, c.y0) = (self.t, self.y);
+        (c.label, c.kind) = match &self.p.program.arcs[arc_i] {
+            Arc::Burn { .. } => {
+                c.burns += 1;
+                let name = &self.p.vehicle.stages[self.mode.stage].name;
+                (format!("burn {}: {name}", c.burns), ArcKind::Burn)
+            }
+            Arc::Coast(_) => {
+                c.coasts += 1;
+                (format!("coast {}", c.coasts), ArcKind::Coast)
+            }
+        };
+        if !self.start_arc(arc_i) {
+            return false;
+        }
+        if arc_i == 0 {
+            // Taken once the first burn has lit its engines, so that the liftoff row shows
+            // the throttle and acceleration at release (issue 12: it showed 0.0 and 0.0 g
+            // while the history showed 1.0 and 1.30 g).
+            self.event(
+                EventKind::Liftoff,
+                format!("liftoff from {}", self.p.site.name),
+            );
+        }
+        true
     }
 
     /// Sets the mode for arc `i`; false if the flight cannot continue.
@@ -602,6 +926,16 @@ impl<'a> Flyer<'a> {
             environment: &self.p.environment,
             target: self.p.target.as_ref(),
         });
+        if self.recorder.is_some() {
+            self.law_start = Some(LawStart {
+                arc: i,
+                t_s: self.t,
+                v_mps: v,
+                loc,
+                state,
+                previous: copy_law(self.flags.last_law.as_deref()),
+            });
+        }
         if let Some(c) = self.law.continuable() {
             self.flags.last_law = Some(c);
         }
@@ -810,6 +1144,7 @@ impl<'a> Flyer<'a> {
         t_end: f64,
         loc0: &Local,
     ) -> Result<Option<StateEvent>, String> {
+        self.horizon_s = self.horizon_s.max(t_end);
         let law = self.law.as_ref();
         let mut w = std::mem::take(&mut self.watch);
         w.g_prev.clear();
@@ -1242,7 +1577,14 @@ impl<'a> Flyer<'a> {
         self.mode.other_mass_kg = self.y[ix::M] - p.vehicle.stages[s + 1].propellant_kg + residual;
     }
 
-    fn finish(mut self) -> Flight {
+    /// The flight, and the checkpoints asked for (empty unless recording).
+    fn finish(mut self) -> (Flight, Vec<Option<std::sync::Arc<Checkpoint>>>) {
+        let checkpoints = self.recorder.take().map_or_else(Vec::new, |mut rec| {
+            for &(_, i) in &rec.order[rec.done..] {
+                rec.out[i].clone_from(&rec.last);
+            }
+            rec.out
+        });
         self.describe_maxima();
         Scratch {
             watch: std::mem::take(&mut self.watch),
@@ -1280,7 +1622,7 @@ impl<'a> Flyer<'a> {
                 },
             );
         }
-        self.out
+        (self.out, checkpoints)
     }
 }
 

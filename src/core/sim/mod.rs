@@ -21,7 +21,7 @@ mod record;
 mod stepper;
 
 pub use flight::{
-    fly, ArcKind, ArcRecord, EndReason, EventKind, EventRecord, Extremum, Flight, FlyOptions,
-    InitialState, SimStats,
+    fly, fly_from, fly_recording, ArcKind, ArcRecord, Checkpoint, EndReason, EventKind,
+    EventRecord, Extremum, Flight, FlyOptions, InitialState, ResumeAt, SimStats,
 };
 pub use record::{snapshot, Snapshot};
