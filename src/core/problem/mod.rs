@@ -123,9 +123,22 @@ pub struct Reserves {
     pub disposal_kg: f64,
 }
 
+/// The embedded Runge–Kutta pair that integrates a flight (`model.integrator`).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub enum IntegratorMethod {
+    /// Dormand–Prince 5(4) with its fourth-order continuous extension (the default).
+    #[default]
+    DormandPrince5,
+    /// Dormand–Prince 8(5,3) with its seventh-order continuous extension (Hairer, Nørsett &
+    /// Wanner's DOP853): fewer, longer steps at tight tolerances.
+    DormandPrince853,
+}
+
 /// Integrator settings.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct IntegratorSettings {
+    /// The Runge–Kutta pair (default Dormand–Prince 5(4)).
+    pub method: IntegratorMethod,
     /// Relative tolerance (default 1e-11: tight enough that terminal states are smooth to a few
     /// millimetres in the program's parameters, as finite-difference Jacobians need).
     pub rtol: f64,
@@ -138,6 +151,7 @@ pub struct IntegratorSettings {
 impl Default for IntegratorSettings {
     fn default() -> Self {
         Self {
+            method: IntegratorMethod::DormandPrince5,
             rtol: 1e-11,
             atol: 1e-8,
             max_flight_time_s: 20_000.0,

@@ -4,15 +4,15 @@ use nalgebra::Vector3;
 use serde::Serialize;
 
 use super::dynamics::{
-    axial_accel_mps2, derivative_keeping, forces, ix, Attitude, FlightModel, Forces, Mode, State,
-    Throttle,
+    axial_accel_mps2, derivative, derivative_keeping, forces, ix, Attitude, FlightModel, Forces,
+    Mode, State, Throttle,
 };
 use super::events::{self, StateEvent};
 use super::record::{snapshot, Snapshot};
 use super::stepper::{self, DenseOutput, OdeSystem};
 use crate::core::physics::earth::G0_MPS2;
 use crate::core::physics::environment::Local;
-use crate::core::problem::Problem;
+use crate::core::problem::{IntegratorMethod, Problem};
 use crate::core::steering::gravity_turn::ZeroAlpha;
 use crate::core::steering::{ActiveLaw, Arc, ArcStart, CoastEnd, Cutoff, GuidanceInput, RiseEnd};
 use crate::core::vehicle::JettisonWhen;
@@ -839,8 +839,13 @@ impl<'a> Flyer<'a> {
             evs,
             watch: &mut w,
         };
-        let result =
-            stepper::integrate(&mut sys, self.t, t_end, &self.y, ig.rtol, atol, &mut dense);
+        let method = match ig.method {
+            IntegratorMethod::DormandPrince5 => stepper::Method::DormandPrince5,
+            IntegratorMethod::DormandPrince853 => stepper::Method::DormandPrince853,
+        };
+        let result = stepper::integrate(
+            &mut sys, method, self.t, t_end, &self.y, ig.rtol, atol, &mut dense,
+        );
         self.watch = w;
         let (stats, end) = match result {
             Ok(r) => r,
@@ -856,6 +861,12 @@ impl<'a> Flyer<'a> {
         let w = &self.watch;
         // Start of the last step: the samples hold the segment start and every step's end.
         let t_prev = w.samples.iter().rev().nth(1).map_or(self.t, |s| s.0);
+        if w.fired.iter().any(|f| *f) {
+            self.out.stats.rhs_evals += u64::from(complete_dense(
+                &self.m, &self.mode, law, &mut dense, t_prev, t_last,
+            ));
+        }
+        let w = &self.watch;
         let stop = evs
             .iter()
             .zip(&w.fired)
@@ -871,7 +882,7 @@ impl<'a> Flyer<'a> {
             Some((_, t)) => (t, dense.evaluate(t).unwrap_or(y_last)),
             None => (t_last, y_last),
         };
-        self.track(&dense, t_stop, &y_stop);
+        self.track(&mut dense, t_stop, &y_stop);
         self.dense = dense;
         self.t = t_stop;
         self.y = y_stop;
@@ -893,13 +904,16 @@ impl<'a> Flyer<'a> {
     /// Max-Q, max acceleration and the time history over the segment just integrated, which
     /// stopped at (`t_stop`, `y_stop`). The samples at the step ends come from the integrator's
     /// own end-of-step evaluations; only the stop and the refinement evaluate anew.
-    fn track(&mut self, com: &DenseOutput, t_stop: f64, y_stop: &State) {
+    fn track(&mut self, com: &mut DenseOutput, t_stop: f64, y_stop: &State) {
         let (p, mode, law) = (&self.m, self.mode, self.law.as_ref());
         let w = &mut self.watch;
         let kept = w.samples.partition_point(|s| s.0 < t_stop);
         w.samples.truncate(kept);
         let (q_stop, a_stop, qa_stop) = q_and_accel(p, &mode, law, t_stop, y_stop);
         w.samples.push((t_stop, q_stop, a_stop, qa_stop));
+        self.out.stats.rhs_evals += u64::from(self.complete_for_tracking(com, t_stop));
+        let com = &*com;
+        let (p, law) = (&self.m, self.law.as_ref());
         let qa = |t: f64| com.evaluate(t).map(|y| q_and_accel(p, &mode, law, t, &y));
         // The segment lies in one part of the bucket's timeline (its start and end stop
         // segments); without a bucket every segment is in part 0 and the part's maximum is the
@@ -978,6 +992,46 @@ impl<'a> Flyer<'a> {
                 self.next_record_s += dt;
             }
         }
+    }
+
+    /// Makes the dense output available where [`Flyer::track`] will interpolate (DP853 forms a
+    /// step's coefficients on demand): around the best sample of each quantity that beats its
+    /// running maximum, and over the whole segment when a history is recorded. Returns the
+    /// right-hand-side evaluations made.
+    fn complete_for_tracking(&self, com: &mut DenseOutput, t_stop: f64) -> u32 {
+        let samples = &self.watch.samples;
+        let part = if self.flags.in_bucket {
+            1
+        } else if self.flags.bucket_done {
+            2
+        } else {
+            0
+        };
+        let bests = [
+            self.out.max_q_by_bucket_pa[part],
+            self.best_value(MAX_ACCEL).unwrap_or(f64::NEG_INFINITY),
+            self.best_value(MAX_Q_ALPHA).unwrap_or(0.0),
+        ];
+        let field = |s: &(f64, f64, f64, f64), i: usize| [s.1, s.2, s.3][i];
+        let mut evals = 0;
+        for (i, best) in bests.into_iter().enumerate() {
+            if samples.iter().any(|s| field(s, i) > best) {
+                if let Some((a, b)) = max_bracket(samples, |s| field(s, i)) {
+                    evals += complete_dense(&self.m, &self.mode, self.law.as_ref(), com, a, b);
+                }
+            }
+        }
+        if self.opts.record_step_s.is_some() && self.next_record_s < t_stop {
+            evals += complete_dense(
+                &self.m,
+                &self.mode,
+                self.law.as_ref(),
+                com,
+                self.next_record_s,
+                t_stop,
+            );
+        }
+        evals
     }
 
     /// The running maximum of tracked quantity `i` ([`MAX_Q`], [`MAX_ACCEL`], [`MAX_Q_ALPHA`]).
@@ -1308,6 +1362,44 @@ const EXTREMUM_FLAT_REL: f64 = 1e-14;
 /// At most this many evaluations refine one maximum (the bracket halves at least every few).
 const EXTREMUM_MAX_EVALS: usize = 100;
 
+/// Forms the dense output's coefficients on [`t_lo`, `t_hi`] where they are formed on demand
+/// (DP853), evaluating the right-hand side of `mode` under `law`; returns the evaluations made.
+fn complete_dense(
+    m: &FlightModel,
+    mode: &Mode,
+    law: &dyn ActiveLaw,
+    dense: &mut DenseOutput,
+    t_lo: f64,
+    t_hi: f64,
+) -> u32 {
+    dense.complete(t_lo, t_hi, &mut |t, y, dy| {
+        derivative(m, mode, law, t, y, dy);
+    })
+}
+
+/// The interval [`refine_max`] searches for the largest `value` of `samples`: between the
+/// neighbours of the best sample.
+fn max_bracket(
+    samples: &[(f64, f64, f64, f64)],
+    value: impl Fn(&(f64, f64, f64, f64)) -> f64,
+) -> Option<(f64, f64)> {
+    let k = best_sample(samples, &value)?;
+    Some((
+        samples[k.saturating_sub(1)].0,
+        samples[(k + 1).min(samples.len() - 1)].0,
+    ))
+}
+
+/// Index of the largest finite `value` of `samples` (the last of equals, as `max_by` picks).
+fn best_sample(
+    samples: &[(f64, f64, f64, f64)],
+    value: impl Fn(&(f64, f64, f64, f64)) -> f64,
+) -> Option<usize> {
+    (0..samples.len())
+        .filter(|k| value(&samples[*k]).is_finite())
+        .max_by(|a, b| value(&samples[*a]).total_cmp(&value(&samples[*b])))
+}
+
 /// Largest of the sampled values (`value(sample)` over `samples`, each `(t, q, accel, qα)`, in time
 /// order), refined on `f` (the dense output) between the neighbours of the best sample by
 /// Brent's method: parabolic interpolation through the three best points, with a
@@ -1321,9 +1413,7 @@ fn refine_max(
     value: impl Fn(&(f64, f64, f64, f64)) -> f64,
     f: impl Fn(f64) -> f64,
 ) -> Option<(f64, f64)> {
-    let k = (0..samples.len())
-        .filter(|k| value(&samples[*k]).is_finite())
-        .max_by(|a, b| value(&samples[*a]).total_cmp(&value(&samples[*b])))?;
+    let k = best_sample(samples, &value)?;
     let (t_k, v_k) = (samples[k].0, value(&samples[k]));
     // Best at either end and the function falling away from it: a maximum on the boundary
     // (a rising quantity at a segment's end), no search. One evaluation instead of a search

@@ -1,4 +1,6 @@
-//! The flight's integrator: Dormand–Prince 5(4) with its fourth-order continuous extension.
+//! The flight's integrators: Dormand–Prince 5(4) with its fourth-order continuous extension (the
+//! default, this module), and Dormand–Prince 8(5,3) with its seventh-order one ([`dop853`],
+//! `model.integrator: "dop853"`), behind one [`integrate`] and one [`DenseOutput`].
 //!
 //! Every floating-point operation is the one `ode_solvers` 0.6.2's `Dopri5` performs, in the same
 //! order (tableau, stage sums, error norm, PI step-size controller, initial step, stiffness test,
@@ -21,6 +23,18 @@ use std::cmp::Ordering;
 use std::fmt;
 
 use super::dynamics::{State, N};
+
+mod dop853;
+
+/// The Runge–Kutta pair a flight is integrated with.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub(crate) enum Method {
+    /// Dormand–Prince 5(4), `ode_solvers`' arithmetic (this module); the default.
+    #[default]
+    DormandPrince5,
+    /// Dormand–Prince 8(5,3) with its seventh-order continuous extension ([`dop853`]).
+    DormandPrince853,
+}
 
 /// Runge–Kutta matrix a_ij (row i = stage 2..7), Dormand & Prince (1980).
 const A: [[f64; 6]; 6] = [
@@ -155,59 +169,133 @@ struct DenseStep {
 #[derive(Debug, Clone, Default)]
 pub(crate) struct DenseOutput {
     t0: f64,
+    /// Method of the current integration (which of the step stores it fills).
+    method: Method,
     /// Steps of the current integration.
     len: usize,
     /// End time of each step, s (increasing over the first `len`).
     ends: Vec<f64>,
+    /// Dormand–Prince 5(4) steps.
     steps: Vec<DenseStep>,
+    /// Dormand–Prince 8(5,3) steps.
+    steps8: Vec<dop853::DenseStep>,
 }
 
 impl DenseOutput {
     /// Steps the store holds without growing.
     pub(crate) fn capacity(&self) -> usize {
-        self.steps.capacity()
+        self.steps.capacity().max(self.steps8.capacity())
     }
 
-    fn reset(&mut self, t0: f64) {
+    fn reset(&mut self, t0: f64, method: Method) {
         self.t0 = t0;
         self.len = 0;
-        if self.steps.capacity() == 0 {
-            // Room for a typical segment at once (a long burn takes ~150 steps) instead of
-            // growing by doubling, which copies every step stored so far.
+        self.method = method;
+        // Room for a typical segment at once (a long burn takes ~150 steps of DP5, ~50 of DP853)
+        // instead of growing by doubling, which copies every step stored so far.
+        if self.ends.capacity() == 0 {
             self.ends.reserve(INITIAL_STEPS);
-            self.steps.reserve(INITIAL_STEPS);
         }
+        match method {
+            Method::DormandPrince5 if self.steps.capacity() == 0 => {
+                self.steps.reserve(INITIAL_STEPS);
+            }
+            Method::DormandPrince853 if self.steps8.capacity() == 0 => {
+                self.steps8.reserve(INITIAL_STEPS / 2);
+            }
+            _ => {}
+        }
+    }
+
+    /// Appends a DP853 step ending at `t_end`; returns it to fill.
+    fn next_step8(&mut self, t_end: f64) -> &mut dop853::DenseStep {
+        let k = self.len;
+        self.len += 1;
+        if k == self.ends.len() {
+            self.ends.push(t_end);
+        } else {
+            self.ends[k] = t_end;
+        }
+        if k == self.steps8.len() {
+            self.steps8.push(dop853::DenseStep::empty());
+        }
+        &mut self.steps8[k]
+    }
+
+    /// Index of the step holding `t` (the first whose end is ≥ t); `None` outside the
+    /// integrated interval (or for NaN).
+    fn step_of(&self, t: f64) -> Option<usize> {
+        if t.is_nan() || t < self.t0 {
+            return None;
+        }
+        match self.ends[..self.len]
+            .binary_search_by(|e| e.partial_cmp(&t).unwrap_or(Ordering::Less))
+        {
+            Ok(k) => Some(k),
+            Err(k) if k < self.len => Some(k),
+            Err(_) => None,
+        }
+    }
+
+    /// Makes the continuous extension available on [`t_lo`, `t_hi`] (clamped to the integrated
+    /// interval): a DP853 step's coefficients need three more right-hand-side evaluations, made
+    /// here with `rhs` the first time a step is needed. Returns the evaluations made (always 0
+    /// for DP5, whose coefficients are formed as it steps).
+    pub(crate) fn complete(
+        &mut self,
+        t_lo: f64,
+        t_hi: f64,
+        rhs: &mut dyn FnMut(f64, &State, &mut State),
+    ) -> u32 {
+        if self.method == Method::DormandPrince5 || t_lo.is_nan() || t_hi.is_nan() {
+            return 0;
+        }
+        // Steps that overlap the open interval (t_lo, t_hi): the first ending after t_lo to the
+        // first ending at or after t_hi. A step's two ends are known without its coefficients.
+        let ends = &self.ends[..self.len];
+        let first = ends.partition_point(|e| *e <= t_lo);
+        let last = ends
+            .partition_point(|e| *e < t_hi)
+            .min(self.len.saturating_sub(1));
+        let mut evals = 0;
+        if first <= last && last < self.len {
+            for s in &mut self.steps8[first..=last] {
+                if !s.done() {
+                    s.complete(rhs);
+                    evals += 3;
+                }
+            }
+        }
+        evals
     }
 
     /// Appends a step ending at `t_end` of size `h`; returns its coefficients to fill.
     fn next_step(&mut self, t_end: f64, h: f64) -> &mut [State; 5] {
         let k = self.len;
         self.len += 1;
-        if k == self.steps.len() {
+        if k == self.ends.len() {
             self.ends.push(t_end);
+        } else {
+            self.ends[k] = t_end;
+        }
+        if k == self.steps.len() {
             self.steps.push(DenseStep {
                 h,
                 r: [State::zeros(); 5],
             });
         } else {
-            self.ends[k] = t_end;
             self.steps[k].h = h;
         }
         &mut self.steps[k].r
     }
 
-    /// State at `t`; `None` outside the integrated interval (or for NaN).
+    /// State at `t`; `None` outside the integrated interval (or for NaN), and for a DP853 step
+    /// not made available by [`DenseOutput::complete`].
     pub(crate) fn evaluate(&self, t: f64) -> Option<State> {
-        if t.is_nan() || t < self.t0 {
-            return None;
+        let k = self.step_of(t)?;
+        if self.method == Method::DormandPrince853 {
+            return self.steps8[k].evaluate(t);
         }
-        let k = match self.ends[..self.len]
-            .binary_search_by(|e| e.partial_cmp(&t).unwrap_or(Ordering::Less))
-        {
-            Ok(k) => k,
-            Err(k) if k < self.len => k,
-            Err(_) => return None,
-        };
         let start = if k == 0 { self.t0 } else { self.ends[k - 1] };
         let s = &self.steps[k];
         let theta = (t - start) / s.h;
@@ -312,10 +400,30 @@ fn initial_step<S: OdeSystem>(
     sign((100.0 * h0.abs()).min(h1.min(h_max)), posneg)
 }
 
-/// Integrates `sys` from (`t0`, `y0`) towards `t_end` with relative and absolute tolerances
-/// `rtol`, `atol`, until `t_end` or until [`OdeSystem::accepted`] asks to stop. Fills `dense`
-/// with the steps' continuous extension. Returns the work and the last accepted (t, y).
+/// Integrates `sys` from (`t0`, `y0`) towards `t_end` by `method` with relative and absolute
+/// tolerances `rtol`, `atol`, until `t_end` or until [`OdeSystem::accepted`] asks to stop. Fills
+/// `dense` with the steps' continuous extension (DP853: to be completed on demand, see
+/// [`DenseOutput::complete`]). Returns the work and the last accepted (t, y).
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn integrate<S: OdeSystem>(
+    sys: &mut S,
+    method: Method,
+    t0: f64,
+    t_end: f64,
+    y0: &State,
+    rtol: f64,
+    atol: f64,
+    dense: &mut DenseOutput,
+) -> Result<(Stats, Option<(f64, State)>), StepError> {
+    dense.reset(t0, method);
+    match method {
+        Method::DormandPrince5 => integrate5(sys, t0, t_end, y0, rtol, atol, dense),
+        Method::DormandPrince853 => dop853::integrate(sys, t0, t_end, y0, rtol, atol, dense),
+    }
+}
+
+/// [`integrate`] by Dormand–Prince 5(4).
+fn integrate5<S: OdeSystem>(
     sys: &mut S,
     t0: f64,
     t_end: f64,
@@ -332,7 +440,6 @@ pub(crate) fn integrate<S: OdeSystem>(
         posneg,
     };
     let mut stats = Stats::default();
-    dense.reset(t0);
     let (mut x, mut y) = (t0, *y0);
     let mut h = initial_step(sys, x, &y, t_end, ctl.h_max, rtol, atol);
     stats.num_eval += 2;
@@ -590,8 +697,17 @@ mod tests {
                 .integrate_with_continuous_output_model(&mut com)
                 .expect("integrates");
             let mut dense = DenseOutput::default();
-            let (ours, end) =
-                integrate(&mut Ours, 0.0, t_end, &y0, rtol, atol, &mut dense).expect("integrates");
+            let (ours, end) = integrate(
+                &mut Ours,
+                Method::DormandPrince5,
+                0.0,
+                t_end,
+                &y0,
+                rtol,
+                atol,
+                &mut dense,
+            )
+            .expect("integrates");
             assert_eq!(ours.num_eval, st.num_eval);
             assert_eq!(ours.accepted_steps, st.accepted_steps);
             assert_eq!(ours.rejected_steps, st.rejected_steps);
