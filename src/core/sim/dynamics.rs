@@ -162,6 +162,7 @@ pub struct Forces {
 }
 
 /// Thrust direction of `mode` at time `t_s` (`law`: the arc's active steering law).
+#[inline]
 pub fn attitude_dir(mode: &Mode, law: &dyn ActiveLaw, t_s: f64, loc: &Local) -> Vector3<f64> {
     match mode.attitude {
         Attitude::Vertical => loc.up,

@@ -861,7 +861,7 @@ impl<'a> Flyer<'a> {
         let w = &self.watch;
         // Start of the last step: the samples hold the segment start and every step's end.
         let t_prev = w.samples.iter().rev().nth(1).map_or(self.t, |s| s.0);
-        if w.fired.iter().any(|f| *f) {
+        if dense.completes_on_demand() && w.fired.iter().any(|f| *f) {
             self.out.stats.rhs_evals += u64::from(complete_dense(
                 &self.m, &self.mode, law, &mut dense, t_prev, t_last,
             ));
@@ -999,6 +999,9 @@ impl<'a> Flyer<'a> {
     /// running maximum, and over the whole segment when a history is recorded. Returns the
     /// right-hand-side evaluations made.
     fn complete_for_tracking(&self, com: &mut DenseOutput, t_stop: f64) -> u32 {
+        if !com.completes_on_demand() {
+            return 0;
+        }
         let samples = &self.watch.samples;
         let part = if self.flags.in_bucket {
             1

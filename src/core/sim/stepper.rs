@@ -237,6 +237,11 @@ impl DenseOutput {
         }
     }
 
+    /// Whether steps need [`DenseOutput::complete`] before they are interpolated (DP853).
+    pub(crate) fn completes_on_demand(&self) -> bool {
+        self.method == Method::DormandPrince853
+    }
+
     /// Makes the continuous extension available on [`t_lo`, `t_hi`] (clamped to the integrated
     /// interval): a DP853 step's coefficients need three more right-hand-side evaluations, made
     /// here with `rhs` the first time a step is needed. Returns the evaluations made (always 0
