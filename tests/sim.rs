@@ -291,3 +291,39 @@ fn dop853_flies_the_demos_like_dopri5() {
         assert!(f8.stats.accepted_steps < f5.stats.accepted_steps, "{name}");
     }
 }
+
+/// The fast integrator settings (`model.integrator: "dop853"`, `end_steps_at_corners`,
+/// `carry_step_size`) fly every demo to the default's orbit and final mass at rtol 1e-11, with
+/// well under two thirds of its right-hand-side evaluations. Measured (December 2026): final
+/// mass within 5.3e-5 kg, apsides within 3.2 mm; evaluations small 3 012 → 1 396, medium
+/// 1 830 → 995, heavy 1 794 → 968.
+#[test]
+fn corner_steps_and_carried_step_sizes_keep_the_demo_results() {
+    for name in [
+        "small-3stage-sso500.json",
+        "medium-2stage-leo200.json",
+        "heavy-boosters-leo300.json",
+    ] {
+        let p5 = demo(name);
+        let mut fast = p5.clone();
+        fast.integrator.method = kickturn::problem::IntegratorMethod::DormandPrince853;
+        fast.integrator.end_steps_at_corners = true;
+        fast.integrator.carry_step_size = true;
+        let (f5, f8) = (
+            fly(&p5, &FlyOptions::default()),
+            fly(&fast, &FlyOptions::default()),
+        );
+        assert_eq!(f5.events.len(), f8.events.len(), "{name}: same events");
+        let (r5, r8) = (FlightReport::new(&p5, &f5), FlightReport::new(&fast, &f8));
+        let dm = r8.final_mass_kg - r5.final_mass_kg;
+        assert!(dm.abs() < 1e-3, "{name}: final mass moved {dm} kg");
+        let dp = r8.orbit.perigee_alt_km - r5.orbit.perigee_alt_km;
+        assert!(dp.abs() < 1e-5, "{name}: perigee {dp} km");
+        assert!(
+            3 * f8.stats.rhs_evals < 2 * f5.stats.rhs_evals,
+            "{name}: {} vs {} evaluations",
+            f8.stats.rhs_evals,
+            f5.stats.rhs_evals
+        );
+    }
+}

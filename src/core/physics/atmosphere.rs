@@ -223,6 +223,27 @@ const LAYERS: [Layer; 7] = [
     gradient_layer!(71_000.0, 214.65, -2.0e-3, 3.956_420_428_040_725),
 ];
 
+/// Geometric altitude (m) of geopotential altitude `h_m` (m′): Z = r0 H/(r0 − H) (eq. 18 inverted).
+const fn geometric_of(h_m: f64) -> f64 {
+    R0_M * h_m / (R0_M - h_m)
+}
+
+/// Geometric altitudes (m) where the model's temperature has a corner or a step, in increasing
+/// order: the bases of layers 2–7 (11, 20, 32, 47, 51, 71 km′), where the lapse rate changes and
+/// so the slopes of pressure, density and speed of sound jump, and the 86 km join, where the
+/// temperature steps by −0.079 K (see [`AtmosphereState::temperature_k`]). Above 86 km the
+/// tabulated rows are corners too, but the air there is too thin for them to matter to a flight
+/// (none of the demos' rejected steps falls there).
+pub const CORNER_ALTITUDES_M: [f64; 7] = [
+    geometric_of(11_000.0),
+    geometric_of(20_000.0),
+    geometric_of(32_000.0),
+    geometric_of(47_000.0),
+    geometric_of(51_000.0),
+    geometric_of(71_000.0),
+    Z_JOIN_M,
+];
+
 /// Layered model (eqs. 23, 33a, 33b, 42) at geopotential altitude `h_m`, m′.
 fn lower_atmosphere(h_m: f64) -> AtmosphereState {
     let mut i = LAYERS.len() - 1;
@@ -453,6 +474,24 @@ mod tests {
         ];
         for row in rows {
             check("H m'", us1976_geopotential(row.0), row, 1e-5);
+        }
+    }
+
+    /// The corners are the layer bases at their geometric altitudes and the 86 km join.
+    /// Source: U.S. Standard Atmosphere 1976 layer table, geometric Z of the bases as in the
+    /// domain brief §3(f) (11.019, 20.063, 32.162, 47.350, 51.412, 71.802, 86.000 km).
+    #[test]
+    fn corner_altitudes_are_the_layer_bases() {
+        let want_km = [11.019, 20.063, 32.162, 47.350, 51.412, 71.802, 86.000];
+        for (z, w) in CORNER_ALTITUDES_M.iter().zip(want_km) {
+            assert!((z / 1e3 - w).abs() < 5e-4, "{z} m vs {w} km");
+        }
+        // Either side of each base the lapse rate differs: the slope of T jumps there.
+        for &z in &CORNER_ALTITUDES_M[..6] {
+            let slope =
+                |a: f64, b: f64| (us1976(b).temperature_k - us1976(a).temperature_k) / (b - a);
+            let (below, above) = (slope(z - 20.0, z - 10.0), slope(z + 10.0, z + 20.0));
+            assert!((below - above).abs() > 5e-4, "{z}: {below} {above} K/m");
         }
     }
 

@@ -512,6 +512,15 @@ pub struct ModelFile {
     /// right-hand-side evaluations; docs/method.md §7).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub integrator: Option<IntegratorFile>,
+    /// Retry a rejected step that crossed a corner of the right-hand side (a node of a linear
+    /// drag table, a layer base of the standard atmosphere) so that it ends on the corner
+    /// (default false; docs/method.md §7).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub end_steps_at_corners: Option<bool>,
+    /// Start each integration segment (from one event to the next) with the step size the
+    /// previous one ended with, instead of a fresh estimate (default false; docs/method.md §7).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub carry_step_size: Option<bool>,
     /// Relative tolerance of the integrator (default 1e-11).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub rtol: Option<f64>,

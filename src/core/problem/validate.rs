@@ -698,6 +698,8 @@ fn integrator(m: &ModelFile) -> R<IntegratorSettings> {
             Some(IntegratorFile::Dopri5) => IntegratorMethod::DormandPrince5,
             Some(IntegratorFile::Dop853) => IntegratorMethod::DormandPrince853,
         },
+        end_steps_at_corners: m.end_steps_at_corners.unwrap_or(d.end_steps_at_corners),
+        carry_step_size: m.carry_step_size.unwrap_or(d.carry_step_size),
         rtol: range("model.rtol", m.rtol.unwrap_or(d.rtol), 1e-14, 1e-3, true)?,
         atol: range("model.atol", m.atol.unwrap_or(d.atol), 1e-14, 1.0, true)?,
         max_flight_time_s: range(

@@ -211,7 +211,7 @@ pub(crate) fn locate(
 /// on the hot path: the executor's bookkeeping cost more than the evaluations), so the root is
 /// the same to the bit: the point of smallest |g| seen (the first of equals). `None` when `g`
 /// fails (`None`) at an evaluation, or g(a) and g(b) have the same sign.
-fn brent_root(
+pub(crate) fn brent_root(
     mut a: f64,
     mut b: f64,
     tol: f64,

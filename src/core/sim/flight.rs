@@ -4,14 +4,14 @@ use nalgebra::Vector3;
 use serde::Serialize;
 
 use super::dynamics::{
-    axial_accel_mps2, derivative, derivative_keeping, forces, ix, Attitude, FlightModel, Forces,
-    Mode, State, Throttle,
+    active_aero, axial_accel_mps2, derivative, derivative_keeping, forces, ix, Attitude,
+    FlightModel, Forces, Mode, State, Throttle,
 };
 use super::events::{self, StateEvent};
 use super::record::{snapshot, Snapshot};
 use super::stepper::{self, DenseOutput, OdeSystem};
 use crate::core::physics::earth::G0_MPS2;
-use crate::core::physics::environment::Local;
+use crate::core::physics::environment::{AtmosphereModel, Environment, Local};
 use crate::core::problem::{IntegratorMethod, Problem};
 use crate::core::steering::gravity_turn::ZeroAlpha;
 use crate::core::steering::{ActiveLaw, Arc, ArcStart, CoastEnd, Cutoff, GuidanceInput, RiseEnd};
@@ -258,7 +258,13 @@ struct Sys<'a> {
     mode: Mode,
     evs: &'a [StateEvent],
     watch: &'a mut Watch,
+    /// Report corners of the right-hand side to the integrator (`model.end_steps_at_corners`).
+    corners: bool,
 }
+
+/// Corner times are located to this, s (on an interpolant good to ~1e-4 s on long steps; the
+/// error of straddling a corner by δ grows as δ², and 1e-7 s is far below any tolerance).
+const CORNER_TIME_TOL_S: f64 = 1e-7;
 
 /// What the system records during one segment. Kept by the flyer and reused from segment to
 /// segment, so that its vectors keep their capacity: no allocation per step.
@@ -292,6 +298,21 @@ fn q_and_accel_of(f: &Forces, m_kg: f64, loc: &Local) -> (f64, f64, f64) {
     (f.q_pa, axial_accel_mps2(f, m_kg) / G0_MPS2, q_alpha)
 }
 
+/// The two quantities the right-hand side's corners are placed in: altitude (m) and Mach
+/// number, at state `y` (the Mach number only when `with_mach`; else 0).
+fn corner_coordinates(env: &Environment, y: &State, with_mach: bool) -> (f64, f64) {
+    let r = Vector3::new(y[0], y[1], y[2]);
+    let alt = env.altitude_m(&r);
+    if !with_mach {
+        return (alt, 0.0);
+    }
+    let v = Vector3::new(y[3], y[4], y[5]);
+    let v_rel = v - env.omega_rad_s().cross(&r);
+    // As `forces` forms it.
+    let mach = v_rel.norm() / env.air(alt).speed_of_sound_mps.max(1e-3);
+    (alt, mach)
+}
+
 impl OdeSystem for Sys<'_> {
     fn rhs(&mut self, t: f64, y: &State, dy: &mut State, end_of_step: bool) {
         // Keep only the evaluation at a step's candidate end: the one `accepted` will need.
@@ -301,6 +322,53 @@ impl OdeSystem for Sys<'_> {
             None
         };
         derivative_keeping(self.p, &self.mode, self.law, t, y, dy, keep);
+    }
+
+    fn has_kinks(&self) -> bool {
+        self.corners
+    }
+
+    /// Corners of the right-hand side: the air's layer bases in altitude (density and speed of
+    /// sound change slope there), and the nodes of the active linear drag table in Mach.
+    fn kink(
+        &mut self,
+        t0: f64,
+        y0: &State,
+        t1: f64,
+        y1: &State,
+        path: &dyn Fn(f64) -> State,
+    ) -> Option<f64> {
+        let env = self.p.environment;
+        let vacuum = matches!(env.atmosphere, AtmosphereModel::Vacuum);
+        let machs = if vacuum {
+            &[]
+        } else {
+            active_aero(self.p, &self.mode).corner_machs()
+        };
+        let with_mach = !machs.is_empty();
+        let (a0, m0) = corner_coordinates(env, y0, with_mach);
+        let (a1, m1) = corner_coordinates(env, y1, with_mach);
+        let mut first: Option<f64> = None;
+        let mut keep = |t: Option<f64>| {
+            if let Some(t) = t.filter(|t| stepper::inside_step(*t, t0, t1)) {
+                first = Some(first.map_or(t, |f| f.min(t)));
+            }
+        };
+        for &z in env.air_corner_altitudes_m() {
+            if (a0 - z) * (a1 - z) < 0.0 {
+                keep(events::brent_root(t0, t1, CORNER_TIME_TOL_S, 100, |t| {
+                    Some(corner_coordinates(env, &path(t), false).0 - z)
+                }));
+            }
+        }
+        for &mk in machs {
+            if (m0 - mk) * (m1 - mk) < 0.0 {
+                keep(events::brent_root(t0, t1, CORNER_TIME_TOL_S, 100, |t| {
+                    Some(corner_coordinates(env, &path(t), true).1 - mk)
+                }));
+            }
+        }
+        first
     }
 
     fn accepted(&mut self, t: f64, y: &State) -> bool {
@@ -396,6 +464,8 @@ struct Flyer<'a> {
     dense: DenseOutput,
     /// Maxima found whose snapshots are not taken yet ([`MAX_Q`], [`MAX_ACCEL`], [`MAX_Q_ALPHA`]).
     found: [Option<Found>; 3],
+    /// The step size the last segment's controller proposed, s (`model.carry_step_size`).
+    h_next: Option<f64>,
 }
 
 /// Index of max-Q in [`Flyer::found`].
@@ -499,6 +569,7 @@ impl<'a> Flyer<'a> {
             watch: std::mem::take(&mut scratch.watch),
             dense: std::mem::take(&mut scratch.dense),
             found: [None; 3],
+            h_next: None,
         }
     }
 
@@ -838,17 +909,24 @@ impl<'a> Flyer<'a> {
             mode: self.mode,
             evs,
             watch: &mut w,
+            corners: ig.end_steps_at_corners,
         };
-        let method = match ig.method {
-            IntegratorMethod::DormandPrince5 => stepper::Method::DormandPrince5,
-            IntegratorMethod::DormandPrince853 => stepper::Method::DormandPrince853,
+        let opts = stepper::Options {
+            method: match ig.method {
+                IntegratorMethod::DormandPrince5 => stepper::Method::DormandPrince5,
+                IntegratorMethod::DormandPrince853 => stepper::Method::DormandPrince853,
+            },
+            rtol: ig.rtol,
+            atol,
+            h0: self.h_next.filter(|_| ig.carry_step_size),
         };
-        let result = stepper::integrate(
-            &mut sys, method, self.t, t_end, &self.y, ig.rtol, atol, &mut dense,
-        );
+        let result = stepper::integrate(&mut sys, &opts, self.t, t_end, &self.y, &mut dense);
         self.watch = w;
         let (stats, end) = match result {
-            Ok(r) => r,
+            Ok(r) => {
+                self.h_next = Some(r.h_next);
+                (r.stats, r.end)
+            }
             Err(e) => {
                 self.dense = dense;
                 return Err(self.integration_message(&e.to_string()));

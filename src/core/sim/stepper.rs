@@ -118,6 +118,40 @@ pub(crate) trait OdeSystem {
     fn rhs(&mut self, t: f64, y: &State, dy: &mut State, end_of_step: bool);
     /// Called after each accepted step with its end; `true` stops the integration there.
     fn accepted(&mut self, t: f64, y: &State) -> bool;
+    /// Whether the integrator should ask [`OdeSystem::kink`] about rejected steps (default: no,
+    /// and then it never does).
+    fn has_kinks(&self) -> bool {
+        false
+    }
+    /// The time of the earliest corner of the right-hand side (a point where f is continuous
+    /// but its slope jumps, such as a table node) that the step from (`t0`, `y0`) to (`t1`,
+    /// `y1`) crosses, located on `path` (the state along the step, an interpolant of it), or
+    /// `None`; only corners [`inside_step`] counts. Asked about rejected steps only; the
+    /// integrator then retries the step so that it ends on the corner, instead of shrinking it
+    /// until the corner costs little.
+    fn kink(
+        &mut self,
+        _t0: f64,
+        _y0: &State,
+        _t1: f64,
+        _y1: &State,
+        _path: &dyn Fn(f64) -> State,
+    ) -> Option<f64> {
+        None
+    }
+}
+
+/// Fraction of a step within which a corner next to either end is not worth a step of its own:
+/// one next to the start is passed already (the step before ended on it, to the precision of
+/// the interpolant that located it), one next to the end is where the step ends anyway. A
+/// corner straddled by δ costs an error ~δ² (the slope's jump times δ²/2).
+const CORNER_MARGIN: f64 = 1e-4;
+
+/// Whether a corner at `tk` lies inside the step from `t0` to `t1`, farther than
+/// [`CORNER_MARGIN`] of the step from either end.
+pub(crate) fn inside_step(tk: f64, t0: f64, t1: f64) -> bool {
+    let margin = CORNER_MARGIN * (t1 - t0);
+    (tk - t0) * margin.signum() > margin.abs() && (t1 - tk) * margin.signum() > margin.abs()
 }
 
 /// Integrator work of one integration.
@@ -303,17 +337,22 @@ impl DenseOutput {
         }
         let start = if k == 0 { self.t0 } else { self.ends[k - 1] };
         let s = &self.steps[k];
-        let theta = (t - start) / s.h;
-        let theta1 = 1.0 - theta;
-        let mut y = State::zeros();
-        let o = arr_mut(&mut y);
-        let [r0, r1, r2, r3, r4] = &s.r;
-        let (r0, r1, r2, r3, r4) = (arr(r0), arr(r1), arr(r2), arr(r3), arr(r4));
-        for i in 0..N {
-            o[i] = r0[i] + (r1[i] + (r2[i] + (r3[i] + r4[i] * theta1) * theta) * theta1) * theta;
-        }
-        Some(y)
+        Some(dense_at(&s.r, (t - start) / s.h))
     }
+}
+
+/// A DP5 step's continuous extension at the fraction `theta` of the step.
+#[inline(always)]
+fn dense_at(r: &[State; 5], theta: f64) -> State {
+    let theta1 = 1.0 - theta;
+    let mut y = State::zeros();
+    let o = arr_mut(&mut y);
+    let [r0, r1, r2, r3, r4] = r;
+    let (r0, r1, r2, r3, r4) = (arr(r0), arr(r1), arr(r2), arr(r3), arr(r4));
+    for i in 0..N {
+        o[i] = r0[i] + (r1[i] + (r2[i] + (r3[i] + r4[i] * theta1) * theta) * theta1) * theta;
+    }
+    y
 }
 
 /// |a| with the sign of b (b ≤ 0 gives −|a|).
@@ -405,38 +444,69 @@ fn initial_step<S: OdeSystem>(
     sign((100.0 * h0.abs()).min(h1.min(h_max)), posneg)
 }
 
-/// Integrates `sys` from (`t0`, `y0`) towards `t_end` by `method` with relative and absolute
-/// tolerances `rtol`, `atol`, until `t_end` or until [`OdeSystem::accepted`] asks to stop. Fills
-/// `dense` with the steps' continuous extension (DP853: to be completed on demand, see
-/// [`DenseOutput::complete`]). Returns the work and the last accepted (t, y).
-#[allow(clippy::too_many_arguments)]
+/// How to integrate one segment.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Options {
+    /// The Runge–Kutta pair.
+    pub method: Method,
+    /// Relative tolerance.
+    pub rtol: f64,
+    /// Absolute tolerance (every component).
+    pub atol: f64,
+    /// First step size to try, s (clamped to the segment); `None`: the starting-step estimate
+    /// of Hairer, Nørsett & Wanner §II.4 (two evaluations).
+    pub h0: Option<f64>,
+}
+
+/// What one integration did.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Run {
+    /// Its work.
+    pub stats: Stats,
+    /// The last accepted (t, y); `None` if no step was accepted.
+    pub end: Option<(f64, State)>,
+    /// The step size the controller proposes after the last accepted step, s (a last step
+    /// shortened to end on `t_end` proposes the step it was shortened from, if larger).
+    pub h_next: f64,
+}
+
+/// The first step size of an integration: `h0` clamped to the segment (a step of the sign of
+/// `posneg`), else `estimate()`.
+fn first_step(h0: Option<f64>, posneg: f64, h_max: f64, estimate: impl FnOnce() -> f64) -> f64 {
+    match h0.filter(|h| h.is_finite() && *h != 0.0) {
+        Some(h) => posneg * h.abs().min(h_max),
+        None => estimate(),
+    }
+}
+
+/// Integrates `sys` from (`t0`, `y0`) towards `t_end` as `opts` say, until `t_end` or until
+/// [`OdeSystem::accepted`] asks to stop. Fills `dense` with the steps' continuous extension
+/// (DP853: to be completed on demand, see [`DenseOutput::complete`]).
 pub(crate) fn integrate<S: OdeSystem>(
     sys: &mut S,
-    method: Method,
+    opts: &Options,
     t0: f64,
     t_end: f64,
     y0: &State,
-    rtol: f64,
-    atol: f64,
     dense: &mut DenseOutput,
-) -> Result<(Stats, Option<(f64, State)>), StepError> {
-    dense.reset(t0, method);
-    match method {
-        Method::DormandPrince5 => integrate5(sys, t0, t_end, y0, rtol, atol, dense),
-        Method::DormandPrince853 => dop853::integrate(sys, t0, t_end, y0, rtol, atol, dense),
+) -> Result<Run, StepError> {
+    dense.reset(t0, opts.method);
+    match opts.method {
+        Method::DormandPrince5 => integrate5(sys, opts, t0, t_end, y0, dense),
+        Method::DormandPrince853 => dop853::integrate(sys, opts, t0, t_end, y0, dense),
     }
 }
 
 /// [`integrate`] by Dormand–Prince 5(4).
 fn integrate5<S: OdeSystem>(
     sys: &mut S,
+    opts: &Options,
     t0: f64,
     t_end: f64,
     y0: &State,
-    rtol: f64,
-    atol: f64,
     dense: &mut DenseOutput,
-) -> Result<(Stats, Option<(f64, State)>), StepError> {
+) -> Result<Run, StepError> {
+    let (rtol, atol) = (opts.rtol, opts.atol);
     let posneg = sign(1.0, t_end - t0);
     let mut ctl = Controller {
         fac_old: 1.0e-4,
@@ -446,14 +516,21 @@ fn integrate5<S: OdeSystem>(
     };
     let mut stats = Stats::default();
     let (mut x, mut y) = (t0, *y0);
-    let mut h = initial_step(sys, x, &y, t_end, ctl.h_max, rtol, atol);
-    stats.num_eval += 2;
+    let mut h = first_step(opts.h0, posneg, ctl.h_max, || {
+        stats.num_eval += 2;
+        initial_step(sys, x, &y, t_end, ctl.h_max, rtol, atol)
+    });
     let mut k = [State::zeros(); 7];
     sys.rhs(x, &y, &mut k[0], false);
     stats.num_eval += 1;
     let (mut n_step, mut last, mut h_new) = (0_u32, false, 0.0);
     let (mut non_stiff, mut iasti) = (0_u32, 0_u32);
     let mut end = None;
+    let kinks = sys.has_kinks();
+    // While a retry ends on a corner: the size of the attempt that crossed it.
+    let mut kink_retry: Option<f64> = None;
+    // The step a last step was shortened from (to end on t_end).
+    let mut h_unshortened = 0.0_f64;
     while !last {
         if n_step > N_MAX {
             return Err(StepError::MaxSteps { t: x, n_step });
@@ -462,6 +539,7 @@ fn integrate5<S: OdeSystem>(
             return Err(StepError::Underflow { t: x });
         }
         if (x + 1.01 * h - t_end) * posneg > 0.0 {
+            h_unshortened = h;
             h = t_end - x;
             last = true;
         }
@@ -501,17 +579,54 @@ fn integrate5<S: OdeSystem>(
                 last = true;
             }
             if last {
-                return Ok((stats, end));
+                let h_next = posneg * h_new.abs().max(h_unshortened.abs());
+                return Ok(Run { stats, end, h_next });
+            }
+            if let Some(h_was) = kink_retry.take() {
+                // Past the corner the solution is as smooth as before it: resume with the step
+                // that was tried across it (the controller's shrink after a rejection would
+                // otherwise hold the next step to the shortened one).
+                h_new = posneg * h_new.abs().max(h_was.abs()).min(ctl.h_max);
             }
         } else {
             last = false;
+            h_unshortened = 0.0;
             if stats.accepted_steps >= 1 {
                 stats.rejected_steps += 1;
+            }
+            if kinks {
+                let h_was = kink_retry.take().unwrap_or(h);
+                if let Some(tk) = corner_in_step5(sys, &k, x, h, &y, &y_next) {
+                    h_new = tk - x;
+                    kink_retry = Some(h_was);
+                }
             }
         }
         h = h_new;
     }
-    Ok((stats, end))
+    Ok(Run {
+        stats,
+        end,
+        h_next: h_new,
+    })
+}
+
+/// The corner a rejected DP5 step from (`x`, `y`) of size `h` crossed, located on the step's
+/// own continuous extension (see [`OdeSystem::kink`]). Out of line: the default flight never
+/// calls it.
+#[inline(never)]
+fn corner_in_step5<S: OdeSystem>(
+    sys: &mut S,
+    k: &[State; 7],
+    x: f64,
+    h: f64,
+    y: &State,
+    y_next: &State,
+) -> Option<f64> {
+    let mut r = [State::zeros(); 5];
+    dense_coefficients(k, h, y, y_next, &mut r);
+    let path = |t: f64| dense_at(&r, (t - x) / h);
+    sys.kink(x, y, x + h, y_next, &path)
 }
 
 /// The components of `v` as an array (the vector's own storage: no copy), so that loops over
@@ -702,17 +817,14 @@ mod tests {
                 .integrate_with_continuous_output_model(&mut com)
                 .expect("integrates");
             let mut dense = DenseOutput::default();
-            let (ours, end) = integrate(
-                &mut Ours,
-                Method::DormandPrince5,
-                0.0,
-                t_end,
-                &y0,
+            let opts = Options {
+                method: Method::DormandPrince5,
                 rtol,
                 atol,
-                &mut dense,
-            )
-            .expect("integrates");
+                h0: None,
+            };
+            let run = integrate(&mut Ours, &opts, 0.0, t_end, &y0, &mut dense).expect("integrates");
+            let (ours, end) = (run.stats, run.end);
             assert_eq!(ours.num_eval, st.num_eval);
             assert_eq!(ours.accepted_steps, st.accepted_steps);
             assert_eq!(ours.rejected_steps, st.rejected_steps);
@@ -725,5 +837,143 @@ mod tests {
             }
             assert_eq!(dense.evaluate(t1 + 1e-9), None);
         }
+    }
+}
+
+#[cfg(test)]
+mod corner_tests {
+    use super::*;
+
+    /// Nodes (u, c) of a continuous, piecewise-linear rate with three corners, held beyond the
+    /// ends (like a drag table).
+    const NODES: [(f64, f64); 4] = [(0.0, 1.0), (0.7, 2.0), (1.9, -1.0), (2.6, 0.5)];
+
+    fn rate(u: f64) -> f64 {
+        if u <= NODES[0].0 {
+            return NODES[0].1;
+        }
+        for w in NODES.windows(2) {
+            if u <= w[1].0 {
+                return w[0].1 + (u - w[0].0) / (w[1].0 - w[0].0) * (w[1].1 - w[0].1);
+            }
+        }
+        NODES[3].1
+    }
+
+    /// ∫₀ᵗ rate(u) du with u = t: the trapezoids of the linear pieces, exact.
+    fn integral(t: f64) -> f64 {
+        let mut s = 0.0;
+        let mut a = 0.0;
+        for &(u, _) in NODES
+            .iter()
+            .skip(1)
+            .chain(std::iter::once(&(f64::INFINITY, 0.0)))
+        {
+            let b = u.min(t);
+            if b > a {
+                s += 0.5 * (rate(a) + rate(b)) * (b - a);
+            }
+            a = b;
+            if a >= t {
+                break;
+            }
+        }
+        s
+    }
+
+    /// u' = 1 (so u = t: a state coordinate), y' = rate(u), z' = y (one more order of
+    /// smoothness to carry the corner's error).
+    struct Cornered {
+        report: bool,
+    }
+
+    impl OdeSystem for Cornered {
+        fn rhs(&mut self, _t: f64, y: &State, dy: &mut State, _end: bool) {
+            dy[0] = 1.0;
+            dy[1] = rate(y[0]);
+            dy[2] = y[1];
+        }
+        fn accepted(&mut self, _t: f64, _y: &State) -> bool {
+            false
+        }
+        fn has_kinks(&self) -> bool {
+            self.report
+        }
+        fn kink(
+            &mut self,
+            t0: f64,
+            y0: &State,
+            t1: f64,
+            y1: &State,
+            path: &dyn Fn(f64) -> State,
+        ) -> Option<f64> {
+            NODES
+                .iter()
+                .filter(|(u, _)| (y0[0] - u) * (y1[0] - u) < 0.0)
+                .filter_map(|(u, _)| {
+                    super::super::events::brent_root(t0, t1, 1e-12, 100, |t| Some(path(t)[0] - u))
+                })
+                .filter(|t| inside_step(*t, t0, t1))
+                .min_by(f64::total_cmp)
+        }
+    }
+
+    fn run(method: Method, report: bool, h0: Option<f64>) -> Run {
+        let opts = Options {
+            method,
+            rtol: 1e-10,
+            atol: 1e-10,
+            h0,
+        };
+        let mut dense = DenseOutput::default();
+        integrate(
+            &mut Cornered { report },
+            &opts,
+            0.0,
+            3.0,
+            &State::zeros(),
+            &mut dense,
+        )
+        .expect("integrates")
+    }
+
+    /// A rejected step across a corner is retried to end on it: far fewer rejections and
+    /// evaluations, and a result exact to round-off where straddled corners leave errors at
+    /// the tolerance's level. Measured (rtol = atol = 1e-10): DP5 36 → 3 rejected steps, 471 →
+    /// 75 evaluations, error 7e-8 → 9e-16; DP853 39 → 3, 899 → 158, 7e-9 → 2e-15.
+    #[test]
+    fn steps_end_on_reported_corners() {
+        let exact = integral(3.0);
+        for method in [Method::DormandPrince5, Method::DormandPrince853] {
+            let (plain, aligned) = (run(method, false, None), run(method, true, None));
+            for (r, tol) in [(&plain, 1e-6), (&aligned, 1e-12)] {
+                let (t, y) = r.end.expect("steps");
+                assert!((t - 3.0).abs() < 1e-12);
+                assert!((y[1] - exact).abs() < tol, "{method:?}: {}", y[1] - exact);
+            }
+            assert!(
+                aligned.stats.rejected_steps <= 3
+                    && aligned.stats.rejected_steps < plain.stats.rejected_steps,
+                "{method:?}: {:?} vs {:?}",
+                aligned.stats,
+                plain.stats
+            );
+            assert!(aligned.stats.num_eval < plain.stats.num_eval);
+        }
+    }
+
+    /// A given first step replaces the starting-step estimate (two evaluations) and is clamped
+    /// to the segment; the proposal for the next segment is a step the controller would take.
+    #[test]
+    fn a_given_first_step_skips_the_estimate() {
+        let est = run(Method::DormandPrince5, true, None);
+        let given = run(Method::DormandPrince5, true, Some(0.05));
+        // DP5: 3 start evaluations with the estimate (two for it, one first stage), 1 without,
+        // then 6 per attempted step.
+        assert_eq!(est.stats.num_eval % 6, 3);
+        assert_eq!(given.stats.num_eval % 6, 1);
+        let huge = run(Method::DormandPrince853, true, Some(1e9));
+        assert!(huge.end.is_some());
+        assert!(est.h_next > 0.0 && est.h_next <= 3.0, "{}", est.h_next);
     }
 }

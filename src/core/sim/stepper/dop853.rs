@@ -31,7 +31,10 @@
 //!   cpmech/hwode (file `dop853.f`): the constants below are that file's `PARAMETER` values, digit
 //!   for digit, and the tests check their order conditions.
 
-use super::{arr, arr_mut, sign, DenseOutput, OdeSystem, State, Stats, StepError, N};
+use super::{
+    arr, arr_mut, first_step, sign, DenseOutput, OdeSystem, Options, Run, State, Stats, StepError,
+    N,
+};
 
 // The published constants keep all their digits (more than an f64 holds), so that they can be
 // compared with the source line by line.
@@ -395,6 +398,19 @@ impl DenseStep {
     }
 }
 
+/// The cubic Hermite interpolant at the fraction `s` of a step of size `h` from `y0` (derivative
+/// `f0`) to `y1` (derivative `f1`), in DOP853's form r₀ + s(r₁ + s'(r₂ + s r₃)), s' = 1 − s.
+fn hermite(y0: &State, y1: &State, f0: &State, f1: &State, s: f64, h: f64) -> State {
+    let s1 = 1.0 - s;
+    let mut out = State::zeros();
+    for i in 0..N {
+        let ydiff = y1[i] - y0[i];
+        let bspl = h * f0[i] - ydiff;
+        out[i] = y0[i] + s * (ydiff + s1 * (bspl + s * (ydiff - h * f1[i] - bspl)));
+    }
+    out
+}
+
 /// y + h Σ_j a_j k_j over one row of nonzero (j, a_j), summed in the row's order (as DOP853
 /// forms each stage's argument).
 fn combine(y: &State, h: f64, k: &[State; 16], row: &[(usize, f64)]) -> State {
@@ -528,23 +544,31 @@ fn attempt<S: OdeSystem>(
 /// accepted (t, y).
 pub(super) fn integrate<S: OdeSystem>(
     sys: &mut S,
+    opts: &Options,
     t0: f64,
     t_end: f64,
     y0: &State,
-    rtol: f64,
-    atol: f64,
     dense: &mut DenseOutput,
-) -> Result<(Stats, Option<(f64, State)>), StepError> {
+) -> Result<Run, StepError> {
+    let (rtol, atol) = (opts.rtol, opts.atol);
     let posneg = sign(1.0, t_end - t0);
     let h_max = (t_end - t0).abs();
     let mut stats = Stats::default();
     let (mut x, mut y) = (t0, *y0);
     let mut k = [State::zeros(); 16];
     sys.rhs(x, &y, &mut k[0], false);
-    let mut h = initial_step(sys, x, &y, &k[0], posneg, h_max, rtol, atol);
-    stats.num_eval += 2;
+    stats.num_eval += 1;
+    let mut h = first_step(opts.h0, posneg, h_max, || {
+        stats.num_eval += 1;
+        initial_step(sys, x, &y, &k[0], posneg, h_max, rtol, atol)
+    });
     let (mut reject, mut last) = (false, false);
     let (mut n_step, mut non_stiff, mut iasti) = (0_u32, 0_u32, 0_u32);
+    let kinks = sys.has_kinks();
+    // While a retry ends on a corner: the size of the attempt that crossed it.
+    let mut kink_retry: Option<f64> = None;
+    // The step a last step was shortened from (to end on t_end).
+    let mut h_unshortened = 0.0_f64;
     loop {
         if n_step > N_MAX {
             return Err(StepError::MaxSteps { t: x, n_step });
@@ -553,11 +577,15 @@ pub(super) fn integrate<S: OdeSystem>(
             return Err(StepError::Underflow { t: x });
         }
         if (x + 1.01 * h - t_end) * posneg > 0.0 {
+            h_unshortened = h;
             h = t_end - x;
             last = true;
         }
         n_step += 1;
         let (y1, err, y12) = attempt(sys, x, h, &y, &mut k, rtol, atol);
+        if std::env::var_os("KT_DEBUG").is_some() && err <= 1.0 {
+            eprintln!("ACC x={x:.4} h={h:.3e} err={err:.2e}");
+        }
         stats.num_eval += 11;
         let fac11 = err.powf(EXPO);
         // β = 0 (DOP853's default): no PI term.
@@ -604,7 +632,12 @@ pub(super) fn integrate<S: OdeSystem>(
             y = y1;
             x = xph;
             if sys.accepted(x, &y) || last {
-                return Ok((stats, Some((x, y))));
+                let h_next = posneg * h_new.abs().max(h_unshortened.abs()).min(h_max);
+                return Ok(Run {
+                    stats,
+                    end: Some((x, y)),
+                    h_next,
+                });
             }
             if h_new.abs() > h_max {
                 h_new = posneg * h_max;
@@ -613,6 +646,10 @@ pub(super) fn integrate<S: OdeSystem>(
                 h_new = posneg * h_new.abs().min(h.abs());
             }
             reject = false;
+            if let Some(h_was) = kink_retry.take() {
+                // Past the corner: resume with the step that was tried across it.
+                h_new = posneg * h_new.abs().max(h_was.abs()).min(h_max);
+            }
         } else {
             h_new = h / FACC1.min(fac11 / SAFETY);
             reject = true;
@@ -620,6 +657,28 @@ pub(super) fn integrate<S: OdeSystem>(
                 stats.rejected_steps += 1;
             }
             last = false;
+            h_unshortened = 0.0;
+            if kinks {
+                let h_was = kink_retry.take().unwrap_or(h);
+                // The cubic Hermite interpolant through both ends' states and derivatives
+                // (DOP853's first four dense coefficients) locates a corner to ~1e-4 s on an
+                // ascent's steps; it needs the end's derivative, one evaluation.
+                let mut f1 = State::zeros();
+                sys.rhs(x + h, &y1, &mut f1, false);
+                stats.num_eval += 1;
+                let path = |t: f64| hermite(&y, &y1, &k[0], &f1, (t - x) / h, h);
+                let kk = sys.kink(x, &y, x + h, &y1, &path);
+                if std::env::var_os("KT_DEBUG").is_some() {
+                    eprintln!(
+                        "REJ x={x:.4} h={h:.3e} err={err:.2e} kink={kk:?} n_acc={}",
+                        stats.accepted_steps
+                    );
+                }
+                if let Some(tk) = kk {
+                    h_new = tk - x;
+                    kink_retry = Some(h_was);
+                }
+            }
         }
         h = h_new;
     }
@@ -627,7 +686,7 @@ pub(super) fn integrate<S: OdeSystem>(
 
 #[cfg(test)]
 mod tests {
-    use super::super::{integrate as integrate_any, Method};
+    use super::super::{integrate as integrate_any, Method, Options};
     use super::*;
 
     /// A test system: `f` is the right-hand side; evaluations are counted.
@@ -846,9 +905,15 @@ mod tests {
         {
             let mut s = sys(kepler);
             let mut dense = DenseOutput::default();
-            let (stats, end) =
-                integrate_any(&mut s, method, 0.0, period, &y0, 1e-12, 1e-12, &mut dense)
-                    .expect("integrates");
+            let opts = Options {
+                method,
+                rtol: 1e-12,
+                atol: 1e-12,
+                h0: None,
+            };
+            let run =
+                integrate_any(&mut s, &opts, 0.0, period, &y0, &mut dense).expect("integrates");
+            let (stats, end) = (run.stats, run.end);
             evals[m] = stats.num_eval;
             let (t1, y1) = end.expect("steps");
             assert!((t1 - period).abs() < 1e-14);
@@ -895,17 +960,15 @@ mod tests {
         let mut s = sys(forced);
         s.stop_above = 1.2;
         let mut dense = DenseOutput::default();
-        let (stats, end) = integrate_any(
-            &mut s,
-            Method::DormandPrince853,
-            0.0,
-            30.0,
-            &forced_y0(),
-            1e-11,
-            1e-11,
-            &mut dense,
-        )
-        .expect("integrates");
+        let opts = Options {
+            method: Method::DormandPrince853,
+            rtol: 1e-11,
+            atol: 1e-11,
+            h0: None,
+        };
+        let run =
+            integrate_any(&mut s, &opts, 0.0, 30.0, &forced_y0(), &mut dense).expect("integrates");
+        let (stats, end) = (run.stats, run.end);
         assert_eq!(s.evals, stats.num_eval);
         let (t1, y1) = end.expect("steps");
         assert!(y1[1] > 1.2 && t1 < 30.0, "stopped at {t1} with {}", y1[1]);
