@@ -134,6 +134,29 @@ pub fn us1976(altitude_m: f64) -> AtmosphereState {
     }
 }
 
+/// The speed of sound of [`us1976`] at geometric altitude `altitude_m` (m), m/s, computed as
+/// `us1976` computes it but without the pressure and density (their `exp`/`ln_1p`): for
+/// locating the Mach corners of a drag table.
+#[must_use]
+pub fn us1976_speed_of_sound_mps(altitude_m: f64) -> f64 {
+    let z_m = if altitude_m.is_nan() {
+        0.0
+    } else {
+        altitude_m.clamp(Z_MIN_M, Z_MAX_M)
+    };
+    let t_k = if z_m < Z_JOIN_M {
+        let h_m = R0_M * z_m / (R0_M + z_m);
+        let mut i = LAYERS.len() - 1;
+        while i > 0 && h_m < LAYERS[i].base_h_m {
+            i -= 1;
+        }
+        LAYERS[i].base_t_k + LAYERS[i].lapse_k_per_m * (h_m - LAYERS[i].base_h_m)
+    } else {
+        kinetic_temperature_k(z_m)
+    };
+    speed_of_sound(t_k)
+}
+
 /// U.S. Standard Atmosphere 1976 at GEOPOTENTIAL altitude `geopotential_m`
 /// (geopotential metres, m′), the altitude the standard's layer table uses.
 ///
@@ -429,13 +452,18 @@ fn kinetic_temperature_k(z_m: f64) -> f64 {
     }
 }
 
-/// Assemble a state; speed of sound a = √(γ R* T / M0) (eq. 50).
+/// Speed of sound a = √(γ R* T / M0) at temperature `t_k` (K), m/s (eq. 50).
+fn speed_of_sound(t_k: f64) -> f64 {
+    (GAMMA * R_AIR_J_PER_KG_K * t_k).sqrt()
+}
+
+/// Assemble a state; speed of sound from [`speed_of_sound`].
 fn state(t_k: f64, p_pa: f64, rho_kg_m3: f64) -> AtmosphereState {
     AtmosphereState {
         temperature_k: t_k,
         pressure_pa: p_pa,
         density_kg_m3: rho_kg_m3,
-        speed_of_sound_mps: (GAMMA * R_AIR_J_PER_KG_K * t_k).sqrt(),
+        speed_of_sound_mps: speed_of_sound(t_k),
     }
 }
 
@@ -474,6 +502,19 @@ mod tests {
         ];
         for row in rows {
             check("H m'", us1976_geopotential(row.0), row, 1e-5);
+        }
+    }
+
+    #[test]
+    fn speed_of_sound_alone_is_the_full_models() {
+        for z in [
+            -3e3, 0.0, 5e3, 11_019.0, 30e3, 60e3, 85_999.0, 86e3, 95e3, 115e3, 300e3, 2e6,
+        ] {
+            assert_eq!(
+                us1976_speed_of_sound_mps(z).to_bits(),
+                us1976(z).speed_of_sound_mps.to_bits(),
+                "{z}"
+            );
         }
     }
 

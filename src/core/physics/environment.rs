@@ -247,6 +247,18 @@ impl Environment {
         }
     }
 
+    /// The speed of sound of [`Environment::air`] at altitude `altitude_m` (m), m/s, without
+    /// the rest of the air's state.
+    pub fn speed_of_sound_mps(&self, altitude_m: f64) -> f64 {
+        match self.atmosphere {
+            AtmosphereModel::Us1976 | AtmosphereModel::Us1976Scaled(_) => {
+                super::atmosphere::us1976_speed_of_sound_mps(altitude_m)
+            }
+            AtmosphereModel::Vacuum => VACUUM.speed_of_sound_mps,
+            AtmosphereModel::Constant(a) => a.speed_of_sound_mps,
+        }
+    }
+
     /// Air at altitude `altitude_m`.
     pub fn air(&self, altitude_m: f64) -> AtmosphereState {
         match self.atmosphere {

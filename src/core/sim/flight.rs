@@ -309,7 +309,7 @@ fn corner_coordinates(env: &Environment, y: &State, with_mach: bool) -> (f64, f6
     let v = Vector3::new(y[3], y[4], y[5]);
     let v_rel = v - env.omega_rad_s().cross(&r);
     // As `forces` forms it.
-    let mach = v_rel.norm() / env.air(alt).speed_of_sound_mps.max(1e-3);
+    let mach = v_rel.norm() / env.speed_of_sound_mps(alt).max(1e-3);
     (alt, mach)
 }
 
