@@ -583,9 +583,6 @@ pub(super) fn integrate<S: OdeSystem>(
         }
         n_step += 1;
         let (y1, err, y12) = attempt(sys, x, h, &y, &mut k, rtol, atol);
-        if std::env::var_os("KT_DEBUG").is_some() && err <= 1.0 {
-            eprintln!("ACC x={x:.4} h={h:.3e} err={err:.2e}");
-        }
         stats.num_eval += 11;
         let fac11 = err.powf(EXPO);
         // β = 0 (DOP853's default): no PI term.
@@ -667,14 +664,7 @@ pub(super) fn integrate<S: OdeSystem>(
                 sys.rhs(x + h, &y1, &mut f1, false);
                 stats.num_eval += 1;
                 let path = |t: f64| hermite(&y, &y1, &k[0], &f1, (t - x) / h, h);
-                let kk = sys.kink(x, &y, x + h, &y1, &path);
-                if std::env::var_os("KT_DEBUG").is_some() {
-                    eprintln!(
-                        "REJ x={x:.4} h={h:.3e} err={err:.2e} kink={kk:?} n_acc={}",
-                        stats.accepted_steps
-                    );
-                }
-                if let Some(tk) = kk {
+                if let Some(tk) = sys.kink(x, &y, x + h, &y1, &path) {
                     h_new = tk - x;
                     kink_retry = Some(h_was);
                 }
