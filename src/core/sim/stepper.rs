@@ -538,7 +538,9 @@ fn integrate5<S: OdeSystem>(
         if 0.1 * h.abs() <= f64::EPSILON * x.abs() {
             return Err(StepError::Underflow { t: x });
         }
-        if (x + 1.01 * h - t_end) * posneg > 0.0 {
+        // Stretch a step that would end just short of t_end to end on it; a retry that ends on
+        // a corner keeps its length (stretched, it would cross the corner again, for ever).
+        if kink_retry.is_none() && (x + 1.01 * h - t_end) * posneg > 0.0 {
             h_unshortened = h;
             h = t_end - x;
             last = true;
@@ -919,6 +921,10 @@ mod corner_tests {
     }
 
     fn run(method: Method, report: bool, h0: Option<f64>) -> Run {
+        run_to(method, report, h0, 3.0)
+    }
+
+    fn run_to(method: Method, report: bool, h0: Option<f64>, t_end: f64) -> Run {
         let opts = Options {
             method,
             rtol: 1e-10,
@@ -930,11 +936,27 @@ mod corner_tests {
             &mut Cornered { report },
             &opts,
             0.0,
-            3.0,
+            t_end,
             &State::zeros(),
             &mut dense,
         )
         .expect("integrates")
+    }
+
+    /// A corner within the last 1 % of a segment: the retry that ends on it must not be
+    /// stretched to the segment's end (it crossed the corner again, and the integration looped
+    /// until the step limit; found on the heavy demo by the optimizer).
+    #[test]
+    fn a_corner_just_before_the_end_of_a_segment_is_not_crossed_again() {
+        for method in [Method::DormandPrince5, Method::DormandPrince853] {
+            for t_end in [1.9005, 1.903, 1.91, 2.6001] {
+                let r = run_to(method, true, Some(0.5), t_end);
+                let (t, y) = r.end.expect("steps");
+                assert!((t - t_end).abs() < 1e-12, "{method:?} {t_end}");
+                assert!((y[1] - integral(t_end)).abs() < 1e-9, "{method:?} {t_end}");
+                assert!(r.stats.rejected_steps < 10, "{method:?} {t_end}: {:?}", r.stats);
+            }
+        }
     }
 
     /// A rejected step across a corner is retried to end on it: far fewer rejections and

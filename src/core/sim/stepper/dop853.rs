@@ -576,7 +576,9 @@ pub(super) fn integrate<S: OdeSystem>(
         if 0.1 * h.abs() <= f64::EPSILON * x.abs() {
             return Err(StepError::Underflow { t: x });
         }
-        if (x + 1.01 * h - t_end) * posneg > 0.0 {
+        // Stretch a step that would end just short of t_end to end on it; a retry that ends on
+        // a corner keeps its length (stretched, it would cross the corner again, for ever).
+        if kink_retry.is_none() && (x + 1.01 * h - t_end) * posneg > 0.0 {
             h_unshortened = h;
             h = t_end - x;
             last = true;
