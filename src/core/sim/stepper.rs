@@ -954,7 +954,11 @@ mod corner_tests {
                 let (t, y) = r.end.expect("steps");
                 assert!((t - t_end).abs() < 1e-12, "{method:?} {t_end}");
                 assert!((y[1] - integral(t_end)).abs() < 1e-9, "{method:?} {t_end}");
-                assert!(r.stats.rejected_steps < 10, "{method:?} {t_end}: {:?}", r.stats);
+                assert!(
+                    r.stats.rejected_steps < 10,
+                    "{method:?} {t_end}: {:?}",
+                    r.stats
+                );
             }
         }
     }
