@@ -1,6 +1,8 @@
 //! The flight's integrators: Dormand–Prince 5(4) with its fourth-order continuous extension (the
 //! default, this module), and Dormand–Prince 8(5,3) with its seventh-order one ([`dop853`],
-//! `model.integrator: "dop853"`), behind one [`integrate`] and one [`DenseOutput`].
+//! `model.integrator: "dop853"`), behind one [`integrate`] and one [`DenseOutput`]. Both can end
+//! a rejected step's retry on a corner the system reports ([`OdeSystem::kink`]) and start from a
+//! given step size ([`Options::h0`]); without either, DP5 is `ode_solvers`' arithmetic bit for bit.
 //!
 //! Every floating-point operation is the one `ode_solvers` 0.6.2's `Dopri5` performs, in the same
 //! order (tableau, stage sums, error norm, PI step-size controller, initial step, stiffness test,
