@@ -1,8 +1,13 @@
 //! Criterion benchmark: one ascent of each bundled demo with the settings that are candidates for
 //! new defaults (issue 11; docs/method.md §7), measured beside `benches/fly.rs`: integrator
-//! `model.rtol` 1e-9 instead of 1e-11, `aero.cd_interpolation: "monotone_cubic"` on every drag
-//! table instead of linear, and both. Run with `cargo bench --bench fly_candidates` (about a
-//! minute); `-- rtol9` and the like pick one variant.
+//! `model.rtol` 1e-9 instead of 1e-11 (`rtol9`), `aero.cd_interpolation: "monotone_cubic"` on
+//! every drag table instead of linear (`cubic`), both (`both`); Dormand–Prince 8(5,3)
+//! (`model.integrator: "dop853"`) at rtol 1e-11, 1e-10, 1e-9 (`dp853`, `dp853_10`, `dp853_9`);
+//! DP5 at 1e-10 (`rtol10`); and the corner-ending steps with carried step sizes
+//! (`model.end_steps_at_corners`, `model.carry_step_size`) with DP5 (`dp5_fast`, `dp5_fast10`,
+//! `dp5_fast9`) and with DP853 (`dp853_fast`, `dp853_fast10`, `dp853_fast9`). Run with
+//! `cargo bench --bench fly_candidates` (about six minutes); `-- dp853_fast/` and the like pick
+//! one variant.
 
 use std::hint::black_box;
 use std::path::Path;
@@ -45,11 +50,96 @@ fn both(doc: &mut Value) {
     cubic(doc);
 }
 
+/// Sets a `model` key.
+fn model(doc: &mut Value, key: &str, value: Value) {
+    if !doc["model"].is_object() {
+        doc["model"] = json!({});
+    }
+    doc["model"][key] = value;
+}
+
+/// Dormand–Prince 8(5,3).
+fn dp853(doc: &mut Value) {
+    model(doc, "integrator", json!("dop853"));
+}
+
+/// Steps ending on corners, step sizes carried from segment to segment.
+fn corners_carry(doc: &mut Value) {
+    model(doc, "end_steps_at_corners", json!(true));
+    model(doc, "carry_step_size", json!(true));
+}
+
+/// DP5 at rtol 1e-10.
+fn rtol10(doc: &mut Value) {
+    model(doc, "rtol", json!(1e-10));
+}
+
+/// [`dp853`] at rtol 1e-10.
+fn dp853_10(doc: &mut Value) {
+    dp853(doc);
+    rtol10(doc);
+}
+
+/// [`dp853`] at rtol 1e-9.
+fn dp853_9(doc: &mut Value) {
+    dp853(doc);
+    rtol9(doc);
+}
+
+/// DP5 with [`corners_carry`].
+fn dp5_fast(doc: &mut Value) {
+    corners_carry(doc);
+}
+
+/// [`dp5_fast`] at rtol 1e-10.
+fn dp5_fast10(doc: &mut Value) {
+    corners_carry(doc);
+    rtol10(doc);
+}
+
+/// [`dp5_fast`] at rtol 1e-9.
+fn dp5_fast9(doc: &mut Value) {
+    corners_carry(doc);
+    rtol9(doc);
+}
+
+/// DP853 with [`corners_carry`].
+fn dp853_fast(doc: &mut Value) {
+    dp853(doc);
+    corners_carry(doc);
+}
+
+/// [`dp853_fast`] at rtol 1e-10.
+fn dp853_fast10(doc: &mut Value) {
+    dp853_fast(doc);
+    rtol10(doc);
+}
+
+/// [`dp853_fast`] at rtol 1e-9.
+fn dp853_fast9(doc: &mut Value) {
+    dp853_fast(doc);
+    rtol9(doc);
+}
+
 /// A named change of a problem document.
 type Variant = (&'static str, fn(&mut Value));
 
 fn bench_candidates(c: &mut Criterion) {
-    let variants: [Variant; 3] = [("rtol9", rtol9), ("cubic", cubic), ("both", both)];
+    let variants: [Variant; 13] = [
+        ("rtol9", rtol9),
+        ("cubic", cubic),
+        ("both", both),
+        ("rtol10", rtol10),
+        ("dp853", dp853),
+        ("dp853_10", dp853_10),
+        ("dp853_9", dp853_9),
+        ("dp5_fast", dp5_fast),
+        ("dp5_fast10", dp5_fast10),
+        ("dp5_fast9", dp5_fast9),
+        ("dp853_fast", dp853_fast),
+        ("dp853_fast10", dp853_fast10),
+        ("dp853_fast9", dp853_fast9),
+    ];
     let mut group = c.benchmark_group("fly_candidates");
     for (tag, change) in variants {
         for name in DEMOS {

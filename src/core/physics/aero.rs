@@ -105,6 +105,16 @@ impl DragTable {
         self.cd[n - 1]
     }
 
+    /// Mach numbers where C_D has a corner (its slope jumps): every table point of a linear
+    /// table (the held ends included); none for the monotone cubic, whose slope is continuous.
+    pub fn corner_machs(&self) -> &[f64] {
+        if self.slope.is_empty() && self.mach.len() > 1 {
+            &self.mach
+        } else {
+            &[]
+        }
+    }
+
     /// Product C_D·S_ref at Mach `mach`, m².
     pub fn cd_area_m2(&self, mach: f64) -> f64 {
         self.cd(mach) * self.ref_area_m2
@@ -183,6 +193,16 @@ mod tests {
         }
         // The peak node is a local extremum: zero slope there.
         assert!(t.cd(1.05 + 1e-3) < 0.55 && t.cd(1.05 - 1e-3) < 0.55);
+    }
+
+    #[test]
+    fn a_linear_table_has_corners_at_its_points_and_the_cubic_none() {
+        let pts = [[0.5, 0.3], [1.0, 0.5], [3.0, 0.25]];
+        let lin = DragTable::with(2.0, &pts, CdInterpolation::Linear);
+        assert_eq!(lin.corner_machs(), &[0.5, 1.0, 3.0]);
+        let cubic = DragTable::with(2.0, &pts, CdInterpolation::MonotoneCubic);
+        assert!(cubic.corner_machs().is_empty());
+        assert!(DragTable::constant(2.0, 0.3).corner_machs().is_empty());
     }
 
     #[test]

@@ -134,6 +134,29 @@ pub fn us1976(altitude_m: f64) -> AtmosphereState {
     }
 }
 
+/// The speed of sound of [`us1976`] at geometric altitude `altitude_m` (m), m/s, computed as
+/// `us1976` computes it but without the pressure and density (their `exp`/`ln_1p`): for
+/// locating the Mach corners of a drag table.
+#[must_use]
+pub fn us1976_speed_of_sound_mps(altitude_m: f64) -> f64 {
+    let z_m = if altitude_m.is_nan() {
+        0.0
+    } else {
+        altitude_m.clamp(Z_MIN_M, Z_MAX_M)
+    };
+    let t_k = if z_m < Z_JOIN_M {
+        let h_m = R0_M * z_m / (R0_M + z_m);
+        let mut i = LAYERS.len() - 1;
+        while i > 0 && h_m < LAYERS[i].base_h_m {
+            i -= 1;
+        }
+        LAYERS[i].base_t_k + LAYERS[i].lapse_k_per_m * (h_m - LAYERS[i].base_h_m)
+    } else {
+        kinetic_temperature_k(z_m)
+    };
+    speed_of_sound(t_k)
+}
+
 /// U.S. Standard Atmosphere 1976 at GEOPOTENTIAL altitude `geopotential_m`
 /// (geopotential metres, m′), the altitude the standard's layer table uses.
 ///
@@ -221,6 +244,27 @@ const LAYERS: [Layer; 7] = [
     isothermal_layer!(47_000.0, 270.65, 110.906_305_554_965_9),
     gradient_layer!(51_000.0, 270.65, -2.8e-3, 66.938_873_118_687_27),
     gradient_layer!(71_000.0, 214.65, -2.0e-3, 3.956_420_428_040_725),
+];
+
+/// Geometric altitude (m) of geopotential altitude `h_m` (m′): Z = r0 H/(r0 − H) (eq. 18 inverted).
+const fn geometric_of(h_m: f64) -> f64 {
+    R0_M * h_m / (R0_M - h_m)
+}
+
+/// Geometric altitudes (m) where the model's temperature has a corner or a step, in increasing
+/// order: the bases of layers 2–7 (11, 20, 32, 47, 51, 71 km′), where the lapse rate changes and
+/// so the slopes of pressure, density and speed of sound jump, and the 86 km join, where the
+/// temperature steps by −0.079 K (see [`AtmosphereState::temperature_k`]). Above 86 km the
+/// tabulated rows are corners too, but the air there is too thin for them to matter to a flight
+/// (none of the demos' rejected steps falls there).
+pub const CORNER_ALTITUDES_M: [f64; 7] = [
+    geometric_of(11_000.0),
+    geometric_of(20_000.0),
+    geometric_of(32_000.0),
+    geometric_of(47_000.0),
+    geometric_of(51_000.0),
+    geometric_of(71_000.0),
+    Z_JOIN_M,
 ];
 
 /// Layered model (eqs. 23, 33a, 33b, 42) at geopotential altitude `h_m`, m′.
@@ -408,13 +452,18 @@ fn kinetic_temperature_k(z_m: f64) -> f64 {
     }
 }
 
-/// Assemble a state; speed of sound a = √(γ R* T / M0) (eq. 50).
+/// Speed of sound a = √(γ R* T / M0) at temperature `t_k` (K), m/s (eq. 50).
+fn speed_of_sound(t_k: f64) -> f64 {
+    (GAMMA * R_AIR_J_PER_KG_K * t_k).sqrt()
+}
+
+/// Assemble a state; speed of sound from [`speed_of_sound`].
 fn state(t_k: f64, p_pa: f64, rho_kg_m3: f64) -> AtmosphereState {
     AtmosphereState {
         temperature_k: t_k,
         pressure_pa: p_pa,
         density_kg_m3: rho_kg_m3,
-        speed_of_sound_mps: (GAMMA * R_AIR_J_PER_KG_K * t_k).sqrt(),
+        speed_of_sound_mps: speed_of_sound(t_k),
     }
 }
 
@@ -453,6 +502,37 @@ mod tests {
         ];
         for row in rows {
             check("H m'", us1976_geopotential(row.0), row, 1e-5);
+        }
+    }
+
+    #[test]
+    fn speed_of_sound_alone_is_the_full_models() {
+        for z in [
+            -3e3, 0.0, 5e3, 11_019.0, 30e3, 60e3, 85_999.0, 86e3, 95e3, 115e3, 300e3, 2e6,
+        ] {
+            assert_eq!(
+                us1976_speed_of_sound_mps(z).to_bits(),
+                us1976(z).speed_of_sound_mps.to_bits(),
+                "{z}"
+            );
+        }
+    }
+
+    /// The corners are the layer bases at their geometric altitudes and the 86 km join.
+    /// Source: U.S. Standard Atmosphere 1976 layer table, geometric Z of the bases as in the
+    /// domain brief §3(f) (11.019, 20.063, 32.162, 47.350, 51.412, 71.802, 86.000 km).
+    #[test]
+    fn corner_altitudes_are_the_layer_bases() {
+        let want_km = [11.019, 20.063, 32.162, 47.350, 51.412, 71.802, 86.000];
+        for (z, w) in CORNER_ALTITUDES_M.iter().zip(want_km) {
+            assert!((z / 1e3 - w).abs() < 5e-4, "{z} m vs {w} km");
+        }
+        // Either side of each base the lapse rate differs: the slope of T jumps there.
+        for &z in &CORNER_ALTITUDES_M[..6] {
+            let slope =
+                |a: f64, b: f64| (us1976(b).temperature_k - us1976(a).temperature_k) / (b - a);
+            let (below, above) = (slope(z - 20.0, z - 10.0), slope(z + 10.0, z + 20.0));
+            assert!((below - above).abs() > 5e-4, "{z}: {below} {above} K/m");
         }
     }
 

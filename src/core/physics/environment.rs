@@ -236,6 +236,29 @@ impl Environment {
             .asin()
     }
 
+    /// Altitudes (m, increasing) where the air's properties have a corner or a step (see
+    /// [`super::atmosphere::CORNER_ALTITUDES_M`]); none without the standard atmosphere.
+    pub fn air_corner_altitudes_m(&self) -> &'static [f64] {
+        match self.atmosphere {
+            AtmosphereModel::Us1976 | AtmosphereModel::Us1976Scaled(_) => {
+                &super::atmosphere::CORNER_ALTITUDES_M
+            }
+            AtmosphereModel::Vacuum | AtmosphereModel::Constant(_) => &[],
+        }
+    }
+
+    /// The speed of sound of [`Environment::air`] at altitude `altitude_m` (m), m/s, without
+    /// the rest of the air's state.
+    pub fn speed_of_sound_mps(&self, altitude_m: f64) -> f64 {
+        match self.atmosphere {
+            AtmosphereModel::Us1976 | AtmosphereModel::Us1976Scaled(_) => {
+                super::atmosphere::us1976_speed_of_sound_mps(altitude_m)
+            }
+            AtmosphereModel::Vacuum => VACUUM.speed_of_sound_mps,
+            AtmosphereModel::Constant(a) => a.speed_of_sound_mps,
+        }
+    }
+
     /// Air at altitude `altitude_m`.
     pub fn air(&self, altitude_m: f64) -> AtmosphereState {
         match self.atmosphere {
@@ -330,6 +353,19 @@ impl Environment {
         let theta = self.rotation_angle_rad(t_s + hit.time_of_flight_s);
         let g = earth::ecef_to_geodetic(&earth::eci_to_ecef(&hit.r_m, theta));
         Some(g)
+    }
+
+    /// The altitude of [`Environment::local`] at position `r_m` (m): geodetic height on WGS-84,
+    /// `|r| − R` on the sphere, `z` on the flat model, m. Computed as `local` computes it.
+    pub fn altitude_m(&self, r_m: &Vector3<f64>) -> f64 {
+        match self.earth {
+            EarthModel::Wgs84 { .. } => {
+                let p = (r_m.x * r_m.x + r_m.y * r_m.y).sqrt();
+                earth::meridian_point(p, r_m.z).altitude_m
+            }
+            EarthModel::Spherical { radius_m, .. } => r_m.norm() - radius_m,
+            EarthModel::Flat { .. } => r_m.z,
+        }
     }
 
     /// Local conditions at time `t_s`, position `r_m`, inertial velocity `v_mps`. No allocation.

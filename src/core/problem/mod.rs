@@ -123,9 +123,30 @@ pub struct Reserves {
     pub disposal_kg: f64,
 }
 
+/// The embedded Runge–Kutta pair that integrates a flight (`model.integrator`).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub enum IntegratorMethod {
+    /// Dormand–Prince 5(4) with its fourth-order continuous extension (the default).
+    #[default]
+    DormandPrince5,
+    /// Dormand–Prince 8(5,3) with its seventh-order continuous extension (Hairer, Nørsett &
+    /// Wanner's DOP853): fewer, longer steps at tight tolerances.
+    DormandPrince853,
+}
+
 /// Integrator settings.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct IntegratorSettings {
+    /// The Runge–Kutta pair (default Dormand–Prince 5(4)).
+    pub method: IntegratorMethod,
+    /// A rejected step that crossed a corner of the right-hand side (a node of a linear drag
+    /// table in Mach, a layer base of the standard atmosphere) is retried to end on the corner
+    /// (default false).
+    pub end_steps_at_corners: bool,
+    /// A segment (the integration from one event to the next) starts with the step size the
+    /// previous segment's controller proposed, instead of a fresh estimate (default false; the
+    /// first segment always estimates).
+    pub carry_step_size: bool,
     /// Relative tolerance (default 1e-11: tight enough that terminal states are smooth to a few
     /// millimetres in the program's parameters, as finite-difference Jacobians need).
     pub rtol: f64,
@@ -138,6 +159,9 @@ pub struct IntegratorSettings {
 impl Default for IntegratorSettings {
     fn default() -> Self {
         Self {
+            method: IntegratorMethod::DormandPrince5,
+            end_steps_at_corners: false,
+            carry_step_size: false,
             rtol: 1e-11,
             atol: 1e-8,
             max_flight_time_s: 20_000.0,

@@ -2,7 +2,9 @@
 //! path of the field and the reason.
 
 use super::file::*;
-use super::{AzimuthSource, Insertion, IntegratorSettings, Limits, Problem, Site, Target};
+use super::{
+    AzimuthSource, Insertion, IntegratorMethod, IntegratorSettings, Limits, Problem, Site, Target,
+};
 use crate::core::error::{in_range as range, ProblemError};
 use crate::core::physics::aero::DragTable;
 use crate::core::physics::earth::{self, Geodetic, G0_MPS2, WGS84_E2};
@@ -691,6 +693,13 @@ fn sphere(m: &ModelFile, s: &SphereFile) -> R<EarthModel> {
 fn integrator(m: &ModelFile) -> R<IntegratorSettings> {
     let d = IntegratorSettings::default();
     Ok(IntegratorSettings {
+        method: match m.integrator {
+            None => d.method,
+            Some(IntegratorFile::Dopri5) => IntegratorMethod::DormandPrince5,
+            Some(IntegratorFile::Dop853) => IntegratorMethod::DormandPrince853,
+        },
+        end_steps_at_corners: m.end_steps_at_corners.unwrap_or(d.end_steps_at_corners),
+        carry_step_size: m.carry_step_size.unwrap_or(d.carry_step_size),
         rtol: range("model.rtol", m.rtol.unwrap_or(d.rtol), 1e-14, 1e-3, true)?,
         atol: range("model.atol", m.atol.unwrap_or(d.atol), 1e-14, 1.0, true)?,
         max_flight_time_s: range(

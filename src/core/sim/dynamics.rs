@@ -12,6 +12,7 @@
 
 use nalgebra::{SVector, Vector3};
 
+use crate::core::physics::aero::DragTable;
 use crate::core::physics::environment::{Environment, Local};
 use crate::core::problem::{Limits, Problem, Site};
 use crate::core::steering::{pitch_heading_dir, unit_or, ActiveLaw};
@@ -162,6 +163,7 @@ pub struct Forces {
 }
 
 /// Thrust direction of `mode` at time `t_s` (`law`: the arc's active steering law).
+#[inline]
 pub fn attitude_dir(mode: &Mode, law: &dyn ActiveLaw, t_s: f64, loc: &Local) -> Vector3<f64> {
     match mode.attitude {
         Attitude::Vertical => loc.up,
@@ -209,6 +211,18 @@ pub fn limit_throttle(
     (a_max * m + p_ae_core - aero_axial_n - other_net_n) / core_vac_n
 }
 
+/// The drag table of `mode`'s configuration: the boosters' while they are attached, else the
+/// current stage's.
+#[inline]
+pub fn active_aero<'a>(p: &FlightModel<'a>, mode: &Mode) -> &'a DragTable {
+    if mode.boosters_attached {
+        p.vehicle.boosters.as_ref().map(|b| &b.aero)
+    } else {
+        None
+    }
+    .unwrap_or(&p.vehicle.stages[mode.stage].aero)
+}
+
 /// Thrust, drag and related quantities at one state.
 pub fn forces(
     p: &FlightModel,
@@ -222,12 +236,7 @@ pub fn forces(
     let vr = loc.v_rel_mps.norm();
     let q_pa = 0.5 * loc.air.density_kg_m3 * vr * vr;
     let mach = vr / loc.air.speed_of_sound_mps.max(1e-3);
-    let aero = if mode.boosters_attached {
-        p.vehicle.boosters.as_ref().map(|b| &b.aero)
-    } else {
-        None
-    }
-    .unwrap_or(&p.vehicle.stages[mode.stage].aero);
+    let aero = active_aero(p, mode);
     let aero_n = -loc.v_rel_mps * (q_pa * aero.cd_area_m2(mach) / vr.max(1e-12));
     let p_a = loc.air.pressure_pa;
     let (mut vac, mut area, mut mdot) = (0.0, 0.0, 0.0);

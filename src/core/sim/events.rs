@@ -81,8 +81,48 @@ pub fn value(
     t: f64,
     y: &State,
 ) -> f64 {
+    if let Some(g) = value_of_state(p, mode, ev, t, y) {
+        return g;
+    }
     let (r, v) = rv(y);
     value_at(p, mode, law, ev, t, y, &p.environment.local(t, &r, &v))
+}
+
+/// The switching function of an event that depends on the state alone (propellant, orbital
+/// energy and elements), without the local conditions; `None` for the others. Root searches
+/// call [`value`] a dozen times per event: these skip the local conditions (the same numbers,
+/// fewer operations).
+fn value_of_state(p: &FlightModel, mode: &Mode, ev: &StateEvent, t: f64, y: &State) -> Option<f64> {
+    let env = &p.environment;
+    let (r, v) = match ev {
+        StateEvent::Depletion => return Some(-stage_propellant_kg(p, mode, t, y[6])),
+        StateEvent::Energy(_)
+        | StateEvent::ApogeeRadius(_)
+        | StateEvent::PerigeeRadius(_)
+        | StateEvent::Apogee => rv(y),
+        _ => return None,
+    };
+    Some(match *ev {
+        StateEvent::Energy(e) => {
+            let en = env.specific_energy_j_kg(&r, &v);
+            (en - e) / e.abs().max(1.0)
+        }
+        StateEvent::ApogeeRadius(ra) => {
+            let el = Elements::from_state(&r, &v, env.gm_m3_s2());
+            let a = if el.apogee_radius_m.is_finite() {
+                el.apogee_radius_m
+            } else {
+                1e12
+            };
+            (a - ra) / env.reference_radius_m()
+        }
+        StateEvent::PerigeeRadius(rp) => {
+            (Elements::from_state(&r, &v, env.gm_m3_s2()).perigee_radius_m - rp)
+                / env.reference_radius_m()
+        }
+        StateEvent::Apogee => -r.dot(&v) / (r.norm() * v.norm()).max(1e-9),
+        _ => return None,
+    })
 }
 
 /// [`value`] with the local conditions at (t, y) already computed.
@@ -112,7 +152,6 @@ pub(crate) fn value_with(
     loc: &Local,
     known: Option<&Forces>,
 ) -> f64 {
-    let (r, v) = rv(y);
     let vrel = || known.map_or_else(|| loc.v_rel_mps.norm(), |f| f.speed_rel_mps);
     let forces_of = |m: &Mode| match known {
         Some(f) if m == mode => *f,
@@ -129,7 +168,6 @@ pub(crate) fn value_with(
             };
             pitch - sin_g.clamp(-1.0, 1.0).asin()
         }
-        StateEvent::Depletion => -stage_propellant_kg(p, mode, t, y[6]),
         StateEvent::AccelLimitOnset => {
             let nominal = match mode.throttle {
                 Throttle::Fixed(k) | Throttle::AccelLimit { nominal: k } => k,
@@ -160,26 +198,11 @@ pub(crate) fn value_with(
         StateEvent::JettisonAltitude(_, h) => loc.altitude_m - h,
         StateEvent::HeatingArm(_, q) => heating_w_m2(loc.air.density_kg_m3, vrel()) / q - 1.0,
         StateEvent::HeatingFall(_, q) => 1.0 - heating_w_m2(loc.air.density_kg_m3, vrel()) / q,
-        StateEvent::Energy(e) => {
-            let en = p.environment.specific_energy_j_kg(&r, &v);
-            (en - e) / e.abs().max(1.0)
-        }
-        StateEvent::ApogeeRadius(ra) => {
-            let env = &p.environment;
-            let el = Elements::from_state(&r, &v, env.gm_m3_s2());
-            let a = if el.apogee_radius_m.is_finite() {
-                el.apogee_radius_m
-            } else {
-                1e12
-            };
-            (a - ra) / env.reference_radius_m()
-        }
-        StateEvent::PerigeeRadius(rp) => {
-            let env = &p.environment;
-            (Elements::from_state(&r, &v, env.gm_m3_s2()).perigee_radius_m - rp)
-                / env.reference_radius_m()
-        }
-        StateEvent::Apogee => -r.dot(&v) / (r.norm() * v.norm()).max(1e-9),
+        StateEvent::Depletion
+        | StateEvent::Energy(_)
+        | StateEvent::ApogeeRadius(_)
+        | StateEvent::PerigeeRadius(_)
+        | StateEvent::Apogee => value_of_state(p, mode, ev, t, y).unwrap_or(f64::NAN),
         StateEvent::Ground(h) => h - loc.altitude_m,
     }
 }
@@ -211,7 +234,7 @@ pub(crate) fn locate(
 /// on the hot path: the executor's bookkeeping cost more than the evaluations), so the root is
 /// the same to the bit: the point of smallest |g| seen (the first of equals). `None` when `g`
 /// fails (`None`) at an evaluation, or g(a) and g(b) have the same sign.
-fn brent_root(
+pub(crate) fn brent_root(
     mut a: f64,
     mut b: f64,
     tol: f64,

@@ -4,15 +4,15 @@ use nalgebra::Vector3;
 use serde::Serialize;
 
 use super::dynamics::{
-    axial_accel_mps2, derivative_keeping, forces, ix, Attitude, FlightModel, Forces, Mode, State,
-    Throttle,
+    active_aero, axial_accel_mps2, derivative, derivative_keeping, forces, ix, Attitude,
+    FlightModel, Forces, Mode, State, Throttle,
 };
 use super::events::{self, StateEvent};
 use super::record::{snapshot, Snapshot};
 use super::stepper::{self, DenseOutput, OdeSystem};
 use crate::core::physics::earth::G0_MPS2;
-use crate::core::physics::environment::Local;
-use crate::core::problem::Problem;
+use crate::core::physics::environment::{AtmosphereModel, Environment, Local};
+use crate::core::problem::{IntegratorMethod, Problem};
 use crate::core::steering::gravity_turn::ZeroAlpha;
 use crate::core::steering::{ActiveLaw, Arc, ArcStart, CoastEnd, Cutoff, GuidanceInput, RiseEnd};
 use crate::core::vehicle::JettisonWhen;
@@ -281,7 +281,13 @@ struct Sys<'a> {
     mode: Mode,
     evs: &'a [StateEvent],
     watch: &'a mut Watch,
+    /// Report corners of the right-hand side to the integrator (`model.end_steps_at_corners`).
+    corners: bool,
 }
+
+/// Corner times are located to this, s (on an interpolant good to ~1e-4 s on long steps; the
+/// error of straddling a corner by δ grows as δ², and 1e-7 s is far below any tolerance).
+const CORNER_TIME_TOL_S: f64 = 1e-7;
 
 /// What the system records during one segment. Kept by the flyer and reused from segment to
 /// segment, so that its vectors keep their capacity: no allocation per step.
@@ -315,6 +321,21 @@ fn q_and_accel_of(f: &Forces, m_kg: f64, loc: &Local) -> (f64, f64, f64) {
     (f.q_pa, axial_accel_mps2(f, m_kg) / G0_MPS2, q_alpha)
 }
 
+/// The two quantities the right-hand side's corners are placed in: altitude (m) and Mach
+/// number, at state `y` (the Mach number only when `with_mach`; else 0).
+fn corner_coordinates(env: &Environment, y: &State, with_mach: bool) -> (f64, f64) {
+    let r = Vector3::new(y[0], y[1], y[2]);
+    let alt = env.altitude_m(&r);
+    if !with_mach {
+        return (alt, 0.0);
+    }
+    let v = Vector3::new(y[3], y[4], y[5]);
+    let v_rel = v - env.omega_rad_s().cross(&r);
+    // As `forces` forms it.
+    let mach = v_rel.norm() / env.speed_of_sound_mps(alt).max(1e-3);
+    (alt, mach)
+}
+
 impl OdeSystem for Sys<'_> {
     fn rhs(&mut self, t: f64, y: &State, dy: &mut State, end_of_step: bool) {
         // Keep only the evaluation at a step's candidate end: the one `accepted` will need.
@@ -324,6 +345,53 @@ impl OdeSystem for Sys<'_> {
             None
         };
         derivative_keeping(self.p, &self.mode, self.law, t, y, dy, keep);
+    }
+
+    fn has_kinks(&self) -> bool {
+        self.corners
+    }
+
+    /// Corners of the right-hand side: the air's layer bases in altitude (density and speed of
+    /// sound change slope there), and the nodes of the active linear drag table in Mach.
+    fn kink(
+        &mut self,
+        t0: f64,
+        y0: &State,
+        t1: f64,
+        y1: &State,
+        path: &dyn Fn(f64) -> State,
+    ) -> Option<f64> {
+        let env = self.p.environment;
+        let vacuum = matches!(env.atmosphere, AtmosphereModel::Vacuum);
+        let machs = if vacuum {
+            &[]
+        } else {
+            active_aero(self.p, &self.mode).corner_machs()
+        };
+        let with_mach = !machs.is_empty();
+        let (a0, m0) = corner_coordinates(env, y0, with_mach);
+        let (a1, m1) = corner_coordinates(env, y1, with_mach);
+        let mut first: Option<f64> = None;
+        let mut keep = |t: Option<f64>| {
+            if let Some(t) = t.filter(|t| stepper::inside_step(*t, t0, t1)) {
+                first = Some(first.map_or(t, |f| f.min(t)));
+            }
+        };
+        for &z in env.air_corner_altitudes_m() {
+            if (a0 - z) * (a1 - z) < 0.0 {
+                keep(events::brent_root(t0, t1, CORNER_TIME_TOL_S, 100, |t| {
+                    Some(corner_coordinates(env, &path(t), false).0 - z)
+                }));
+            }
+        }
+        for &mk in machs {
+            if (m0 - mk) * (m1 - mk) < 0.0 {
+                keep(events::brent_root(t0, t1, CORNER_TIME_TOL_S, 100, |t| {
+                    Some(corner_coordinates(env, &path(t), true).1 - mk)
+                }));
+            }
+        }
+        first
     }
 
     fn accepted(&mut self, t: f64, y: &State) -> bool {
@@ -365,7 +433,8 @@ struct Scratch {
     dense: DenseOutput,
 }
 
-/// A dense-output store holding more steps than this (2.6 MB) is not kept for the next flight:
+/// A dense-output store holding more steps than this (2.6 MB of DP5 steps, 5.8 MB of DP853 ones)
+/// is not kept for the next flight:
 /// bounds the memory a thread keeps after a pathological flight (the store holds one segment;
 /// the demos' longest takes under 200 steps).
 const SCRATCH_MAX_STEPS: usize = 4_096;
@@ -428,6 +497,8 @@ struct Flyer<'a> {
     /// The latest time at which anything on the current arc has been computed so far: its
     /// start, and the end time of every integration on it, s ([`ResumeAt`]).
     horizon_s: f64,
+    /// The step size the last segment's controller proposed, s (`model.carry_step_size`).
+    h_next: Option<f64>,
 }
 
 /// The arc being flown and what its record needs at its end.
@@ -510,6 +581,9 @@ pub struct Checkpoint {
     law_start: LawStart,
     shape: Shape,
     horizon_s: f64,
+    /// The step size carried into the next segment (`model.carry_step_size`): a resumed flight
+    /// starts its next integration with the same step as the uninterrupted one.
+    h_next: Option<f64>,
 }
 
 /// What a problem must share with the one a checkpoint was taken on for the checkpoint's
@@ -712,6 +786,7 @@ impl<'a> Flyer<'a> {
             law_start: None,
             recorder: None,
             horizon_s: t,
+            h_next: None,
         }
     }
 
@@ -753,6 +828,7 @@ impl<'a> Flyer<'a> {
         self.found = c.found;
         self.cursor = c.cursor.clone();
         self.horizon_s = c.horizon_s;
+        self.h_next = c.h_next;
         true
     }
 
@@ -782,6 +858,7 @@ impl<'a> Flyer<'a> {
             law_start: self.law_start.clone()?,
             shape: Shape::of(self.p),
             horizon_s: self.horizon_s,
+            h_next: self.h_next,
         })
     }
 
@@ -1173,12 +1250,24 @@ impl<'a> Flyer<'a> {
             mode: self.mode,
             evs,
             watch: &mut w,
+            corners: ig.end_steps_at_corners,
         };
-        let result =
-            stepper::integrate(&mut sys, self.t, t_end, &self.y, ig.rtol, atol, &mut dense);
+        let opts = stepper::Options {
+            method: match ig.method {
+                IntegratorMethod::DormandPrince5 => stepper::Method::DormandPrince5,
+                IntegratorMethod::DormandPrince853 => stepper::Method::DormandPrince853,
+            },
+            rtol: ig.rtol,
+            atol,
+            h0: self.h_next.filter(|_| ig.carry_step_size),
+        };
+        let result = stepper::integrate(&mut sys, &opts, self.t, t_end, &self.y, &mut dense);
         self.watch = w;
         let (stats, end) = match result {
-            Ok(r) => r,
+            Ok(r) => {
+                self.h_next = Some(r.h_next);
+                (r.stats, r.end)
+            }
             Err(e) => {
                 self.dense = dense;
                 return Err(self.integration_message(&e.to_string()));
@@ -1191,6 +1280,12 @@ impl<'a> Flyer<'a> {
         let w = &self.watch;
         // Start of the last step: the samples hold the segment start and every step's end.
         let t_prev = w.samples.iter().rev().nth(1).map_or(self.t, |s| s.0);
+        if dense.completes_on_demand() && w.fired.iter().any(|f| *f) {
+            self.out.stats.rhs_evals += u64::from(complete_dense(
+                &self.m, &self.mode, law, &mut dense, t_prev, t_last,
+            ));
+        }
+        let w = &self.watch;
         let stop = evs
             .iter()
             .zip(&w.fired)
@@ -1206,7 +1301,7 @@ impl<'a> Flyer<'a> {
             Some((_, t)) => (t, dense.evaluate(t).unwrap_or(y_last)),
             None => (t_last, y_last),
         };
-        self.track(&dense, t_stop, &y_stop);
+        self.track(&mut dense, t_stop, &y_stop);
         self.dense = dense;
         self.t = t_stop;
         self.y = y_stop;
@@ -1228,13 +1323,16 @@ impl<'a> Flyer<'a> {
     /// Max-Q, max acceleration and the time history over the segment just integrated, which
     /// stopped at (`t_stop`, `y_stop`). The samples at the step ends come from the integrator's
     /// own end-of-step evaluations; only the stop and the refinement evaluate anew.
-    fn track(&mut self, com: &DenseOutput, t_stop: f64, y_stop: &State) {
+    fn track(&mut self, com: &mut DenseOutput, t_stop: f64, y_stop: &State) {
         let (p, mode, law) = (&self.m, self.mode, self.law.as_ref());
         let w = &mut self.watch;
         let kept = w.samples.partition_point(|s| s.0 < t_stop);
         w.samples.truncate(kept);
         let (q_stop, a_stop, qa_stop) = q_and_accel(p, &mode, law, t_stop, y_stop);
         w.samples.push((t_stop, q_stop, a_stop, qa_stop));
+        self.out.stats.rhs_evals += u64::from(self.complete_for_tracking(com, t_stop));
+        let com = &*com;
+        let (p, law) = (&self.m, self.law.as_ref());
         let qa = |t: f64| com.evaluate(t).map(|y| q_and_accel(p, &mode, law, t, &y));
         // The segment lies in one part of the bucket's timeline (its start and end stop
         // segments); without a bucket every segment is in part 0 and the part's maximum is the
@@ -1313,6 +1411,49 @@ impl<'a> Flyer<'a> {
                 self.next_record_s += dt;
             }
         }
+    }
+
+    /// Makes the dense output available where [`Flyer::track`] will interpolate (DP853 forms a
+    /// step's coefficients on demand): around the best sample of each quantity that beats its
+    /// running maximum, and over the whole segment when a history is recorded. Returns the
+    /// right-hand-side evaluations made.
+    fn complete_for_tracking(&self, com: &mut DenseOutput, t_stop: f64) -> u32 {
+        if !com.completes_on_demand() {
+            return 0;
+        }
+        let samples = &self.watch.samples;
+        let part = if self.flags.in_bucket {
+            1
+        } else if self.flags.bucket_done {
+            2
+        } else {
+            0
+        };
+        let bests = [
+            self.out.max_q_by_bucket_pa[part],
+            self.best_value(MAX_ACCEL).unwrap_or(f64::NEG_INFINITY),
+            self.best_value(MAX_Q_ALPHA).unwrap_or(0.0),
+        ];
+        let field = |s: &(f64, f64, f64, f64), i: usize| [s.1, s.2, s.3][i];
+        let mut evals = 0;
+        for (i, best) in bests.into_iter().enumerate() {
+            if samples.iter().any(|s| field(s, i) > best) {
+                if let Some((a, b)) = max_bracket(samples, |s| field(s, i)) {
+                    evals += complete_dense(&self.m, &self.mode, self.law.as_ref(), com, a, b);
+                }
+            }
+        }
+        if self.opts.record_step_s.is_some() && self.next_record_s < t_stop {
+            evals += complete_dense(
+                &self.m,
+                &self.mode,
+                self.law.as_ref(),
+                com,
+                self.next_record_s,
+                t_stop,
+            );
+        }
+        evals
     }
 
     /// The running maximum of tracked quantity `i` ([`MAX_Q`], [`MAX_ACCEL`], [`MAX_Q_ALPHA`]).
@@ -1650,6 +1791,44 @@ const EXTREMUM_FLAT_REL: f64 = 1e-14;
 /// At most this many evaluations refine one maximum (the bracket halves at least every few).
 const EXTREMUM_MAX_EVALS: usize = 100;
 
+/// Forms the dense output's coefficients on [`t_lo`, `t_hi`] where they are formed on demand
+/// (DP853), evaluating the right-hand side of `mode` under `law`; returns the evaluations made.
+fn complete_dense(
+    m: &FlightModel,
+    mode: &Mode,
+    law: &dyn ActiveLaw,
+    dense: &mut DenseOutput,
+    t_lo: f64,
+    t_hi: f64,
+) -> u32 {
+    dense.complete(t_lo, t_hi, &mut |t, y, dy| {
+        derivative(m, mode, law, t, y, dy);
+    })
+}
+
+/// The interval [`refine_max`] searches for the largest `value` of `samples`: between the
+/// neighbours of the best sample.
+fn max_bracket(
+    samples: &[(f64, f64, f64, f64)],
+    value: impl Fn(&(f64, f64, f64, f64)) -> f64,
+) -> Option<(f64, f64)> {
+    let k = best_sample(samples, &value)?;
+    Some((
+        samples[k.saturating_sub(1)].0,
+        samples[(k + 1).min(samples.len() - 1)].0,
+    ))
+}
+
+/// Index of the largest finite `value` of `samples` (the last of equals, as `max_by` picks).
+fn best_sample(
+    samples: &[(f64, f64, f64, f64)],
+    value: impl Fn(&(f64, f64, f64, f64)) -> f64,
+) -> Option<usize> {
+    (0..samples.len())
+        .filter(|k| value(&samples[*k]).is_finite())
+        .max_by(|a, b| value(&samples[*a]).total_cmp(&value(&samples[*b])))
+}
+
 /// Largest of the sampled values (`value(sample)` over `samples`, each `(t, q, accel, qα)`, in time
 /// order), refined on `f` (the dense output) between the neighbours of the best sample by
 /// Brent's method: parabolic interpolation through the three best points, with a
@@ -1663,9 +1842,7 @@ fn refine_max(
     value: impl Fn(&(f64, f64, f64, f64)) -> f64,
     f: impl Fn(f64) -> f64,
 ) -> Option<(f64, f64)> {
-    let k = (0..samples.len())
-        .filter(|k| value(&samples[*k]).is_finite())
-        .max_by(|a, b| value(&samples[*a]).total_cmp(&value(&samples[*b])))?;
+    let k = best_sample(samples, &value)?;
     let (t_k, v_k) = (samples[k].0, value(&samples[k]));
     // Best at either end and the function falling away from it: a maximum on the boundary
     // (a rising quantity at a segment's end), no search. One evaluation instead of a search

@@ -4,8 +4,11 @@
 //!
 //! Integrator: Dormand–Prince 5(4) (Hairer, Nørsett & Wanner, *Solving ODEs I*, §II.5) with the
 //! problem's `rtol`/`atol`, in `stepper`: `ode_solvers` 0.6.2's `Dopri5` arithmetic without its
-//! allocations. Dop853 is not used: in ode_solvers 0.6.2 it mis-evaluates time-dependent
-//! right-hand sides (its stage-12 node is wrong; docs/method.md). Nothing is ever integrated
+//! allocations; or, with `model.integrator: "dop853"`, our own Dormand–Prince 8(5,3) (§II.6;
+//! `ode_solvers`' Dop853 mis-evaluates time-dependent right-hand sides, docs/method.md §7); with
+//! `model.end_steps_at_corners` a rejected step that crossed a corner of the right-hand side (a
+//! drag-table point, an atmosphere layer base) is retried to end on it, and with
+//! `model.carry_step_size` each segment starts with the previous one's step size. Nothing is ever integrated
 //! across a discontinuity: each segment ends at the next event (time events exactly, state events by
 //! root-finding on the dense output) and the next segment restarts from the located state.
 //!

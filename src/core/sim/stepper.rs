@@ -1,4 +1,8 @@
-//! The flight's integrator: Dormand–Prince 5(4) with its fourth-order continuous extension.
+//! The flight's integrators: Dormand–Prince 5(4) with its fourth-order continuous extension (the
+//! default, this module), and Dormand–Prince 8(5,3) with its seventh-order one ([`dop853`],
+//! `model.integrator: "dop853"`), behind one [`integrate`] and one [`DenseOutput`]. Both can end
+//! a rejected step's retry on a corner the system reports ([`OdeSystem::kink`]) and start from a
+//! given step size ([`Options::h0`]); without either, DP5 is `ode_solvers`' arithmetic bit for bit.
 //!
 //! Every floating-point operation is the one `ode_solvers` 0.6.2's `Dopri5` performs, in the same
 //! order (tableau, stage sums, error norm, PI step-size controller, initial step, stiffness test,
@@ -21,6 +25,18 @@ use std::cmp::Ordering;
 use std::fmt;
 
 use super::dynamics::{State, N};
+
+mod dop853;
+
+/// The Runge–Kutta pair a flight is integrated with.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub(crate) enum Method {
+    /// Dormand–Prince 5(4), `ode_solvers`' arithmetic (this module); the default.
+    #[default]
+    DormandPrince5,
+    /// Dormand–Prince 8(5,3) with its seventh-order continuous extension ([`dop853`]).
+    DormandPrince853,
+}
 
 /// Runge–Kutta matrix a_ij (row i = stage 2..7), Dormand & Prince (1980).
 const A: [[f64; 6]; 6] = [
@@ -104,6 +120,40 @@ pub(crate) trait OdeSystem {
     fn rhs(&mut self, t: f64, y: &State, dy: &mut State, end_of_step: bool);
     /// Called after each accepted step with its end; `true` stops the integration there.
     fn accepted(&mut self, t: f64, y: &State) -> bool;
+    /// Whether the integrator should ask [`OdeSystem::kink`] about rejected steps (default: no,
+    /// and then it never does).
+    fn has_kinks(&self) -> bool {
+        false
+    }
+    /// The time of the earliest corner of the right-hand side (a point where f is continuous
+    /// but its slope jumps, such as a table node) that the step from (`t0`, `y0`) to (`t1`,
+    /// `y1`) crosses, located on `path` (the state along the step, an interpolant of it), or
+    /// `None`; only corners [`inside_step`] counts. Asked about rejected steps only; the
+    /// integrator then retries the step so that it ends on the corner, instead of shrinking it
+    /// until the corner costs little.
+    fn kink(
+        &mut self,
+        _t0: f64,
+        _y0: &State,
+        _t1: f64,
+        _y1: &State,
+        _path: &dyn Fn(f64) -> State,
+    ) -> Option<f64> {
+        None
+    }
+}
+
+/// Fraction of a step within which a corner next to either end is not worth a step of its own:
+/// one next to the start is passed already (the step before ended on it, to the precision of
+/// the interpolant that located it), one next to the end is where the step ends anyway. A
+/// corner straddled by δ costs an error ~δ² (the slope's jump times δ²/2).
+const CORNER_MARGIN: f64 = 1e-4;
+
+/// Whether a corner at `tk` lies inside the step from `t0` to `t1`, farther than
+/// [`CORNER_MARGIN`] of the step from either end.
+pub(crate) fn inside_step(tk: f64, t0: f64, t1: f64) -> bool {
+    let margin = CORNER_MARGIN * (t1 - t0);
+    (tk - t0) * margin.signum() > margin.abs() && (t1 - tk) * margin.signum() > margin.abs()
 }
 
 /// Integrator work of one integration.
@@ -155,72 +205,156 @@ struct DenseStep {
 #[derive(Debug, Clone, Default)]
 pub(crate) struct DenseOutput {
     t0: f64,
+    /// Method of the current integration (which of the step stores it fills).
+    method: Method,
     /// Steps of the current integration.
     len: usize,
     /// End time of each step, s (increasing over the first `len`).
     ends: Vec<f64>,
+    /// Dormand–Prince 5(4) steps.
     steps: Vec<DenseStep>,
+    /// Dormand–Prince 8(5,3) steps.
+    steps8: Vec<dop853::DenseStep>,
 }
 
 impl DenseOutput {
     /// Steps the store holds without growing.
     pub(crate) fn capacity(&self) -> usize {
-        self.steps.capacity()
+        self.steps.capacity().max(self.steps8.capacity())
     }
 
-    fn reset(&mut self, t0: f64) {
+    fn reset(&mut self, t0: f64, method: Method) {
         self.t0 = t0;
         self.len = 0;
-        if self.steps.capacity() == 0 {
-            // Room for a typical segment at once (a long burn takes ~150 steps) instead of
-            // growing by doubling, which copies every step stored so far.
+        self.method = method;
+        // Room for a typical segment at once (a long burn takes ~150 steps of DP5, ~50 of DP853)
+        // instead of growing by doubling, which copies every step stored so far.
+        if self.ends.capacity() == 0 {
             self.ends.reserve(INITIAL_STEPS);
-            self.steps.reserve(INITIAL_STEPS);
         }
+        match method {
+            Method::DormandPrince5 if self.steps.capacity() == 0 => {
+                self.steps.reserve(INITIAL_STEPS);
+            }
+            Method::DormandPrince853 if self.steps8.capacity() == 0 => {
+                self.steps8.reserve(INITIAL_STEPS / 2);
+            }
+            _ => {}
+        }
+    }
+
+    /// Appends a DP853 step ending at `t_end`; returns it to fill.
+    fn next_step8(&mut self, t_end: f64) -> &mut dop853::DenseStep {
+        let k = self.len;
+        self.len += 1;
+        if k == self.ends.len() {
+            self.ends.push(t_end);
+        } else {
+            self.ends[k] = t_end;
+        }
+        if k == self.steps8.len() {
+            self.steps8.push(dop853::DenseStep::empty());
+        }
+        &mut self.steps8[k]
+    }
+
+    /// Index of the step holding `t` (the first whose end is ≥ t); `None` outside the
+    /// integrated interval (or for NaN).
+    fn step_of(&self, t: f64) -> Option<usize> {
+        if t.is_nan() || t < self.t0 {
+            return None;
+        }
+        match self.ends[..self.len]
+            .binary_search_by(|e| e.partial_cmp(&t).unwrap_or(Ordering::Less))
+        {
+            Ok(k) => Some(k),
+            Err(k) if k < self.len => Some(k),
+            Err(_) => None,
+        }
+    }
+
+    /// Whether steps need [`DenseOutput::complete`] before they are interpolated (DP853).
+    pub(crate) fn completes_on_demand(&self) -> bool {
+        self.method == Method::DormandPrince853
+    }
+
+    /// Makes the continuous extension available on [`t_lo`, `t_hi`] (clamped to the integrated
+    /// interval): a DP853 step's coefficients need three more right-hand-side evaluations, made
+    /// here with `rhs` the first time a step is needed. Returns the evaluations made (always 0
+    /// for DP5, whose coefficients are formed as it steps).
+    pub(crate) fn complete(
+        &mut self,
+        t_lo: f64,
+        t_hi: f64,
+        rhs: &mut dyn FnMut(f64, &State, &mut State),
+    ) -> u32 {
+        if self.method == Method::DormandPrince5 || t_lo.is_nan() || t_hi.is_nan() {
+            return 0;
+        }
+        // Steps that overlap the open interval (t_lo, t_hi): the first ending after t_lo to the
+        // first ending at or after t_hi. A step's two ends are known without its coefficients.
+        let ends = &self.ends[..self.len];
+        let first = ends.partition_point(|e| *e <= t_lo);
+        let last = ends
+            .partition_point(|e| *e < t_hi)
+            .min(self.len.saturating_sub(1));
+        let mut evals = 0;
+        if first <= last && last < self.len {
+            for s in &mut self.steps8[first..=last] {
+                if !s.done() {
+                    s.complete(rhs);
+                    evals += 3;
+                }
+            }
+        }
+        evals
     }
 
     /// Appends a step ending at `t_end` of size `h`; returns its coefficients to fill.
     fn next_step(&mut self, t_end: f64, h: f64) -> &mut [State; 5] {
         let k = self.len;
         self.len += 1;
-        if k == self.steps.len() {
+        if k == self.ends.len() {
             self.ends.push(t_end);
+        } else {
+            self.ends[k] = t_end;
+        }
+        if k == self.steps.len() {
             self.steps.push(DenseStep {
                 h,
                 r: [State::zeros(); 5],
             });
         } else {
-            self.ends[k] = t_end;
             self.steps[k].h = h;
         }
         &mut self.steps[k].r
     }
 
-    /// State at `t`; `None` outside the integrated interval (or for NaN).
+    /// State at `t`; `None` outside the integrated interval (or for NaN), and for a DP853 step
+    /// not made available by [`DenseOutput::complete`].
     pub(crate) fn evaluate(&self, t: f64) -> Option<State> {
-        if t.is_nan() || t < self.t0 {
-            return None;
+        let k = self.step_of(t)?;
+        if self.method == Method::DormandPrince853 {
+            return self.steps8[k].evaluate(t);
         }
-        let k = match self.ends[..self.len]
-            .binary_search_by(|e| e.partial_cmp(&t).unwrap_or(Ordering::Less))
-        {
-            Ok(k) => k,
-            Err(k) if k < self.len => k,
-            Err(_) => return None,
-        };
         let start = if k == 0 { self.t0 } else { self.ends[k - 1] };
         let s = &self.steps[k];
-        let theta = (t - start) / s.h;
-        let theta1 = 1.0 - theta;
-        let mut y = State::zeros();
-        let o = arr_mut(&mut y);
-        let [r0, r1, r2, r3, r4] = &s.r;
-        let (r0, r1, r2, r3, r4) = (arr(r0), arr(r1), arr(r2), arr(r3), arr(r4));
-        for i in 0..N {
-            o[i] = r0[i] + (r1[i] + (r2[i] + (r3[i] + r4[i] * theta1) * theta) * theta1) * theta;
-        }
-        Some(y)
+        Some(dense_at(&s.r, (t - start) / s.h))
     }
+}
+
+/// A DP5 step's continuous extension at the fraction `theta` of the step.
+#[inline(always)]
+fn dense_at(r: &[State; 5], theta: f64) -> State {
+    let theta1 = 1.0 - theta;
+    let mut y = State::zeros();
+    let o = arr_mut(&mut y);
+    let [r0, r1, r2, r3, r4] = r;
+    let (r0, r1, r2, r3, r4) = (arr(r0), arr(r1), arr(r2), arr(r3), arr(r4));
+    for i in 0..N {
+        o[i] = r0[i] + (r1[i] + (r2[i] + (r3[i] + r4[i] * theta1) * theta) * theta1) * theta;
+    }
+    y
 }
 
 /// |a| with the sign of b (b ≤ 0 gives −|a|).
@@ -312,18 +446,69 @@ fn initial_step<S: OdeSystem>(
     sign((100.0 * h0.abs()).min(h1.min(h_max)), posneg)
 }
 
-/// Integrates `sys` from (`t0`, `y0`) towards `t_end` with relative and absolute tolerances
-/// `rtol`, `atol`, until `t_end` or until [`OdeSystem::accepted`] asks to stop. Fills `dense`
-/// with the steps' continuous extension. Returns the work and the last accepted (t, y).
+/// How to integrate one segment.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Options {
+    /// The Runge–Kutta pair.
+    pub method: Method,
+    /// Relative tolerance.
+    pub rtol: f64,
+    /// Absolute tolerance (every component).
+    pub atol: f64,
+    /// First step size to try, s (clamped to the segment); `None`: the starting-step estimate
+    /// of Hairer, Nørsett & Wanner §II.4 (two evaluations).
+    pub h0: Option<f64>,
+}
+
+/// What one integration did.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Run {
+    /// Its work.
+    pub stats: Stats,
+    /// The last accepted (t, y); `None` if no step was accepted.
+    pub end: Option<(f64, State)>,
+    /// The step size the controller proposes after the last accepted step, s (a last step
+    /// shortened to end on `t_end` proposes the step it was shortened from, if larger).
+    pub h_next: f64,
+}
+
+/// The first step size of an integration: `h0` clamped to the segment (a step of the sign of
+/// `posneg`), else `estimate()`.
+fn first_step(h0: Option<f64>, posneg: f64, h_max: f64, estimate: impl FnOnce() -> f64) -> f64 {
+    match h0.filter(|h| h.is_finite() && *h != 0.0) {
+        Some(h) => posneg * h.abs().min(h_max),
+        None => estimate(),
+    }
+}
+
+/// Integrates `sys` from (`t0`, `y0`) towards `t_end` as `opts` say, until `t_end` or until
+/// [`OdeSystem::accepted`] asks to stop. Fills `dense` with the steps' continuous extension
+/// (DP853: to be completed on demand, see [`DenseOutput::complete`]).
 pub(crate) fn integrate<S: OdeSystem>(
     sys: &mut S,
+    opts: &Options,
     t0: f64,
     t_end: f64,
     y0: &State,
-    rtol: f64,
-    atol: f64,
     dense: &mut DenseOutput,
-) -> Result<(Stats, Option<(f64, State)>), StepError> {
+) -> Result<Run, StepError> {
+    dense.reset(t0, opts.method);
+    match opts.method {
+        Method::DormandPrince5 => integrate5(sys, opts, t0, t_end, y0, dense),
+        Method::DormandPrince853 => dop853::integrate(sys, opts, t0, t_end, y0, dense),
+    }
+}
+
+/// [`integrate`] by Dormand–Prince 5(4).
+fn integrate5<S: OdeSystem>(
+    sys: &mut S,
+    opts: &Options,
+    t0: f64,
+    t_end: f64,
+    y0: &State,
+    dense: &mut DenseOutput,
+) -> Result<Run, StepError> {
+    let (rtol, atol) = (opts.rtol, opts.atol);
     let posneg = sign(1.0, t_end - t0);
     let mut ctl = Controller {
         fac_old: 1.0e-4,
@@ -332,16 +517,22 @@ pub(crate) fn integrate<S: OdeSystem>(
         posneg,
     };
     let mut stats = Stats::default();
-    dense.reset(t0);
     let (mut x, mut y) = (t0, *y0);
-    let mut h = initial_step(sys, x, &y, t_end, ctl.h_max, rtol, atol);
-    stats.num_eval += 2;
+    let mut h = first_step(opts.h0, posneg, ctl.h_max, || {
+        stats.num_eval += 2;
+        initial_step(sys, x, &y, t_end, ctl.h_max, rtol, atol)
+    });
     let mut k = [State::zeros(); 7];
     sys.rhs(x, &y, &mut k[0], false);
     stats.num_eval += 1;
     let (mut n_step, mut last, mut h_new) = (0_u32, false, 0.0);
     let (mut non_stiff, mut iasti) = (0_u32, 0_u32);
     let mut end = None;
+    let kinks = sys.has_kinks();
+    // While a retry ends on a corner: the size of the attempt that crossed it.
+    let mut kink_retry: Option<f64> = None;
+    // The step a last step was shortened from (to end on t_end).
+    let mut h_unshortened = 0.0_f64;
     while !last {
         if n_step > N_MAX {
             return Err(StepError::MaxSteps { t: x, n_step });
@@ -349,7 +540,10 @@ pub(crate) fn integrate<S: OdeSystem>(
         if 0.1 * h.abs() <= f64::EPSILON * x.abs() {
             return Err(StepError::Underflow { t: x });
         }
-        if (x + 1.01 * h - t_end) * posneg > 0.0 {
+        // Stretch a step that would end just short of t_end to end on it; a retry that ends on
+        // a corner keeps its length (stretched, it would cross the corner again, for ever).
+        if kink_retry.is_none() && (x + 1.01 * h - t_end) * posneg > 0.0 {
+            h_unshortened = h;
             h = t_end - x;
             last = true;
         }
@@ -389,17 +583,54 @@ pub(crate) fn integrate<S: OdeSystem>(
                 last = true;
             }
             if last {
-                return Ok((stats, end));
+                let h_next = posneg * h_new.abs().max(h_unshortened.abs());
+                return Ok(Run { stats, end, h_next });
+            }
+            if let Some(h_was) = kink_retry.take() {
+                // Past the corner the solution is as smooth as before it: resume with the step
+                // that was tried across it (the controller's shrink after a rejection would
+                // otherwise hold the next step to the shortened one).
+                h_new = posneg * h_new.abs().max(h_was.abs()).min(ctl.h_max);
             }
         } else {
             last = false;
+            h_unshortened = 0.0;
             if stats.accepted_steps >= 1 {
                 stats.rejected_steps += 1;
+            }
+            if kinks {
+                let h_was = kink_retry.take().unwrap_or(h);
+                if let Some(tk) = corner_in_step5(sys, &k, x, h, &y, &y_next) {
+                    h_new = tk - x;
+                    kink_retry = Some(h_was);
+                }
             }
         }
         h = h_new;
     }
-    Ok((stats, end))
+    Ok(Run {
+        stats,
+        end,
+        h_next: h_new,
+    })
+}
+
+/// The corner a rejected DP5 step from (`x`, `y`) of size `h` crossed, located on the step's
+/// own continuous extension (see [`OdeSystem::kink`]). Out of line: the default flight never
+/// calls it.
+#[inline(never)]
+fn corner_in_step5<S: OdeSystem>(
+    sys: &mut S,
+    k: &[State; 7],
+    x: f64,
+    h: f64,
+    y: &State,
+    y_next: &State,
+) -> Option<f64> {
+    let mut r = [State::zeros(); 5];
+    dense_coefficients(k, h, y, y_next, &mut r);
+    let path = |t: f64| dense_at(&r, (t - x) / h);
+    sys.kink(x, y, x + h, y_next, &path)
 }
 
 /// The components of `v` as an array (the vector's own storage: no copy), so that loops over
@@ -590,8 +821,14 @@ mod tests {
                 .integrate_with_continuous_output_model(&mut com)
                 .expect("integrates");
             let mut dense = DenseOutput::default();
-            let (ours, end) =
-                integrate(&mut Ours, 0.0, t_end, &y0, rtol, atol, &mut dense).expect("integrates");
+            let opts = Options {
+                method: Method::DormandPrince5,
+                rtol,
+                atol,
+                h0: None,
+            };
+            let run = integrate(&mut Ours, &opts, 0.0, t_end, &y0, &mut dense).expect("integrates");
+            let (ours, end) = (run.stats, run.end);
             assert_eq!(ours.num_eval, st.num_eval);
             assert_eq!(ours.accepted_steps, st.accepted_steps);
             assert_eq!(ours.rejected_steps, st.rejected_steps);
@@ -604,5 +841,167 @@ mod tests {
             }
             assert_eq!(dense.evaluate(t1 + 1e-9), None);
         }
+    }
+}
+
+#[cfg(test)]
+mod corner_tests {
+    use super::*;
+
+    /// Nodes (u, c) of a continuous, piecewise-linear rate with three corners, held beyond the
+    /// ends (like a drag table).
+    const NODES: [(f64, f64); 4] = [(0.0, 1.0), (0.7, 2.0), (1.9, -1.0), (2.6, 0.5)];
+
+    fn rate(u: f64) -> f64 {
+        if u <= NODES[0].0 {
+            return NODES[0].1;
+        }
+        for w in NODES.windows(2) {
+            if u <= w[1].0 {
+                return w[0].1 + (u - w[0].0) / (w[1].0 - w[0].0) * (w[1].1 - w[0].1);
+            }
+        }
+        NODES[3].1
+    }
+
+    /// ∫₀ᵗ rate(u) du with u = t: the trapezoids of the linear pieces, exact.
+    fn integral(t: f64) -> f64 {
+        let mut s = 0.0;
+        let mut a = 0.0;
+        for &(u, _) in NODES
+            .iter()
+            .skip(1)
+            .chain(std::iter::once(&(f64::INFINITY, 0.0)))
+        {
+            let b = u.min(t);
+            if b > a {
+                s += 0.5 * (rate(a) + rate(b)) * (b - a);
+            }
+            a = b;
+            if a >= t {
+                break;
+            }
+        }
+        s
+    }
+
+    /// u' = 1 (so u = t: a state coordinate), y' = rate(u), z' = y (one more order of
+    /// smoothness to carry the corner's error).
+    struct Cornered {
+        report: bool,
+    }
+
+    impl OdeSystem for Cornered {
+        fn rhs(&mut self, _t: f64, y: &State, dy: &mut State, _end: bool) {
+            dy[0] = 1.0;
+            dy[1] = rate(y[0]);
+            dy[2] = y[1];
+        }
+        fn accepted(&mut self, _t: f64, _y: &State) -> bool {
+            false
+        }
+        fn has_kinks(&self) -> bool {
+            self.report
+        }
+        fn kink(
+            &mut self,
+            t0: f64,
+            y0: &State,
+            t1: f64,
+            y1: &State,
+            path: &dyn Fn(f64) -> State,
+        ) -> Option<f64> {
+            NODES
+                .iter()
+                .filter(|(u, _)| (y0[0] - u) * (y1[0] - u) < 0.0)
+                .filter_map(|(u, _)| {
+                    super::super::events::brent_root(t0, t1, 1e-12, 100, |t| Some(path(t)[0] - u))
+                })
+                .filter(|t| inside_step(*t, t0, t1))
+                .min_by(f64::total_cmp)
+        }
+    }
+
+    fn run(method: Method, report: bool, h0: Option<f64>) -> Run {
+        run_to(method, report, h0, 3.0)
+    }
+
+    fn run_to(method: Method, report: bool, h0: Option<f64>, t_end: f64) -> Run {
+        let opts = Options {
+            method,
+            rtol: 1e-10,
+            atol: 1e-10,
+            h0,
+        };
+        let mut dense = DenseOutput::default();
+        integrate(
+            &mut Cornered { report },
+            &opts,
+            0.0,
+            t_end,
+            &State::zeros(),
+            &mut dense,
+        )
+        .expect("integrates")
+    }
+
+    /// A corner within the last 1 % of a segment: the retry that ends on it must not be
+    /// stretched to the segment's end (it crossed the corner again, and the integration looped
+    /// until the step limit; found on the heavy demo by the optimizer).
+    #[test]
+    fn a_corner_just_before_the_end_of_a_segment_is_not_crossed_again() {
+        for method in [Method::DormandPrince5, Method::DormandPrince853] {
+            for t_end in [1.9005, 1.903, 1.91, 2.6001] {
+                let r = run_to(method, true, Some(0.5), t_end);
+                let (t, y) = r.end.expect("steps");
+                assert!((t - t_end).abs() < 1e-12, "{method:?} {t_end}");
+                assert!((y[1] - integral(t_end)).abs() < 1e-9, "{method:?} {t_end}");
+                assert!(
+                    r.stats.rejected_steps < 10,
+                    "{method:?} {t_end}: {:?}",
+                    r.stats
+                );
+            }
+        }
+    }
+
+    /// A rejected step across a corner is retried to end on it: far fewer rejections and
+    /// evaluations, and a result exact to round-off where straddled corners leave errors at
+    /// the tolerance's level. Measured (rtol = atol = 1e-10): DP5 36 → 3 rejected steps, 471 →
+    /// 75 evaluations, error 7e-8 → 9e-16; DP853 39 → 3, 899 → 158, 7e-9 → 2e-15.
+    #[test]
+    fn steps_end_on_reported_corners() {
+        let exact = integral(3.0);
+        for method in [Method::DormandPrince5, Method::DormandPrince853] {
+            let (plain, aligned) = (run(method, false, None), run(method, true, None));
+            for (r, tol) in [(&plain, 1e-6), (&aligned, 1e-12)] {
+                let (t, y) = r.end.expect("steps");
+                assert!((t - 3.0).abs() < 1e-12);
+                assert!((y[1] - exact).abs() < tol, "{method:?}: {}", y[1] - exact);
+            }
+            assert!(
+                aligned.stats.rejected_steps <= 3
+                    && aligned.stats.rejected_steps < plain.stats.rejected_steps,
+                "{method:?}: {:?} vs {:?}",
+                aligned.stats,
+                plain.stats
+            );
+            assert!(aligned.stats.num_eval < plain.stats.num_eval);
+        }
+    }
+
+    /// A given first step replaces the starting-step estimate (two evaluations) and is clamped
+    /// to the segment; the proposal for the next segment is a step the controller would take.
+    #[test]
+    fn a_given_first_step_skips_the_estimate() {
+        let est = run(Method::DormandPrince5, true, None);
+        let given = run(Method::DormandPrince5, true, Some(0.05));
+        // DP5: 3 start evaluations with the estimate (two for it, one first stage), 1 without,
+        // then 6 per attempted step.
+        assert_eq!(est.stats.num_eval % 6, 3);
+        assert_eq!(given.stats.num_eval % 6, 1);
+        let huge = run(Method::DormandPrince853, true, Some(1e9));
+        assert!(huge.end.is_some());
+        assert!(est.h_next > 0.0 && est.h_next <= 3.0, "{}", est.h_next);
     }
 }
