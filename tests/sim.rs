@@ -412,7 +412,7 @@ fn a_checkpoint_of_another_problem_shape_flies_from_the_pad() {
 }
 
 /// The Dormand–Prince 8(5,3) integrator (`model.integrator: "dop853"`) flies every demo to the
-/// orbit and final mass of the default Dormand–Prince 5(4) at the same rtol 1e-11: both solve
+/// orbit and final mass of Dormand–Prince 5(4) (the former default) at the same rtol 1e-11: both solve
 /// the same equations to ~1e-11, so they agree far inside the orbit tolerance. Measured
 /// (December 2026): final mass within 1.2e-4 kg (heavy demo), apsides within 3.6 mm (small).
 #[test]
@@ -422,7 +422,10 @@ fn dop853_flies_the_demos_like_dopri5() {
         "medium-2stage-leo200.json",
         "heavy-boosters-leo300.json",
     ] {
-        let p5 = demo(name);
+        let mut p5 = demo(name);
+        p5.integrator.method = kickturn::problem::IntegratorMethod::DormandPrince5;
+        p5.integrator.end_steps_at_corners = false;
+        p5.integrator.carry_step_size = false;
         let mut p8 = p5.clone();
         p8.integrator.method = kickturn::problem::IntegratorMethod::DormandPrince853;
         let (f5, f8) = (
@@ -445,7 +448,7 @@ fn dop853_flies_the_demos_like_dopri5() {
 }
 
 /// The fast integrator settings (`model.integrator: "dop853"`, `end_steps_at_corners`,
-/// `carry_step_size`) fly every demo to the default's orbit and final mass at rtol 1e-11, with
+/// `carry_step_size`; the default since December 2026) fly every demo to the former default's orbit and final mass at rtol 1e-11, with
 /// well under two thirds of its right-hand-side evaluations. Measured (December 2026): final
 /// mass within 5.3e-5 kg, apsides within 3.2 mm; evaluations small 3 012 → 1 396, medium
 /// 1 830 → 995, heavy 1 794 → 968.
@@ -456,7 +459,10 @@ fn corner_steps_and_carried_step_sizes_keep_the_demo_results() {
         "medium-2stage-leo200.json",
         "heavy-boosters-leo300.json",
     ] {
-        let p5 = demo(name);
+        let mut p5 = demo(name);
+        p5.integrator.method = kickturn::problem::IntegratorMethod::DormandPrince5;
+        p5.integrator.end_steps_at_corners = false;
+        p5.integrator.carry_step_size = false;
         let mut fast = p5.clone();
         fast.integrator.method = kickturn::problem::IntegratorMethod::DormandPrince853;
         fast.integrator.end_steps_at_corners = true;

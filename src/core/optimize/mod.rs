@@ -30,7 +30,7 @@ use serde::Serialize;
 
 use crate::core::observe::Observer;
 pub use crate::core::problem::params::Param;
-use crate::core::problem::{Insertion, Problem, Target};
+use crate::core::problem::{Problem, Target};
 use crate::core::steering::{Arc, CoastEnd, Control, Cutoff, SteeringLaw};
 use targeting::Eval;
 
@@ -613,7 +613,6 @@ fn solve_timed(p: &Problem, o: &SolveOptions, run: &Run) -> Result<Solution, Sol
         outer: outer.clone(),
         q_limit: None,
         kinks: true,
-        continued: false,
     };
     let mut free = run_pass(spec, o, run);
     if o.objective == Objective::MaxPayload && p.reserves.fpr_fraction_dv > 0.0 {
@@ -662,7 +661,6 @@ fn solve_timed(p: &Problem, o: &SolveOptions, run: &Run) -> Result<Solution, Sol
             outer,
             q_limit: Some(q_lim),
             kinks: true,
-            continued: false,
         },
         &held,
         run,
@@ -736,7 +734,6 @@ fn reserve_pass(
         outer: Vec::new(),
         q_limit: None,
         kinks: false,
-        continued: true,
     };
     let mut second = run_pass(spec, &again, run);
     second.convergence.trajectories += first.convergence.trajectories;
@@ -799,8 +796,6 @@ struct PassSpec<'a> {
     /// Report the switching functions (jettison against ignition) to the SQP method, which
     /// may pin one (see `sqp::Sqp::pin`).
     kinks: bool,
-    /// A level of [`altitude_continuation`] (which does not start another).
-    continued: bool,
 }
 
 /// One pass of a solve: a guess and a search on one [`PassSpec`].
@@ -913,12 +908,6 @@ fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
     {
         return sol;
     }
-    // A high target the starts lead astray (the 600 km payload solves ended on the SQP
-    // iteration limit, then on a 40° kick): continuation in the target's altitude from a low
-    // orbit, each level started from the last one's optimum.
-    if let Some(c) = altitude_continuation(&ctx, o, run) {
-        return c;
-    }
     // The SQP method did not verify an optimum (a kink in max-Q where two humps meet, noise in
     // the finite differences, or no feasible point found): the nested search, whose inner
     // Newton solves keep every outer point on the target and whose simplex does not need
@@ -955,90 +944,6 @@ fn run_pass(spec: PassSpec, o: &SolveOptions, run: &Run) -> Solution {
             ..sol
         }
     }
-}
-
-/// Lowest target of [`altitude_continuation`], m: a low orbit every start reaches well.
-const CONTINUATION_FLOOR_M: f64 = 200e3;
-
-/// Continuation in the target's altitude for a free pass whose SQP search did not converge:
-/// the same pass solved for apsides moved toward a 200 km orbit, `h(λ) = h_0 + λ (h − h_0)`
-/// with λ = 0, ½, 1, each level started from the previous level's optimum (its program written
-/// into the problem, no scan). `None` when the target is low already, a level fails, or the
-/// pass holds a limit (a held pass starts from a free optimum already). Measured: the medium
-/// demo's payload at 600 km circular and 28.5° reached 1 101 kg on a 40° kick from the scan; a
-/// start from the 400 km optimum converges in 210 trajectories to 4 294 kg.
-fn altitude_continuation(ctx: &Ctx, o: &SolveOptions, run: &Run) -> Option<Solution> {
-    let spec = &ctx.spec;
-    let t = spec.target;
-    let low = t.perigee_alt_m.min(t.apogee_alt_m);
-    if spec.q_limit.is_some()
-        || spec.continued
-        || !matches!(t.insertion, Insertion::Perigee | Insertion::Free)
-        || low < 1.25 * CONTINUATION_FLOOR_M
-        || !matches!(o.method, Method::Sqp)
-    {
-        return None;
-    }
-    let level = |lambda: f64| {
-        let shift = (1.0 - lambda) * (low - CONTINUATION_FLOOR_M);
-        Target {
-            perigee_alt_m: t.perigee_alt_m - shift,
-            apogee_alt_m: t.apogee_alt_m - shift,
-            ..t
-        }
-    };
-    let mut used = ctx.flights.load(Ordering::Relaxed);
-    let mut iterations = 0;
-    let mut base = spec.base.clone();
-    let mut last: Option<Solution> = None;
-    for (k, lambda) in [0.0, 0.5, 1.0].into_iter().enumerate() {
-        let tl = level(lambda);
-        base.target = Some(tl);
-        let lo = SolveOptions {
-            scan: k == 0 && o.scan,
-            max_trajectories: o.max_trajectories.saturating_sub(used),
-            ..o.clone()
-        };
-        let sol = run_pass(
-            PassSpec {
-                base: &base,
-                floor: spec.floor,
-                target: tl,
-                inner: spec.inner.clone(),
-                outer: spec.outer.clone(),
-                q_limit: None,
-                kinks: spec.kinks,
-                continued: true,
-            },
-            &lo,
-            run,
-        );
-        used += sol.convergence.trajectories;
-        iterations += sol.convergence.iterations;
-        ctx.obs.diagnostic(&|| {
-            format!(
-                "continuation: {:.0} × {:.0} km: {:?} after {} trajectories",
-                tl.perigee_alt_m / 1e3,
-                tl.apogee_alt_m / 1e3,
-                sol.convergence.status,
-                sol.convergence.trajectories
-            )
-        });
-        if sol.convergence.status != SolveStatus::Converged {
-            return None;
-        }
-        base = sol.problem.clone();
-        last = Some(sol);
-    }
-    let mut sol = last?;
-    sol.convergence.trajectories = used;
-    sol.convergence.iterations = iterations;
-    sol.convergence.reason = format!(
-        "{}; reached by continuation in the target altitude from {:.0} km (3 levels)",
-        sol.convergence.reason,
-        CONTINUATION_FLOOR_M / 1e3
-    );
-    Some(sol)
 }
 
 /// The solution of a pass from the search's result.

@@ -507,18 +507,18 @@ pub struct ModelFile {
     /// `"us1976"` (default) or `"vacuum"`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub atmosphere: Option<AtmosphereFile>,
-    /// Integrator: `"dopri5"` (default: Dormand–Prince 5(4)) or `"dop853"` (Dormand–Prince
-    /// 8(5,3), Hairer, Nørsett & Wanner's DOP853: fewer, longer steps, but on the demos more
-    /// right-hand-side evaluations; docs/method.md §7).
+    /// Integrator: `"dop853"` (default: Dormand–Prince 8(5,3), Hairer, Nørsett & Wanner's
+    /// DOP853) or `"dopri5"` (Dormand–Prince 5(4), the default up to December 2026;
+    /// docs/method.md §7).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub integrator: Option<IntegratorFile>,
     /// Retry a rejected step that crossed a corner of the right-hand side (a node of a linear
     /// drag table, a layer base of the standard atmosphere) so that it ends on the corner
-    /// (default false; docs/method.md §7).
+    /// (default true; docs/method.md §7).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub end_steps_at_corners: Option<bool>,
     /// Start each integration segment (from one event to the next) with the step size the
-    /// previous one ended with, instead of a fresh estimate (default false; docs/method.md §7).
+    /// previous one ended with, instead of a fresh estimate (default true; docs/method.md §7).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub carry_step_size: Option<bool>,
     /// Relative tolerance of the integrator (default 1e-11).
