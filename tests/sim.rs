@@ -411,6 +411,16 @@ fn a_checkpoint_of_another_problem_shape_flies_from_the_pad() {
     );
 }
 
+/// Demo `name` flown by the integrator of the default up to December 2026: Dormand–Prince
+/// 5(4), no corner-ending steps, no carried step sizes.
+fn former_default(name: &str) -> Problem {
+    let mut p = demo(name);
+    p.integrator.method = kickturn::problem::IntegratorMethod::DormandPrince5;
+    p.integrator.end_steps_at_corners = false;
+    p.integrator.carry_step_size = false;
+    p
+}
+
 /// The Dormand–Prince 8(5,3) integrator (`model.integrator: "dop853"`) flies every demo to the
 /// orbit and final mass of Dormand–Prince 5(4) (the former default) at the same rtol 1e-11: both solve
 /// the same equations to ~1e-11, so they agree far inside the orbit tolerance. Measured
@@ -422,10 +432,7 @@ fn dop853_flies_the_demos_like_dopri5() {
         "medium-2stage-leo200.json",
         "heavy-boosters-leo300.json",
     ] {
-        let mut p5 = demo(name);
-        p5.integrator.method = kickturn::problem::IntegratorMethod::DormandPrince5;
-        p5.integrator.end_steps_at_corners = false;
-        p5.integrator.carry_step_size = false;
+        let p5 = former_default(name);
         let mut p8 = p5.clone();
         p8.integrator.method = kickturn::problem::IntegratorMethod::DormandPrince853;
         let (f5, f8) = (
@@ -459,10 +466,7 @@ fn corner_steps_and_carried_step_sizes_keep_the_demo_results() {
         "medium-2stage-leo200.json",
         "heavy-boosters-leo300.json",
     ] {
-        let mut p5 = demo(name);
-        p5.integrator.method = kickturn::problem::IntegratorMethod::DormandPrince5;
-        p5.integrator.end_steps_at_corners = false;
-        p5.integrator.carry_step_size = false;
+        let p5 = former_default(name);
         let mut fast = p5.clone();
         fast.integrator.method = kickturn::problem::IntegratorMethod::DormandPrince853;
         fast.integrator.end_steps_at_corners = true;

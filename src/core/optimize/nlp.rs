@@ -205,12 +205,7 @@ impl Program for Ascent<'_> {
         xs.par_iter()
             .map(|x| {
                 if self.ctx.past_deadline() {
-                    return Values {
-                        f: f64::NAN,
-                        eq: Vec::new(),
-                        ineq: Vec::new(),
-                        switch: Vec::new(),
-                    };
+                    return Values::unevaluated();
                 }
                 self.values(&self.eval(x))
             })
@@ -395,26 +390,26 @@ fn better(a: &Found, b: &Found) -> bool {
     rank(&a.outcome.values, &b.outcome.values) != std::cmp::Ordering::Greater
 }
 
-/// Phase 1 of a held max-Q limit (feasibility restoration): the least peak dynamic pressure
-/// over programs that meet the terminal conditions, in epigraph form (Nocedal & Wright 2006,
-/// §18.3 on restoration phases and §15.3 on the epigraph of a max; from memory):
+/// Phase 1 of a held max-Q limit (feasibility restoration, after the restoration phases of
+/// filter and SQP methods; Nocedal & Wright 2006, §18.3, from memory): the least peak dynamic
+/// pressure over programs that meet the terminal conditions,
 ///
 /// ```text
-/// minimize s  subject to  c_E(x) = 0,  (q_i(x) − q_limit)/1 kPa − s ≤ 0,  the other c_I(x) ≤ 0
+/// minimize max_i (q_i(x) − q_limit)/1 kPa  subject to  c_E(x) = 0,  the other c_I(x) ≤ 0
 /// ```
 ///
-/// started at the free optimum (which meets `c_E` and sets `s` to its excess), and stopped at the
-/// first program whose peak is [`RESTORED_BELOW_KPA`] below the limit. The held pass then starts
-/// from a feasible program instead of one several kPa over the limit: from there its merit
-/// function weighs the objective from the first step, where from the free optimum the first
-/// subproblem met a multiplier of 10³ on the terminal conditions, swung the azimuth and the
-/// upper stage's heading 16° apart and ended infeasible (medium demo, first stage that cannot
-/// throttle, 35 kPa). When phase 1 is stationary above the limit, that peak is the evidence of
-/// infeasibility reported.
+/// (the highest of the pass's max-Q rows; away from the point where two of them are equal it
+/// is smooth), started at the free optimum and stopped at the first program whose peak is
+/// [`RESTORED_BELOW_KPA`] below the limit. The held pass then starts from a feasible program
+/// instead of one several kPa over the limit: from the free optimum its first subproblem met a
+/// multiplier of 10³ on the terminal conditions, swung the azimuth and the upper stage's heading
+/// 16° apart and ended infeasible (medium demo, first stage that cannot throttle, 35 kPa). When
+/// phase 1 is stationary above the limit, that peak is the evidence of infeasibility reported.
+/// (An epigraph form with a level variable was tried and not adopted: docs/method.md §10.14.)
 struct Restore<'p, 'a> {
     prog: &'p Ascent<'a>,
-    /// Evaluations already flown, by variable vector (the difference column of `s` and the
-    /// points of the last line search are not flown twice).
+    /// Evaluations already flown, by variable vector: the start and the end point (an accepted
+    /// iterate) are not flown again for their `Eval`.
     flown: std::sync::Mutex<Vec<(Vec<f64>, Eval)>>,
 }
 
@@ -478,12 +473,7 @@ impl Program for Restore<'_, '_> {
         xs.par_iter()
             .map(|x| {
                 if self.prog.ctx.past_deadline() {
-                    return Values {
-                        f: f64::NAN,
-                        eq: Vec::new(),
-                        ineq: Vec::new(),
-                        switch: Vec::new(),
-                    };
+                    return Values::unevaluated();
                 }
                 self.values(self.prog.values(&self.eval(x)))
             })

@@ -54,6 +54,17 @@ pub struct Values {
 }
 
 impl Values {
+    /// No values: a point not evaluated (past a wall-time cap, or before the first evaluation);
+    /// its objective is NaN and its merit infinite.
+    pub fn unevaluated() -> Values {
+        Values {
+            f: f64::NAN,
+            eq: Vec::new(),
+            ineq: Vec::new(),
+            switch: Vec::new(),
+        }
+    }
+
     /// ℓ1 violation `‖c_E‖₁ + ‖c_I⁺‖₁` (infinite for a non-finite value).
     pub fn violation(&self) -> f64 {
         let v = self.eq.iter().map(|c| c.abs()).sum::<f64>()
@@ -280,12 +291,7 @@ impl<'a> Sqp<'a> {
             s: *s,
             lo,
             hi,
-            v: Values {
-                f: f64::NAN,
-                eq: Vec::new(),
-                ineq: Vec::new(),
-                switch: Vec::new(),
-            },
+            v: Values::unevaluated(),
             x,
             b: DMatrix::identity(n, n),
             mu: 1.0,
